@@ -1,0 +1,69 @@
+# segwise: build the C module in the tree, run specs, demo and benchmarks.
+# `make test` and `make demo` install missing Debian packages first.
+
+LUA      ?= lua5.4
+PKGS     := lua5.4 liblua5.4-dev libgsl-dev lua-busted luarocks
+CC       ?= cc
+WARN     := -std=c99 -Wall -Wextra -pedantic -Wmissing-prototypes -Wshadow
+OPT      ?= -O2 -g
+PKGCFG    = $(shell pkg-config --cflags lua5.4 gsl 2>/dev/null)
+GSLLIBS   = $(shell pkg-config --libs gsl 2>/dev/null || echo -lgsl -lgslcblas)
+CFLAGS   += $(WARN) $(OPT) -fPIC -fvisibility=hidden -D_POSIX_C_SOURCE=200809L $(PKGCFG) $(EXTRA_CFLAGS)
+LDFLAGS  += -shared $(EXTRA_LDFLAGS)
+
+CORE_SRC := $(filter-out csrc/l%.c,$(wildcard csrc/*.c))
+BIND_SRC := $(wildcard csrc/l*.c)
+BUILDDIR ?= build
+OBJ      := $(patsubst csrc/%.c,$(BUILDDIR)/%.o,$(CORE_SRC) $(BIND_SRC))
+MODULE   := $(BUILDDIR)/segwise/core.so
+
+export LUA_PATH  := ./lua/?.lua;./lua/?/init.lua;$(LUA_PATH);;
+export LUA_CPATH := ./$(BUILDDIR)/?.so;$(LUA_CPATH);;
+
+.PHONY: all deps test demo bench clean check-exports
+
+all: $(MODULE)
+
+$(BUILDDIR)/%.o: csrc/%.c $(wildcard csrc/*.h) | $(BUILDDIR)/segwise
+	$(CC) $(CFLAGS) -c $< -o $@
+
+$(BUILDDIR)/segwise:
+	mkdir -p $@
+
+$(MODULE): $(OBJ)
+	$(CC) $(LDFLAGS) -o $@ $(OBJ) $(GSLLIBS) -lm
+
+# Installs what is missing from Debian's packages; as root directly, else via
+# sudo; where neither works it prints the install line and stops.
+deps:
+	@missing=""; for p in $(PKGS) $(EXTRA_PKGS); do \
+	  dpkg -s $$p >/dev/null 2>&1 || missing="$$missing $$p"; done; \
+	if [ -n "$$missing" ]; then \
+	  echo "segwise: installing$$missing"; \
+	  if [ "$$(id -u)" = 0 ]; then SUDO=""; \
+	  elif command -v sudo >/dev/null 2>&1; then SUDO="sudo"; \
+	  else echo "segwise: please run: apt-get install -y$$missing" >&2; exit 1; fi; \
+	  $$SUDO env DEBIAN_FRONTEND=noninteractive apt-get update -qq && \
+	  $$SUDO env DEBIAN_FRONTEND=noninteractive apt-get install -y -qq$$missing || \
+	  { echo "segwise: install failed; please run: apt-get install -y$$missing" >&2; exit 1; }; \
+	fi
+
+check-exports: $(MODULE)
+	@exp=$$(nm -D --defined-only $(MODULE) | awk '{print $$3}' | grep -v '^_' ); \
+	if [ "$$exp" != "luaopen_segwise_core" ]; then echo "unexpected exports: $$exp" >&2; exit 1; fi
+
+test: deps
+	@$(MAKE) --no-print-directory all check-exports
+	@$(LUA) spec/run.lua $(LUA) $$(command -v busted) --cpath='./$(BUILDDIR)/?.so' $(SPEC)
+
+demo: deps
+	@$(MAKE) --no-print-directory all
+	@$(LUA) examples/demo_study.lua
+
+bench:
+	@$(MAKE) --no-print-directory deps EXTRA_PKGS="python3-numpy python3-scipy"
+	@$(MAKE) --no-print-directory all
+	@$(LUA) spec/bench/run.lua
+
+clean:
+	rm -rf $(BUILDDIR)

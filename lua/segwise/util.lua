@@ -1,0 +1,68 @@
+-- Argument checking shared by the Lua side: every message names the
+-- function and the option at fault.
+local util = {}
+
+local function describe(v)
+  local t = type(v)
+  if t == "number" then return ("%s (%.6g)"):format(t, v) end
+  if t == "string" then return ("string %q"):format(v) end
+  return t
+end
+
+-- spec maps option name -> "number" | "string" | "boolean" | "table" |
+-- "function" | "any" | {enum values...} | "number|table" (alternatives).
+function util.check_opts(fname, opts, spec)
+  if opts == nil then return {} end
+  if type(opts) ~= "table" then
+    error(("segwise.%s: options must be a table (got %s)"):format(fname, describe(opts)), 3)
+  end
+  for k, v in pairs(opts) do
+    local want = spec[k]
+    if want == nil then
+      local names = {}
+      for name in pairs(spec) do names[#names + 1] = name end
+      table.sort(names)
+      error(("segwise.%s: unknown option '%s' (known: %s)"):format(fname, tostring(k), table.concat(names, ", ")), 3)
+    end
+    if type(want) == "table" then
+      local ok = false
+      for _, e in ipairs(want) do if v == e then ok = true end end
+      if not ok then
+        local quoted = {}
+        for _, e in ipairs(want) do quoted[#quoted + 1] = ("%q"):format(tostring(e)) end
+        error(("segwise.%s: option %s must be one of %s (got %s)"):format(fname, k, table.concat(quoted, ", "), describe(v)), 3)
+      end
+    elseif want ~= "any" then
+      local ok = false
+      for alt in want:gmatch("[^|]+") do
+        if type(v) == alt or (alt == "table" and util.is_array(v)) then ok = true end
+      end
+      if not ok then
+        error(("segwise.%s: option %s must be a %s (got %s)"):format(fname, k, want:gsub("|", " or "), describe(v)), 3)
+      end
+      if type(v) == "number" and v ~= v then
+        error(("segwise.%s: option %s is NaN"):format(fname, k), 3)
+      end
+    end
+  end
+  return opts
+end
+
+-- A finite number argument, named in the message when it is not.
+function util.check_number(fname, name, v, level)
+  if type(v) ~= "number" then
+    error(("segwise.%s: %s must be a number (got %s)"):format(fname, name, describe(v)), (level or 2) + 1)
+  end
+  if v ~= v or v == math.huge or v == -math.huge then
+    error(("segwise.%s: %s must be finite (got %s)"):format(fname, name, tostring(v)), (level or 2) + 1)
+  end
+  return v
+end
+
+function util.is_array(v)
+  local mt = getmetatable(v)
+  return type(v) == "userdata" and mt ~= nil and mt.__name == "segwise.Array"
+end
+
+util.describe = describe
+return util
