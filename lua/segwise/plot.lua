@@ -1,0 +1,28 @@
+--- segwise.plot: SVG files and terminal plots of curves, models, knots,
+-- load lines and operating points.  Layout and drawing only; the numbers
+-- come from the C core.
+--
+--   plot.svg(path, spec)    standalone SVG, written atomically; returns the text
+--   plot.term(spec, opts)   Unicode braille plot; returns the text, prints it
+--                           unless opts.print == false
+--   plot.ticks(lo, hi, {log=, unit=, n=})  the axis used by both
+--
+-- spec = {title=, x={label=, unit=, log=, min=, max=}, y={...},
+--         series={{x=, y=, label=, style="line"|"points"|"step", marker=}, ...},
+--         marks={{x=, y=, label=}, ...}}
+-- @module segwise.plot
+
+local svg = require "segwise.plot.svg"
+local term = require "segwise.plot.term"
+local axis = require "segwise.plot.axis"
+local common = require "segwise.plot.common"
+
+return {
+  svg = svg.write,
+  svg_string = svg.render,
+  term = term.draw,
+  ticks = axis.new,
+  escape = svg.escape,
+  PALETTE = common.PALETTE,
+  DASHES = common.DASHES,
+}

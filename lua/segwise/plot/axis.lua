@@ -1,0 +1,172 @@
+--- segwise.plot.axis: axis ranges, "nice" ticks (1-2-5 steps, decades on
+-- log axes) and SI tick labels.  Layout only: no fitting or solving here.
+-- @module segwise.plot.axis
+
+local report = require "segwise.report"
+
+local M = {}
+local floor, ceil, abs, huge, max = math.floor, math.ceil, math.abs, math.huge, math.max
+local fmt = string.format
+
+-- Decimal exponent of |v| as printed, immune to log10 rounding (log10(1e-3)
+-- may come out as -2.9999...).
+local function dexp(v)
+  return tonumber(fmt("%.12e", abs(v)):match("e([-+]%d+)$"))
+end
+
+local function pow10(k) return tonumber("1e" .. k) end
+
+local function finite(v) return type(v) == "number" and v == v and v ~= huge and v ~= -huge end
+M.finite = finite
+
+-- The 1-2-5 step nearest above span/target.
+local function nice_step(span, target)
+  local raw = span / target
+  local e = dexp(raw)
+  local mag = pow10(e)
+  local norm = raw / mag
+  local m
+  if norm <= 1.0000001 then m = 1 elseif norm <= 2.0000001 then m = 2
+  elseif norm <= 5.0000001 then m = 5 else m = 10 end
+  return m * mag, m, e
+end
+M.nice_step = nice_step
+
+local function widen(lo, hi)
+  if lo == hi then
+    local d = (lo == 0) and 1 or abs(lo) * 0.1
+    return lo - d, hi + d
+  end
+  return lo, hi
+end
+
+-- Linear ticks.  With `tight`, the range stays [lo, hi] and only ticks
+-- inside are kept; otherwise it widens to the outer ticks.
+local function linear(lo, hi, target, tight)
+  lo, hi = widen(lo, hi)
+  local step = nice_step(hi - lo, target)
+  local k0 = floor(lo / step + 1e-9)
+  local k1 = ceil(hi / step - 1e-9)
+  local ticks = {}
+  for k = k0, k1 do
+    local v = k * step
+    if k == 0 then v = 0.0 end
+    if not tight or (v >= lo - step * 1e-9 and v <= hi + step * 1e-9) then ticks[#ticks + 1] = v end
+  end
+  if not tight then lo, hi = k0 * step, k1 * step end
+  return lo, hi, ticks, step
+end
+
+local function log_ticks(lo, hi, target, tight)
+  if lo == hi then lo, hi = lo / 2, hi * 2 end
+  local d0 = floor(math.log(lo, 10) + 1e-9)
+  local d1 = ceil(math.log(hi, 10) - 1e-9)
+  if d1 == d0 then d1 = d0 + 1 end
+  local ticks = {}
+  if d1 - d0 <= 2 then
+    -- few decades: 1-2-5 in each decade
+    for d = d0, d1 do
+      for _, m in ipairs { 1, 2, 5 } do
+        local v = tonumber(m .. "e" .. d)
+        if (d < d1 or m == 1) then ticks[#ticks + 1] = v end
+      end
+    end
+  else
+    local every = max(1, ceil((d1 - d0) / target))
+    for d = d0, d1 do
+      if (d - d0) % every == 0 then ticks[#ticks + 1] = pow10(d) end
+    end
+  end
+  if tight then
+    local kept = {}
+    for _, v in ipairs(ticks) do
+      if v >= lo * (1 - 1e-9) and v <= hi * (1 + 1e-9) then kept[#kept + 1] = v end
+    end
+    ticks = kept
+  else
+    lo, hi = pow10(d0), pow10(d1)
+  end
+  return lo, hi, ticks
+end
+
+--- Builds an axis from a data range.
+-- @tparam number lo smallest value (finite; > 0 on a log axis)
+-- @tparam number hi largest value
+-- @tparam[opt] table opts {log = bool, unit = "A", n = 6 (target tick count),
+--   tight = bool (keep lo/hi, ticks only inside), min =, max = (fixed bounds)}
+-- @treturn table {lo, hi, log, ticks = {...}, labels = {...}, map = function(v) -> 0..1 or nil}
+function M.new(lo, hi, opts)
+  opts = opts or {}
+  if not finite(lo) or not finite(hi) then
+    error(fmt("segwise.plot: axis range must be finite (got %s .. %s)", tostring(lo), tostring(hi)), 2)
+  end
+  if lo > hi then lo, hi = hi, lo end
+  local unit = opts.unit or ""
+  local target = opts.n or 6
+  local ax = { log = opts.log and true or false, unit = unit }
+  local ticks, step
+  if ax.log then
+    if lo <= 0 then
+      error(fmt("segwise.plot: log axis needs positive values (smallest is %s)", tostring(lo)), 2)
+    end
+    ax.lo, ax.hi, ticks = log_ticks(lo, hi, target, opts.tight)
+  else
+    ax.lo, ax.hi, ticks, step = linear(lo, hi, target, opts.tight)
+  end
+  -- a bound the user fixed is kept exactly; ticks outside it are dropped
+  if opts.min or opts.max then
+    ax.lo, ax.hi = opts.min or ax.lo, opts.max or ax.hi
+    local kept, span = {}, ax.hi - ax.lo
+    for _, v in ipairs(ticks) do
+      if v >= ax.lo - 1e-9 * span and v <= ax.hi + 1e-9 * span then kept[#kept + 1] = v end
+    end
+    ticks = kept
+  end
+  ax.ticks = ticks
+  ax.labels = M.labels(ticks, unit, ax.log, step)
+  local a, b = ax.lo, ax.hi
+  if ax.log then
+    local la, lb = math.log(a, 10), math.log(b, 10)
+    ax.map = function(v)
+      if not finite(v) or v <= 0 then return nil end
+      return (math.log(v, 10) - la) / (lb - la)
+    end
+  else
+    ax.map = function(v)
+      if not finite(v) then return nil end
+      return (v - a) / (b - a)
+    end
+  end
+  return ax
+end
+
+--- Tick labels with SI prefixes.  Linear axes share one prefix (from the
+-- largest tick) and show just the digits the step needs: 0 mA, 10 mA, 20 mA.
+-- Log axes label each decade with its own prefix: 1 µA, 10 µA, 100 µA.
+function M.labels(ticks, unit, log, step)
+  local labels = {}
+  if log or not step then
+    for i, v in ipairs(ticks) do labels[i] = report.si(v, unit, 3) end
+    return labels
+  end
+  local biggest = 0
+  for _, v in ipairs(ticks) do biggest = max(biggest, abs(v)) end
+  local e3 = report.si_step(biggest, 3) or 0
+  local pre = report.PREFIX[e3] or ""
+  local se = dexp(step)
+  for i, v in ipairs(ticks) do
+    local s
+    if v == 0 then s = "0"
+    else
+      local d = max(1, dexp(v) - se + 1)
+      s = report.si_in(v, e3, math.min(d, 15))
+    end
+    if unit ~= "" or pre ~= "" then
+      s = s .. (unit ~= "" and " " or "") .. pre .. unit
+    end
+    labels[i] = s
+  end
+  return labels
+end
+
+return M
