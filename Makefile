@@ -67,3 +67,27 @@ bench:
 
 clean:
 	rm -rf $(BUILDDIR)
+
+# --- reliability: the suite under sanitizers and valgrind -------------------
+ASAN_DIR := build-asan
+ASAN_LIB  = $(shell $(CC) -print-file-name=libasan.so)
+UBSAN_LIB = $(shell $(CC) -print-file-name=libubsan.so)
+
+-include spec/fuzz/fuzz.mk
+
+.PHONY: asan valgrind
+asan: deps
+	@$(MAKE) --no-print-directory BUILDDIR=$(ASAN_DIR) OPT="-O1 -g -fno-omit-frame-pointer" \
+	  EXTRA_CFLAGS="-fsanitize=address,undefined -fno-sanitize-recover=undefined" \
+	  EXTRA_LDFLAGS="-fsanitize=address,undefined" all
+	@LD_PRELOAD="$(ASAN_LIB) $(UBSAN_LIB)" ASAN_OPTIONS=detect_leaks=1:abort_on_error=0:exitcode=23 \
+	  LSAN_OPTIONS=suppressions=$(CURDIR)/spec/lsan.supp:print_suppressions=0 \
+	  UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
+	  $(LUA) spec/run.lua $(LUA) $$(command -v busted) --cpath='./$(ASAN_DIR)/?.so' $(SPEC)
+
+VALGRIND_SPECS ?= spec
+valgrind: deps
+	@command -v valgrind >/dev/null || $(MAKE) --no-print-directory deps EXTRA_PKGS=valgrind
+	@$(MAKE) --no-print-directory BUILDDIR=build-vg OPT="-O1 -g" all
+	@$(LUA) spec/run.lua "valgrind -q --error-exitcode=99 --leak-check=full --show-leak-kinds=definite,indirect --errors-for-leak-kinds=definite,indirect $(LUA)" \
+	  $$(command -v busted) --cpath='./build-vg/?.so' $(VALGRIND_SPECS)

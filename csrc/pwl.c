@@ -155,16 +155,6 @@ int sw_pwl_eval(const sw_pwl *m, double x, double *y, sw_err *err)
   return SW_OK;
 }
 
-int sw_pwl_eval_many(const sw_pwl *m, const double *x, double *y, size_t n, sw_err *err)
-{
-  size_t i;
-  for (i = 0; i < n; i++) {
-    int st = sw_pwl_eval(m, x[i], &y[i], err);
-    if (st) return sw_err_prefix(err, "at index %zu: ", i + 1);
-  }
-  return SW_OK;
-}
-
 int sw_pwl_slope_at(const sw_pwl *m, double x, double *s, sw_err *err)
 {
   if (isnan(x)) return sw_err_set(err, SW_EINVAL, "x is NaN");

@@ -11,11 +11,14 @@ for line in pipe:lines() do
   local s, f, e = line:match("(%d+) successe?s? / (%d+) failures? / (%d+) errors?")
   if s then ok_n, fail_n, err_n = tonumber(s), tonumber(f), tonumber(e) end
 end
-local closed_ok = pipe:close()
+local closed_ok, _, code = pipe:close()
 if not ok_n then
   print("0 passed, 1 failed")
   io.stderr:write("spec/run.lua: busted printed no summary (did it crash?)\n")
   os.exit(1)
+end
+if not closed_ok and fail_n + err_n == 0 then
+  io.stderr:write(("spec/run.lua: the run exited with status %s although every spec passed (a sanitizer or valgrind report above?)\n"):format(tostring(code)))
 end
 print(string.format("%d passed, %d failed", ok_n, fail_n + err_n))
 os.exit((fail_n + err_n == 0 and closed_ok) and 0 or 1)
