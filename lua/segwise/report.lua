@@ -138,6 +138,19 @@ end
 
 local function trim(s) return (s:gsub("^%s+", ""):gsub("%s+$", "")) end
 
+local function first_char(s) return s:match("^[%z\1-\127\194-\244][\128-\191]*") end
+
+-- Common unit symbols, to catch a doubled prefix such as "4.7 kkΩ".
+local COMMON_UNIT = { A = true, V = true, W = true, ["\u{03A9}"] = true, F = true, H = true,
+  S = true, Hz = true, s = true, J = true, C = true, K = true, ohm = true, Ohm = true }
+
+-- True when unit text is a prefix followed by a common unit ("kΩ", "mA").
+local function has_prefix(u)
+  local first = first_char(u)
+  if u:sub(1, 3):lower() == "meg" then return true end
+  return first ~= nil and PARSE_PREFIX[first] ~= nil and COMMON_UNIT[u:sub(#first + 1)] == true
+end
+
 -- Reads the unit part after a number: optional SI prefix (or "meg"), then a
 -- unit without spaces.  Returns power of ten and unit, or nil.
 local function read_suffix(rest, unit_hint)
@@ -152,11 +165,15 @@ local function read_suffix(rest, unit_hint)
       return nil
     end
   end
-  if rest:find("%s") or rest:find("^[%d%.+-]") then return nil end
-  if rest:sub(1, 3):lower() == "meg" then return 6, rest:sub(4) end
-  local first = rest:match("^[%z\1-\127\194-\244][\128-\191]*")
-  if first and PARSE_PREFIX[first] then return PARSE_PREFIX[first], rest:sub(#first + 1) end
-  return 0, rest
+  if rest:find("%s") or rest:find("^[%d%.+-]") or rest:find("^e[+-]?%d*$") then return nil end
+  local e, u = 0, rest
+  if rest:sub(1, 3):lower() == "meg" then e, u = 6, rest:sub(4)
+  else
+    local first = first_char(rest)
+    if first and PARSE_PREFIX[first] then e, u = PARSE_PREFIX[first], rest:sub(#first + 1) end
+  end
+  if u:find("[%d]") or has_prefix(u) then return nil end
+  return e, u
 end
 
 -- Letters allowed in place of the decimal point in part markings ("4k7",
@@ -197,9 +214,11 @@ function M.parse_si(text, unit)
   end
   -- part-marking style: digits, prefix letter in place of the point, digits
   do
-    local sg, ip, letter, fp, tail = s:match("^([+-]?)(%d*)([%a\194-\244][\128-\191]*)(%d*)(.-)$")
-    if sg and INFIX[letter] and (ip ~= "" or fp ~= "") and fp ~= ""
-       and not tail:find("^[%d%.]") and not tail:find("%s") then
+    local sg, ip, letter, fp, tail = s:match("^([+-]?)(%d*)([%a\194-\244][\128-\191]*)(%d*)%s*(.-)$")
+    local tf = tail and first_char(tail)
+    if sg and INFIX[letter] and fp ~= ""
+       and not tail:find("^[%d%.]") and not tail:find("%s")
+       and not (tf and (PARSE_PREFIX[tf] or tail:sub(1, 3):lower() == "meg")) then
       -- scaled through the decimal string: one rounding, 4k7 == 4700 exactly
       local v = tonumber((ip == "" and "0" or ip) .. "." .. fp .. "e" .. INFIX[letter])
       if v then return (sg == "-" and -v or v), tail end

@@ -1,0 +1,508 @@
+-- Specs for segwise.report: SI formatting and parsing, tables, ready-made
+-- reports.  Only needs lua/segwise/report.lua (no C module).
+
+local report = require "segwise.report"
+local si, parse_si = report.si, report.parse_si
+
+local MU = "\u{00B5}"
+local OHM = "\u{03A9}"
+local DASH = "\u{2014}"
+
+local function tmpname()
+  local p = os.tmpname()
+  os.remove(p)
+  return p
+end
+
+local function read_all(path)
+  local f = assert(io.open(path, "rb"))
+  local s = f:read("a")
+  f:close()
+  return s
+end
+
+local function exists(path)
+  local f = io.open(path, "rb")
+  if f then f:close() return true end
+  return false
+end
+
+-- A small RFC 4180 reader, written here so the CSV writer is checked by
+-- an independent parser.
+local function parse_csv(s)
+  local rows, row, field, i, n = {}, {}, {}, 1, #s
+  local quoted = false
+  while i <= n do
+    local c = s:sub(i, i)
+    if quoted then
+      if c == '"' then
+        if s:sub(i + 1, i + 1) == '"' then field[#field + 1] = '"'; i = i + 1
+        else quoted = false end
+      else field[#field + 1] = c end
+    elseif c == '"' then quoted = true
+    elseif c == "," then row[#row + 1] = table.concat(field); field = {}
+    elseif c == "\n" or c == "\r" then
+      if c == "\r" and s:sub(i + 1, i + 1) == "\n" then i = i + 1 end
+      row[#row + 1] = table.concat(field); field = {}
+      rows[#rows + 1] = row; row = {}
+    else field[#field + 1] = c end
+    i = i + 1
+  end
+  if #field > 0 or #row > 0 then row[#row + 1] = table.concat(field); rows[#rows + 1] = row end
+  return rows
+end
+
+local function lines_of(s)
+  local t = {}
+  for l in s:gmatch("([^\n]*)\n") do t[#t + 1] = l end
+  return t
+end
+
+describe("segwise.report", function()
+
+  describe("si", function()
+    -- SI prefixes and symbols are from the SI Brochure, BIPM, 9th edition
+    -- (2019), table 7; engineering notation uses the powers of 1000.
+    -- Rule checked here: 3 significant digits by default, rounded once,
+    -- trailing zeros dropped, a space before the prefixed unit.
+    local cases = {
+      { 0.00431, "A", nil, "4.31 mA" },
+      { 2200, OHM, nil, "2.2 k" .. OHM },
+      { 0.61, "W", nil, "610 mW" },
+      { 1, "V", nil, "1 V" },
+      { 1000, "A", nil, "1 kA" },
+      { 999.96, "V", nil, "1 kV" },             -- rounds across the prefix boundary
+      { 999.4, "V", nil, "999 V" },
+      { 0.000999999, "F", nil, "1 mF" },
+      { 0.0009994, "F", nil, "999 " .. MU .. "F" },
+      { -0.0012345, "A", nil, "-1.23 mA" },
+      { 4.7e-6, "F", nil, "4.7 " .. MU .. "F" },
+      { 100e-12, "F", nil, "100 pF" },
+      { 1e-15, "C", nil, "1 fC" },
+      { 3e-18, "s", nil, "3 as" },
+      { 2e-21, "mol", nil, "2 zmol" },
+      { 5e-24, "g", nil, "5 yg" },
+      { 123456789, "Hz", nil, "123 MHz" },
+      { 4.2e9, "Hz", nil, "4.2 GHz" },
+      { 1.5e12, "W", nil, "1.5 TW" },
+      { 7e15, "J", nil, "7 PJ" },
+      { 8e18, "J", nil, "8 EJ" },
+      { 12.5, "V", 2, "13 V" },                 -- %.1e rounds half to even: 12.5 -> 1.2e1? see below
+      { 4700, "", nil, "4.7k" },                -- no unit: prefix glued to the number
+      { 4.31, "A", 5, "4.31 A" },
+      { 0.0123456, "A", 5, "12.346 mA" },
+      { 0, "V", nil, "0 V" },
+      { 1.5e-27, "A", nil, "1.5e-27 A" },       -- below yocto: exponent form
+      { 2e27, "Hz", nil, "2e+27 Hz" },
+    }
+    -- 12.5 is exact in binary, and C's printf rounds exact halves to even:
+    -- "%.1e" gives 1.2e+01.  Computed here instead of assumed.
+    cases[22][4] = (string.format("%.1e", 12.5) == "1.2e+01") and "12 V" or "13 V"
+    for _, c in ipairs(cases) do
+      it(string.format("si(%.17g, %q, %s) == %q", c[1], c[2], tostring(c[3]), c[4]), function()
+        assert.are.equal(c[4], si(c[1], c[2], c[3]))
+      end)
+    end
+
+    it("prints NaN and infinities clearly, with the unit", function()
+      assert.are.equal("NaN A", si(0 / 0, "A"))
+      assert.are.equal("inf V", si(math.huge, "V"))
+      assert.are.equal("-inf W", si(-math.huge, "W"))
+      assert.are.equal("NaN", si(0 / 0))
+    end)
+
+    it("rejects bad arguments, naming them", function()
+      assert.has_error(function() si("1", "A") end, "segwise.si: value must be a number (got string)")
+      assert.has_error(function() si(1, 5) end, "segwise.si: unit must be a string (got number)")
+      assert.has_error(function() si(1, "A", 0) end,
+        "segwise.si: digits must be an integer from 1 to 17 (got 0)")
+      assert.has_error(function() si(1, "A", 2.5) end)
+    end)
+
+    it("never prints 1000 before a prefix, over many magnitudes", function()
+      for e = -24, 23 do
+        for _, m in ipairs { 0.99951, 0.999951, 0.9996, 1, 9.9996, 99.996, 999.6 } do
+          local s = si(m * 10.0 ^ e, "A")
+          local mant = s:match("^(%S+)")
+          local v = tonumber(mant)
+          assert.is_truthy(v, s)
+          assert.is_true(math.abs(v) < 1000, s)
+        end
+      end
+    end)
+  end)
+
+  describe("parse_si", function()
+    local cases = {
+      { "4.7k", 4700, "" },
+      { "4.7 k" .. OHM, 4700, OHM },
+      { "10 mA", 0.01, "A" },
+      { "1e-3", 0.001, "" },
+      { "2.2uF", 2.2e-6, "F" },
+      { "2.2" .. MU .. "F", 2.2e-6, "F" },
+      { "2.2\u{03BC}F", 2.2e-6, "F" },          -- Greek small mu, also seen as micro
+      { "4.7meg", 4.7e6, "" },
+      { "4.7MEG" .. OHM, 4.7e6, OHM },
+      { "1M", 1e6, "" },
+      { "1m", 1e-3, "" },
+      { "-5.5 V", -5.5, "V" },
+      { "  +.5 m ", 5e-4, "" },
+      { "12", 12, "" },
+      { "1.5e-27 A", 1.5e-27, "A" },
+      { "3 pF", 3e-12, "F" },
+      { "7 GHz", 7e9, "Hz" },
+      -- part marking, common practice for resistors: the letter stands for
+      -- the decimal point and gives the multiplier (IEC 60062 style codes)
+      { "4k7", 4700, "" },
+      { "4K7", 4700, "" },
+      { "2R2", 2.2, "" },
+      { "R47", 0.47, "" },
+      { "1M5", 1.5e6, "" },
+      { "4u7", 4.7e-6, "" },
+      { "6n8", 6.8e-9, "" },
+      { "4k7" .. OHM, 4700, OHM },
+    }
+    for _, c in ipairs(cases) do
+      it(string.format("parse_si(%q) == %.17g", c[1], c[2]), function()
+        local v, u = parse_si(c[1])
+        -- tolerance: 1e-15 relative (decimal scaling may round once)
+        assert.is.near(c[2], v, math.abs(c[2]) * 1e-15)
+        assert.are.equal(c[3], u)
+      end)
+    end
+
+    it("reads 4k7 as exactly 4700", function()
+      assert.are.equal(4700, parse_si("4k7"))
+      assert.are.equal(4700, parse_si("4.7k"))
+    end)
+
+    it("strips an expected unit first when given one", function()
+      assert.are.equal(5, parse_si("5 Pa", "Pa"))
+      assert.are.equal(5e3, parse_si("5 kPa", "Pa"))
+      assert.are.equal(5e15, parse_si("5 Pa"))        -- without it, P is peta
+    end)
+
+    it("reads what si prints for NaN and infinities", function()
+      local v = parse_si("NaN A")
+      assert.is_true(v ~= v)
+      assert.are.equal(math.huge, parse_si("inf V"))
+      assert.are.equal(-math.huge, parse_si("-inf"))
+    end)
+
+    it("passes numbers through", function()
+      assert.are.equal(3.25, parse_si(3.25))
+    end)
+
+    local bad = { "", "abc", "4.7 k x", "k", "1..2", "1 2", "4k7k", "--1", "1e", "4.7 kk" .. OHM }
+    for _, t in ipairs(bad) do
+      it(string.format("rejects %q, naming the text", t), function()
+        local ok, err = pcall(parse_si, t)
+        assert.is_false(ok)
+        assert.is_truthy(err:find("segwise.parse_si: cannot read " .. string.format("%q", t), 1, true), err)
+      end)
+    end
+
+    it("rejects a non-string, non-number", function()
+      assert.has_error(function() parse_si({}) end, "segwise.parse_si: expected a string (got table)")
+    end)
+
+    it("round-trips si() within the printed precision (seeded random values)", function()
+      math.randomseed(20261202)
+      for _ = 1, 2000 do
+        local x = (math.random() * 2 - 1) * 10.0 ^ math.random(-26, 26)
+        for _, d in ipairs { 1, 3, 6 } do
+          local s = si(x, "A", d)
+          local back, unit = parse_si(s)
+          assert.are.equal("A", unit)
+          -- d significant digits: half a unit in the last place is at most
+          -- 0.5 * 10^(1-d) of the value
+          assert.is.near(x, back, math.abs(x) * 0.5 * 10.0 ^ (1 - d) * (1 + 1e-9))
+        end
+      end
+    end)
+  end)
+
+  describe("table", function()
+    local rows = {
+      { name = "D1", i = 0.00431, v = 0.65, p = 0.0028, n = 3 },
+      { name = 'R1, "load"', i = 0.0123, v = 12.2, p = 0.15, n = 10 },
+      { name = "Z1", i = 0 / 0 },
+    }
+    local cols = { "name", { name = "I", key = "i", unit = "A" }, { name = "V", key = "v", unit = "V", fmt = "%.3f" },
+      { name = "P", key = "p", unit = "W" }, { name = "n", key = "n" },
+      { name = "2I", fn = function(r) return 2 * r.i end, unit = "A" } }
+
+    it("text: one prefix per column, shown in the header; columns aligned", function()
+      local s = report.table(rows, cols)
+      local l = lines_of(s)
+      assert.is_truthy(l[1]:find("I (mA)", 1, true))
+      assert.is_truthy(l[1]:find("V (V)", 1, true))
+      assert.is_truthy(l[1]:find("P (mW)", 1, true))
+      assert.is_truthy(l[1]:find("2I (mA)", 1, true))
+      assert.is_truthy(l[3]:find("4.31", 1, true))
+      assert.is_truthy(l[3]:find("0.650", 1, true))   -- fmt = "%.3f", base unit
+      assert.is_truthy(l[4]:find("150", 1, true))     -- 0.15 W in mW
+      assert.is_truthy(l[4]:find("24.6", 1, true))    -- fn column: 2 * 12.3 mA
+      assert.is_truthy(l[5]:find("NaN", 1, true))
+      -- right-aligned numeric column: the I values end in the same column
+      local e3 = select(2, l[3]:find("4.31", 1, true))
+      local e4 = select(2, l[4]:find("12.3", 1, true))
+      assert.are.equal(utf8.len(l[3]:sub(1, e3)), utf8.len(l[4]:sub(1, e4)))
+      -- a rule line under the header
+      assert.is_truthy(l[2]:find("^\u{2500}+"))
+    end)
+
+    it("text with units = 'cells': each value carries its own prefix", function()
+      local s = report.table(rows, cols, { units = "cells" })
+      assert.is_truthy(s:find("4.31 mA", 1, true))
+      assert.is_truthy(s:find("150 mW", 1, true))
+      assert.is_truthy(s:find("V (V)", 1, true))       -- fmt column keeps the unit in the header
+    end)
+
+    it("csv: RFC 4180 quoting and raw numbers, read back by an independent parser", function()
+      local s = report.table(rows, cols, { format = "csv" })
+      local t = parse_csv(s)
+      assert.are.equal(4, #t)
+      assert.are.same({ "name", "I (A)", "V (V)", "P (W)", "n", "2I (A)" }, t[1])
+      assert.are.equal('R1, "load"', t[3][1])
+      assert.are.equal(0.00431, tonumber(t[2][2]))
+      assert.are.equal("3", t[2][5])
+      assert.are.equal("NaN", t[4][2])
+      assert.are.equal("", t[4][3])
+      assert.is_truthy(s:find('"R1, ""load"""', 1, true))
+    end)
+
+    it("csv: %.6g by default, full precision on request", function()
+      local r = { { x = 1 / 3 } }
+      assert.are.equal("x\n0.333333\n", report.table(r, { "x" }, { format = "csv" }))
+      local full = report.table(r, { "x" }, { format = "csv", full = true })
+      assert.are.equal(1 / 3, tonumber(parse_csv(full)[2][1]))
+    end)
+
+    it("csv: quotes fields with newlines and edge spaces", function()
+      local s = report.table({ { a = "two\nlines", b = " pad" } }, { "a", "b" }, { format = "csv" })
+      local t = parse_csv(s)
+      assert.are.equal("two\nlines", t[2][1])
+      assert.are.equal(" pad", t[2][2])
+    end)
+
+    it("markdown: header, alignment row, escaped pipes", function()
+      local s = report.table({ { a = "x|y", b = 1.5 } }, { "a", { name = "b", key = "b", unit = "V" } },
+        { format = "markdown" })
+      local l = lines_of(s)
+      assert.is_truthy(l[1]:match("^| a +| +b %(V%) |$"), l[1])
+      assert.is_truthy(l[2]:match("^| :%-+ | %-+: |$"), l[2])
+      assert.is_truthy(l[3]:find("x\\|y", 1, true))
+      assert.is_truthy(l[3]:find("1.5", 1, true))
+    end)
+
+    it("fmt may be a function of the value", function()
+      local s = report.table({ { ok = true } }, { { name = "ok", fmt = function(v) return v and "yes" or "no" end } })
+      assert.is_truthy(s:find("yes", 1, true))
+    end)
+
+    it("writes to a path atomically and returns the text", function()
+      local path = tmpname()
+      local s = report.table(rows, cols, { format = "csv", out = path })
+      assert.are.equal(s, read_all(path))
+      assert.is_false(exists(path .. ".tmp"))
+      os.remove(path)
+    end)
+
+    it("leaves an existing file untouched when the write fails", function()
+      local path = tmpname()
+      local f = assert(io.open(path, "w")); f:write("old"); f:close()
+      -- a directory where the temporary file would go makes the write fail
+      assert(os.execute("mkdir " .. path .. ".tmp"))
+      local ok, err = pcall(report.table, rows, cols, { out = path })
+      assert.is_false(ok)
+      assert.is_truthy(err:find("cannot write", 1, true), err)
+      assert.are.equal("old", read_all(path))
+      os.execute("rmdir " .. path .. ".tmp")
+      os.remove(path)
+    end)
+
+    it("writes to an open file handle", function()
+      local f = assert(io.tmpfile())
+      local s = report.table(rows, { "name" }, { out = f })
+      f:seek("set")
+      assert.are.equal(s, f:read("a"))
+      f:close()
+    end)
+
+    it("rejects bad input, naming the part at fault", function()
+      assert.has_error(function() report.table(rows, cols, { format = "xml" }) end,
+        "segwise.report.table: format must be 'text', 'csv' or 'markdown' (got xml)")
+      assert.has_error(function() report.table(rows, {}) end,
+        "segwise.report.table: columns must be a non-empty list")
+      assert.has_error(function() report.table({ 1 }, cols) end,
+        "segwise.report.table: row 1 must be a table (got number)")
+      assert.has_error(function() report.table(rows, { 42 }) end,
+        "segwise.report.table: column 1 must be a name or a table (got number)")
+      assert.has_error(function() report.table(rows, { { name = "x", align = "up" } }) end,
+        "segwise.report.table: column 'x': align must be 'left', 'right' or 'center'")
+      local ok, err = pcall(report.table, rows, { { name = "bad", fn = function(r) return r.nope.x end } })
+      assert.is_false(ok)
+      assert.is_truthy(err:find("column 'bad', row 1", 1, true), err)
+      ok, err = pcall(report.table, { { s = "x" } }, { { name = "s", fmt = "%d" } })
+      assert.is_false(ok)
+      assert.is_truthy(err:find("column 's', row 1: format", 1, true), err)
+      assert.has_error(function() report.table(rows, { "name" }, { out = {} }) end,
+        "segwise.report.table: out must be a file path or an open file handle")
+    end)
+  end)
+
+  -- A model double with the methods the reports use, so these specs do not
+  -- depend on the C module.  Segments are {lo, hi, slope, intercept}.
+  local function fake_model(segs, info, cmp)
+    local m = {}
+    function m:nseg() return #segs end
+    function m:seg(k) local s = segs[k]; return { lo = s[1], hi = s[2], slope = s[3], intercept = s[4] } end
+    function m:knots()
+      local xs, ys = {}, {}
+      for k = 1, #segs do xs[k] = segs[k][1]; ys[k] = segs[k][4] + segs[k][3] * segs[k][1] end
+      xs[#segs + 1] = segs[#segs][2]
+      return xs, ys
+    end
+    function m:thevenin(k) return segs[k][4], segs[k][3] end
+    function m:norton(k)
+      local s = segs[k]
+      if s[3] == 0 then error("segwise.norton: segment " .. k .. " is flat") end
+      return -s[4] / s[3], 1 / s[3]
+    end
+    function m:fit_info() return info end
+    function m:compare() return cmp end
+    return m
+  end
+
+  local segs = { { 0, 0.001, 0, 0.6 }, { 0.001, 0.01, 10, 0.59 }, { 0.01, 0.05, 2.5, 0.665 } }
+  local info = { criterion = "minimax", error = "abs", segments = 3, max_abs = 0.0042, x_abs = 0.0007,
+    max_rel = 0.0071, x_rel = 0.0007, rms = 0.002,
+    per_segment = { { max_abs = 0.0042, x = 0.0007, max_rel = 0.0071 },
+      { max_abs = 0.003, x = 0.005, max_rel = 0.004 }, { max_abs = 0.001, x = 0.03, max_rel = 0.0012 } } }
+
+  describe("fit_table", function()
+    it("lists each segment with Thevenin and Norton forms and units", function()
+      local s = report.fit_table(fake_model(segs, info), { x = "A", y = "V" })
+      assert.is_truthy(s:find("3 segments", 1, true))
+      assert.is_truthy(s:find("knots: 0 A, 1 mA, 10 mA, 50 mA", 1, true))
+      assert.is_truthy(s:find("minimax", 1, true))
+      assert.is_truthy(s:find("max abs 4.2 mV at 700 " .. MU .. "A", 1, true))
+      assert.is_truthy(s:find("max rel 0.71 %", 1, true))
+      for _, h in ipairs { "from (mA)", "slope (" .. OHM .. ")", "e (mV)", "r (" .. OHM .. ")",
+        "j (mA)", "g (mS)", "max err (mV)", "max rel (%)" } do
+        assert.is_truthy(s:find(h, 1, true), h)
+      end
+      -- segment 1 is flat: no Norton form, a dash instead
+      local row1 = s:match("\n( +1 [^\n]*)")
+      assert.is_truthy(row1 and row1:find(DASH, 1, true), row1)
+      -- segment 2: j = -0.59/10 = -59 mA, g = 1/10 S = 100 mS
+      local row2 = s:match("\n( +2 [^\n]*)")
+      assert.is_truthy(row2:find("-59", 1, true), row2)
+      assert.is_truthy(row2:find(" 100 ", 1, true), row2)
+    end)
+
+    it("csv keeps raw numbers; the flat segment's Norton cells are empty", function()
+      local t = parse_csv(report.fit_table(fake_model(segs, info), { x = "A", y = "V", format = "csv" }))
+      assert.are.equal(4, #t)
+      assert.are.equal("j (A)", t[1][8])
+      assert.are.equal("", t[2][8])
+      assert.is.near(-0.059, tonumber(t[3][8]), 1e-12)  -- -0.59/10, printed %.6g
+      assert.is.near(0.0071, tonumber(t[2][12]), 1e-12)
+    end)
+
+    it("works without fit_info (a model built from points)", function()
+      local s = report.fit_table(fake_model(segs, nil), { x = "V", y = "A" })
+      assert.is_truthy(s:find("slope (S)", 1, true))
+      assert.is_falsy(s:find("max err", 1, true))
+    end)
+
+    it("markdown has a bullet summary and a pipe table", function()
+      local s = report.fit_table(fake_model(segs, info), { x = "A", y = "V", format = "markdown" })
+      assert.is_truthy(s:find("- PWL model: 3 segments", 1, true))
+      assert.is_truthy(s:find("\n| seg", 1, true))
+    end)
+
+    it("rejects something that is not a model", function()
+      assert.has_error(function() report.fit_table({}) end, "segwise.report.fit_table: model has no method 'nseg'")
+    end)
+
+    it("with a real segwise model, when the C module is built", function()
+      local ok, sw = pcall(require, "segwise")
+      if not ok or type(sw) ~= "table" or not sw.pwl then
+        pending("segwise C module not available in this build")
+        return
+      end
+      -- y = |x| sampled at -1, 0, 2: slopes -1 and 1 (by hand)
+      local m = sw.pwl { x = { -1, 0, 2 }, y = { 1, 0, 2 } }
+      local s = report.fit_table(m, { x = "A", y = "V", format = "csv" })
+      local t = parse_csv(s)
+      assert.are.equal(3, #t)
+      assert.is.near(-1, tonumber(t[2][4]), 1e-12)
+      assert.is.near(1, tonumber(t[3][4]), 1e-12)
+    end)
+  end)
+
+  describe("op_table", function()
+    local op = { v = { ["1"] = 5, ["2"] = 0.66, out = 3.3, ["10"] = 1 }, i = { D1 = 0.00431, R1 = 0.00431 },
+      p = { D1 = 0.0028, R1 = 0.0186 }, state = { D1 = 2 }, warnings = { "D1 above 80 % of rated power" } }
+
+    it("lists node voltages in order, elements, warnings", function()
+      local s = report.op_table(op)
+      local l = lines_of(s)
+      local order = {}
+      for _, line in ipairs(l) do
+        local node = line:match("^(%S+) +[%d.]+$")
+        if node then order[#order + 1] = node end
+      end
+      assert.are.same({ "1", "2", "10", "out" }, order)
+      assert.is_truthy(s:find("i (mA)", 1, true))
+      assert.is_truthy(s:find("p (mW)", 1, true))
+      assert.is_truthy(s:find("18.6", 1, true))
+      assert.is_truthy(s:find("warning: D1 above 80 % of rated power", 1, true))
+      local r1 = s:match("\n(R1[^\n]*)")
+      assert.is_truthy(r1:find(DASH, 1, true), r1)      -- no state for a resistor
+    end)
+
+    it("csv holds nodes and elements in one file", function()
+      local t = parse_csv(report.op_table(op, { format = "csv" }))
+      assert.are.same({ "kind", "name", "v (V)", "i (A)", "p (W)", "state" }, t[1])
+      assert.are.same({ "node", "1", "5", "", "", "" }, t[2])
+      assert.are.equal(7, #t)
+    end)
+
+    it("rejects a non-table", function()
+      assert.has_error(function() report.op_table(5) end,
+        "segwise.report.op_table: op must be an operating point (got number)")
+    end)
+  end)
+
+  describe("compare_fits", function()
+    local a = fake_model(segs, info, { max_abs = 0.0123, x_abs = 0.004, max_rel = 0.021, x_rel = 1e-4, rms = 0.004 })
+    local b = fake_model({ segs[1] }, info, { max_abs = 0.002, x_abs = 0.03, max_rel = 0.5, x_rel = 2e-4, rms = 0.001 })
+
+    it("puts several fits side by side", function()
+      local s = report.compare_fits({ { name = "uniform", model = a }, { name = "optimal", model = b } }, {},
+        { x = "A", y = "V" })
+      assert.is_truthy(s:find("max abs (mV)", 1, true))
+      assert.is_truthy(s:find("max rel (%)", 1, true))
+      local u = s:match("\n(uniform[^\n]*)")
+      assert.is_truthy(u:match("^uniform +3 +12.3 +4 +2.1 "), u)
+      local o = s:match("\n(optimal[^\n]*)")
+      assert.is_truthy(o:match("^optimal +1 +2 +30 +50 "), o)
+    end)
+
+    it("sorts by a column on request", function()
+      local s = report.compare_fits({ { name = "uniform", model = a }, { name = "optimal", model = b } }, {},
+        { x = "A", y = "V", sort = "max_abs" })
+      assert.is_true(s:find("optimal", 1, true) < s:find("uniform", 1, true))
+    end)
+
+    it("names the fit at fault", function()
+      assert.has_error(function() report.compare_fits({ { name = "x", model = {} } }, {}) end,
+        "segwise.report.compare_fits: fits[1] ('x') has no method 'compare'")
+      assert.has_error(function() report.compare_fits({}, {}) end,
+        "segwise.report.compare_fits: fits must be a non-empty list of {name=, model=}")
+    end)
+  end)
+end)
