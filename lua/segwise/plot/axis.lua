@@ -32,10 +32,17 @@ local function nice_step(span, target)
 end
 M.nice_step = nice_step
 
+-- A range narrower than about 1e-9 of its magnitude cannot get distinct
+-- tick labels in doubles: widen it (and a zero-width one) around its middle.
 local function widen(lo, hi)
   if lo == hi then
     local d = (lo == 0) and 1 or abs(lo) * 0.1
     return lo - d, hi + d
+  end
+  local need = max(abs(lo), abs(hi)) * 1e-9
+  if hi - lo < need then
+    local mid = lo / 2 + hi / 2
+    return mid - need / 2, mid + need / 2
   end
   return lo, hi
 end
@@ -72,9 +79,16 @@ local function log_ticks(lo, hi, target, tight)
       end
     end
   else
+    -- every k-th decade, aligned to multiples of k (with k = 3 the ticks
+    -- fall on whole prefixes: 1 pA, 1 nA, 1 µA)
     local every = max(1, ceil((d1 - d0) / target))
+    if every == 2 or every == 4 then every = every == 2 and 2 or 3 end
     for d = d0, d1 do
-      if (d - d0) % every == 0 then ticks[#ticks + 1] = pow10(d) end
+      if d % every == 0 then ticks[#ticks + 1] = pow10(d) end
+    end
+    if #ticks < 2 then
+      ticks = {}
+      for d = d0, d1 do ticks[#ticks + 1] = pow10(d) end
     end
   end
   if tight then
@@ -122,7 +136,7 @@ function M.new(lo, hi, opts)
     end
     ticks = kept
   end
-  ax.ticks = ticks
+  ax.ticks, ax.step = ticks, step
   ax.labels = M.labels(ticks, unit, ax.log, step)
   local a, b = ax.lo, ax.hi
   if ax.log then

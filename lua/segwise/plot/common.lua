@@ -140,8 +140,12 @@ function M.axes(p, F, opts)
   opts = opts or {}
   local lim = {}
   for _, a in ipairs { "x", "y" } do lim[a] = { lo = math.huge, hi = -math.huge } end
+  -- with fixed limits on one axis, the other scales to the visible points
+  local function inside(v, a)
+    return (p[a].min == nil or v >= p[a].min) and (p[a].max == nil or v <= p[a].max)
+  end
   local function take(x, y)
-    if usable(x, p.x.log) and usable(y, p.y.log) then
+    if usable(x, p.x.log) and usable(y, p.y.log) and inside(x, "x") and inside(y, "y") then
       if x < lim.x.lo then lim.x.lo = x end
       if x > lim.x.hi then lim.x.hi = x end
       if y < lim.y.lo then lim.y.lo = y end
