@@ -1,0 +1,78 @@
+-- Files in and out: sw.curve.read (a curve from two columns of a text file),
+-- sw.array (contiguous doubles, with .read for one file column) and
+-- sw.pwl.load (a model saved by m:save).  The reading itself is C
+-- (csrc/textread.c); columns go straight into arrays, never Lua tables.
+local util = require "segwise.util"
+
+return function(sw, core)
+  local check_opts, describe = util.check_opts, util.describe
+
+  -- Calls a core function and re-raises its error at the user's call site,
+  -- under the public name.
+  local function call(fname, f, ...)
+    local r = table.pack(pcall(f, ...))
+    if not r[1] then
+      local msg = tostring(r[2]):gsub("^segwise%.[%w_.:]+: ", "")
+      error(("segwise.%s: %s"):format(fname, msg), 3)
+    end
+    return table.unpack(r, 2, r.n)
+  end
+
+  local function check_path(fname, path)
+    if type(path) ~= "string" then
+      error(("segwise.%s: path must be a string (got %s)"):format(fname, describe(path)), 3)
+    end
+  end
+
+  local function check_column(fname, what, v)
+    if v ~= nil and type(v) ~= "string" and math.type(v) ~= "integer" then
+      error(("segwise.%s: %s must be a header name or a column number (got %s)"):format(fname, what, describe(v)), 3)
+    end
+  end
+
+  -- sw.curve.read(path, {x=, y=, scale={x=, y=}, duplicates=, sort=,
+  -- delimiter=, header=}): x and y are header names or 1-based column
+  -- numbers (default 1 and 2); sort defaults to true for files.
+  function sw.curve.read(path, opts)
+    check_path("curve.read", path)
+    opts = check_opts("curve.read", opts, {
+      x = "string|number", y = "string|number", scale = "table", duplicates = { "error", "mean" },
+      sort = "boolean", delimiter = "string", header = "boolean" })
+    check_column("curve.read", "x", opts.x)
+    check_column("curve.read", "y", opts.y)
+    if opts.scale ~= nil then
+      check_opts("curve.read", opts.scale, { x = "number", y = "number" })
+    end
+    local xs, ys = call("curve.read", core.read_columns, path, opts.x or 1, opts.y or 2,
+      { scale = opts.scale, delimiter = opts.delimiter, header = opts.header })
+    local sort = opts.sort
+    if sort == nil then sort = true end
+    local ok, c = pcall(sw.curve.samples, xs, ys, { sort = sort, duplicates = opts.duplicates })
+    xs:free()
+    ys:free()
+    if not ok then
+      -- name the file; the sample checks name the (sorted) point indices
+      local msg = tostring(c):gsub("^.-segwise%.curve%.samples: ", "")
+      error(("segwise.curve.read: %s: %s"):format(path, msg), 2)
+    end
+    return c
+  end
+
+  -- sw.pwl.load(path) -> model, x unit, y unit
+  function sw.pwl.load(path)
+    check_path("pwl.load", path)
+    return call("pwl.load", core.load_model, path)
+  end
+
+  -- sw.array(n | table | array) and sw.array.read(path [, column [, opts]])
+  sw.array = setmetatable({
+    read = function(path, column, opts)
+      check_path("array.read", path)
+      check_column("array.read", "column", column)
+      opts = check_opts("array.read", opts, { scale = "number", delimiter = "string", header = "boolean" })
+      return call("array.read", core.array_read, path, column, opts)
+    end,
+  }, {
+    __call = function(_, v) return call("array", core.array, v) end,
+  })
+end
