@@ -1,0 +1,627 @@
+/* sw_fit: options, the sample set, the choice of method, and the error
+ * report.  The methods themselves live in fit_tube.c (minimax, tolerance,
+ * interpolation), fit_lsq.c (least squares) and fit_knots.c (schemes). */
+#include "fit.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define DEFAULT_GRID 4001
+#define COMPARE_GRID 2001
+#define TOL_RETRIES 8
+
+void sw_fit_opts_init(sw_fit_opts *o)
+{
+  memset(o, 0, sizeof *o);
+  o->segments = 4;
+  o->knots = SW_KNOTS_UNIFORM;
+  o->criterion = SW_FIT_MINIMAX;
+  o->continuous = 1;
+}
+
+void fit_data_free(fit_data *d)
+{
+  free(d->x); free(d->y); free(d->s); free(d->w);
+  memset(d, 0, sizeof *d);
+}
+
+size_t fit_lower(const fit_data *d, double x)
+{
+  size_t lo = 0, hi = d->n;
+  while (lo < hi) {
+    size_t mid = (lo + hi) / 2;
+    if (d->x[mid] < x) lo = mid + 1; else hi = mid;
+  }
+  return lo;
+}
+
+size_t fit_upper(const fit_data *d, double x)
+{
+  size_t lo = 0, hi = d->n;
+  while (lo < hi) {
+    size_t mid = (lo + hi) / 2;
+    if (d->x[mid] <= x) lo = mid + 1; else hi = mid;
+  }
+  return lo;
+}
+
+static double scale_of(double y, int rel, double floor)
+{
+  if (!rel) return 1;
+  return fabs(y) > floor ? fabs(y) : floor;
+}
+
+/* Merges sorted points (xs, ys, ss, ws) into d; points at an existing x are
+ * added too when keep_dup, else skipped. */
+static int merge_points(fit_data *d, const double *xs, const double *ys, const double *ss,
+                        double wv, size_t m, int keep_dup, sw_err *err)
+{
+  size_t n = d->n + m, i = 0, j = 0, k = 0;
+  fit_data r;
+  memset(&r, 0, sizeof r);
+  r.x = sw_alloc(n, sizeof(double), err);
+  r.y = sw_alloc(n, sizeof(double), err);
+  r.s = sw_alloc(n, sizeof(double), err);
+  r.w = sw_alloc(n, sizeof(double), err);
+  if (!r.x || !r.y || !r.s || !r.w) { fit_data_free(&r); return SW_ENOMEM; }
+  while (i < d->n || j < m) {
+    if (j >= m || (i < d->n && d->x[i] <= xs[j])) {
+      if (j < m && d->x[i] == xs[j] && !keep_dup) { j++; continue; }
+      r.x[k] = d->x[i]; r.y[k] = d->y[i]; r.s[k] = d->s[i]; r.w[k] = d->w[i];
+      i++;
+    } else {
+      r.x[k] = xs[j]; r.y[k] = ys[j]; r.s[k] = ss[j]; r.w[k] = wv;
+      j++;
+    }
+    k++;
+  }
+  r.n = k;
+  r.analytic = d->analytic;
+  fit_data_free(d);
+  *d = r;
+  return SW_OK;
+}
+
+int fit_data_insert(fit_data *d, const sw_curve *c, const double *xs, size_t m, int rel,
+                    double rel_floor, sw_err *err)
+{
+  double *ys = sw_alloc(m, sizeof *ys, err), *ss = sw_alloc(m, sizeof *ss, err);
+  size_t i;
+  int st = SW_OK;
+  if (!ys || !ss) { st = SW_ENOMEM; goto done; }
+  for (i = 0; i < m; i++) {
+    if ((st = sw_curve_eval(c, xs[i], &ys[i], err))) goto done;
+    ss[i] = scale_of(ys[i], rel, rel_floor);
+  }
+  st = merge_points(d, xs, ys, ss, 0, m, 0, err);
+done:
+  free(ys);
+  free(ss);
+  return st;
+}
+
+double fit_data_maxerr(const fit_data *d, const sw_pwl *m)
+{
+  size_t i;
+  double e = 0;
+  for (i = 0; i < d->n; i++) {
+    double v;
+    if (!(d->s[i] > 0)) continue;
+    sw_pwl_eval(m, d->x[i], &v, NULL);
+    v = fabs(v - d->y[i]) / d->s[i];
+    if (v > e) e = v;
+  }
+  return e;
+}
+
+/* Grid of an analytic curve: half the points uniform, half equidistributed
+ * on |f''|^(1/2), so that sharp knees get samples. */
+static int analytic_grid(const sw_curve *c, double lo, double hi, size_t N, double *x, sw_err *err)
+{
+  size_t G = 1000, i, j;
+  double *rho = sw_alloc(G, sizeof *rho, err), big = 0, total = 0, cell = (hi - lo) / (double)G;
+  int st = SW_OK;
+  if (!rho) return SW_ENOMEM;
+  for (i = 0; i < G; i++) {
+    double f2;
+    if ((st = sw_curve_deriv2(c, lo + cell * ((double)i + 0.5), &f2, err))) goto done;
+    rho[i] = sqrt(fabs(f2));
+    if (sw_isfinite(rho[i]) && rho[i] > big) big = rho[i];
+  }
+  for (i = 0; i < G; i++) {
+    if (!sw_isfinite(rho[i])) rho[i] = big;
+    total += rho[i];
+  }
+  for (i = 0; i < G; i++) rho[i] = (total > 0 ? rho[i] / total : 0) + 1.0 / (double)G;
+  x[0] = lo;
+  {
+    double acc = 0;
+    i = 0;
+    for (j = 1; j + 1 < N; j++) {
+      double level = 2.0 * (double)j / (double)(N - 1);
+      while (i < G - 1 && acc + rho[i] < level) acc += rho[i++];
+      x[j] = lo + cell * ((double)i + (level - acc) / rho[i]);
+      if (x[j] > hi) x[j] = hi;
+      if (x[j] <= x[j - 1]) x[j] = x[j - 1] + 1e-12 * (hi - lo);
+    }
+  }
+  x[N - 1] = hi;
+  for (j = N - 1; j > 0 && x[j - 1] >= x[j]; j--) x[j - 1] = x[j] - 1e-12 * (hi - lo);
+done:
+  free(rho);
+  return st;
+}
+
+/* The sample set of curve c on [lo, hi] with tube scales and weights. */
+static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err *err)
+{
+  size_t i, n, k = 0;
+  int st = SW_OK;
+  memset(d, 0, sizeof *d);
+  if (c->kind == SW_CURVE_SAMPLES) {
+    size_t a = 0, b;
+    while (a < c->n && c->x[a] <= o->lo) a++;
+    b = a;
+    while (b < c->n && c->x[b] < o->hi) b++;
+    n = b - a + 2;
+  } else {
+    n = o->grid ? o->grid : DEFAULT_GRID;
+    if (n < 8 * o->segments + 1) n = 8 * o->segments + 1;
+    if (n < 3) n = 3;
+  }
+  d->x = sw_alloc(n, sizeof(double), err);
+  d->y = sw_alloc(n, sizeof(double), err);
+  d->s = sw_alloc(n, sizeof(double), err);
+  d->w = sw_alloc(n, sizeof(double), err);
+  if (!d->x || !d->y || !d->s || !d->w) { fit_data_free(d); return SW_ENOMEM; }
+  d->n = n;
+  if (c->kind == SW_CURVE_SAMPLES) {
+    d->x[k] = o->lo;
+    d->w[k++] = 0;
+    for (i = 0; i < c->n; i++)
+      if (c->x[i] > o->lo && c->x[i] < o->hi) { d->x[k] = c->x[i]; d->w[k++] = 1; }
+      else if (c->x[i] == o->lo) d->w[0] = 1;
+      else if (c->x[i] == o->hi) d->w[n - 1] = 1;
+    d->x[k++] = o->hi;
+  } else {
+    d->analytic = 1;
+    if ((st = analytic_grid(c, o->lo, o->hi, n, d->x, err))) goto fail;
+    for (i = 0; i < n; i++)
+      d->w[i] = 0.5 * ((i + 1 < n ? d->x[i + 1] : d->x[i]) - (i > 0 ? d->x[i - 1] : d->x[i]));
+  }
+  for (i = 0; i < n; i++) {
+    if ((st = sw_curve_eval(c, d->x[i], &d->y[i], err))) goto fail;
+    if (!sw_isfinite(d->y[i])) {
+      st = sw_err_set(err, SW_ENUMERIC, "the curve is not finite at x = %g", d->x[i]);
+      goto fail;
+    }
+    if (o->rel && !(o->rel_floor > 0) &&
+        (d->y[i] == 0 || (i > 0 && (d->y[i] > 0) != (d->y[i - 1] > 0)))) {
+      st = sw_err_set(err, SW_EINVAL, "relative error is undefined where the curve is 0 "
+                      "(near x = %g); give rel_floor or a range that avoids it", d->x[i]);
+      goto fail;
+    }
+    d->s[i] = scale_of(d->y[i], o->rel, o->rel_floor);
+  }
+  if (o->nthrough) {
+    double *ss = sw_alloc(o->nthrough, sizeof *ss, err);
+    if (!ss) { st = SW_ENOMEM; goto fail; }
+    st = merge_points(d, o->through_x, o->through_y, ss, 0, o->nthrough, 1, err);
+    free(ss);
+    if (st) goto fail;
+  }
+  return SW_OK;
+fail:
+  fit_data_free(d);
+  return st;
+}
+
+/* ---- Validation ----------------------------------------------------------- */
+
+static int validate(const sw_curve *c, const sw_fit_opts *o, sw_err *err)
+{
+  size_t i;
+  if (!sw_isfinite(o->lo) || !sw_isfinite(o->hi))
+    return sw_err_set(err, SW_EINVAL, "the range must be finite (lo = %g, hi = %g); give lo and hi",
+                      o->lo, o->hi);
+  if (!(o->lo < o->hi))
+    return sw_err_set(err, SW_EINVAL, "lo (%g) must be below hi (%g)", o->lo, o->hi);
+  if (o->lo < c->lo || o->hi > c->hi)
+    return sw_err_set(err, SW_ERANGE, "range [%g, %g] is outside the curve's domain [%g, %g]",
+                      o->lo, o->hi, c->lo, c->hi);
+  if (o->tol > 0 && o->knots == SW_KNOTS_LIST)
+    return sw_err_set(err, SW_EINVAL, "tol and an explicit knot list exclude each other");
+  if (!(o->tol > 0) && o->segments < 1)
+    return sw_err_set(err, SW_EINVAL, "segments must be at least 1");
+  if (o->tol < 0 || !(o->tol == o->tol)) return sw_err_set(err, SW_EINVAL, "tol must be positive");
+  if (o->knots == SW_KNOTS_LIST) {
+    if (o->nknot_list < 2)
+      return sw_err_set(err, SW_EINVAL, "the knot list needs at least lo and hi");
+    for (i = 0; i < o->nknot_list; i++) {
+      if (!sw_isfinite(o->knot_list[i]) || o->knot_list[i] < o->lo || o->knot_list[i] > o->hi)
+        return sw_err_set(err, SW_EINVAL, "knots[%zu] = %g is outside the range [%g, %g]", i + 1,
+                          o->knot_list[i], o->lo, o->hi);
+      if (i > 0 && !(o->knot_list[i] > o->knot_list[i - 1]))
+        return sw_err_set(err, SW_EINVAL, "knots must be strictly increasing (knots[%zu] = %g "
+                          "after knots[%zu] = %g)", i + 1, o->knot_list[i], i, o->knot_list[i - 1]);
+    }
+    if (o->knot_list[0] != o->lo || o->knot_list[o->nknot_list - 1] != o->hi)
+      return sw_err_set(err, SW_EINVAL, "the knot list must start at lo and end at hi");
+  }
+  for (i = 0; i < o->nthrough; i++) {
+    if (!sw_isfinite(o->through_x[i]) || !sw_isfinite(o->through_y[i]))
+      return sw_err_set(err, SW_EINVAL, "through[%zu] must be finite", i + 1);
+    if (o->through_x[i] < o->lo || o->through_x[i] > o->hi)
+      return sw_err_set(err, SW_EINVAL, "through[%zu] (x = %g) is outside the range [%g, %g]",
+                        i + 1, o->through_x[i], o->lo, o->hi);
+    if (i > 0 && o->through_x[i] < o->through_x[i - 1])
+      return sw_err_set(err, SW_EINVAL, "through points must be sorted by x (through[%zu])", i + 1);
+  }
+  if (o->criterion == SW_FIT_TANGENT) {
+    if (!o->has_at) return sw_err_set(err, SW_EINVAL, "criterion 'tangent' needs at (the operating point)");
+    if (!(o->at >= o->lo && o->at <= o->hi))
+      return sw_err_set(err, SW_EINVAL, "at (%g) must lie in the range [%g, %g]", o->at, o->lo, o->hi);
+    if (o->tol > 0 || o->segments != 1)
+      return sw_err_set(err, SW_EINVAL, "criterion 'tangent' gives one segment (no segments > 1, no tol)");
+    if (o->knots == SW_KNOTS_OPTIMAL || o->knots == SW_KNOTS_CURVATURE ||
+        o->knots == SW_KNOTS_GEOMETRIC || o->knots == SW_KNOTS_LIST)
+      return sw_err_set(err, SW_EINVAL, "knots have no meaning for criterion 'tangent' (one "
+                        "segment at the operating point)");
+  }
+  if (o->criterion != SW_FIT_MINIMAX && o->criterion != SW_FIT_LSQ &&
+      (o->nthrough || o->has_slope_first || o->has_slope_last || o->monotone))
+    return sw_err_set(err, SW_EINVAL, "through, slope_first, slope_last and monotone apply to "
+                      "criterion 'minimax' or 'lsq' only");
+  if (o->monotone && !o->continuous)
+    return sw_err_set(err, SW_EINVAL, "monotone with continuous = false is not supported yet");
+  if (o->rel && o->rel_floor < 0) return sw_err_set(err, SW_EINVAL, "rel_floor must not be negative");
+  return SW_OK;
+}
+
+/* ---- Methods by criterion ------------------------------------------------ */
+
+typedef struct fit_job {
+  const sw_curve *c;
+  const sw_fit_opts *o;
+  fit_data d;
+  fit_cons k;
+  size_t iters;
+  double internal;
+} fit_job;
+
+/* Closed form of the best line to a convex or concave law on [lo, hi]: the
+ * chord's slope, touching the curve's parallel tangent halfway (Chebyshev
+ * equioscillation at lo, the tangent point and hi).  Returns 1 when used. */
+static int one_segment_closed(fit_job *J, sw_pwl *out, int *st, sw_err *err)
+{
+  const sw_curve *c = J->c;
+  const sw_fit_opts *o = J->o;
+  double fa, fb, m, a, b, xi, fx, icpt;
+  int sign = 0, i;
+  *st = SW_OK;
+  if (c->kind == SW_CURVE_SAMPLES || o->rel || o->nthrough || o->has_slope_first ||
+      o->has_slope_last || o->monotone)
+    return 0;
+  for (i = 1; i < 64; i++) {
+    double f2, x = o->lo + (o->hi - o->lo) * (double)i / 64.0;
+    if ((*st = sw_curve_deriv2(c, x, &f2, err))) return 1;
+    if (!sw_isfinite(f2) || f2 == 0) continue;
+    if (sign == 0) sign = f2 > 0 ? 1 : -1;
+    else if ((f2 > 0 ? 1 : -1) != sign) return 0;
+  }
+  if (sign == 0) return 0;
+  if ((*st = sw_curve_eval(c, o->lo, &fa, err)) || (*st = sw_curve_eval(c, o->hi, &fb, err))) return 1;
+  m = (fb - fa) / (o->hi - o->lo);
+  a = o->lo;
+  b = o->hi;
+  for (i = 0; i < 200 && b - a > 1e-15 * (fabs(a) + fabs(b)); i++) {
+    double mid = 0.5 * (a + b), d1;
+    if ((*st = sw_curve_deriv(c, mid, &d1, err))) return 1;
+    if ((d1 - m) * sign < 0) a = mid; else b = mid;
+  }
+  J->iters += (size_t)i;
+  xi = 0.5 * (a + b);
+  if ((*st = sw_curve_eval(c, xi, &fx, err))) return 1;
+  icpt = 0.5 * ((fa - m * o->lo) + (fx - m * xi));
+  J->internal = 0.5 * fabs((fx - m * xi) - (fa - m * o->lo));
+  if ((*st = sw_pwl_alloc(out, 1, err))) return 1;
+  out->x[0] = o->lo;
+  out->x[1] = o->hi;
+  out->ya[0] = m * o->lo + icpt;
+  out->yb[0] = m * o->hi + icpt;
+  if ((*st = sw_pwl_finish(out, err))) sw_pwl_free(out);
+  return 1;
+}
+
+static int knots_for(fit_job *J, size_t n, double *K, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  switch (o->knots) {
+  case SW_KNOTS_LIST:
+    memcpy(K, o->knot_list, (n + 1) * sizeof *K);
+    return SW_OK;
+  case SW_KNOTS_GEOMETRIC:
+    return fit_knots_geometric(o->lo, o->hi, n, K, err);
+  case SW_KNOTS_CURVATURE:
+  case SW_KNOTS_OPTIMAL:
+    return fit_knots_curvature(J->c, &J->d, o->lo, o->hi, n,
+                               o->criterion == SW_FIT_LSQ ? 0.4 : 0.5, K, err);
+  default:
+    return fit_knots_uniform(o->lo, o->hi, n, K, err);
+  }
+}
+
+static int interp_model(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_err *err)
+{
+  size_t j;
+  double *yk = sw_alloc(n + 1, sizeof *yk, err);
+  int st;
+  if (!yk) return SW_ENOMEM;
+  for (j = 0; j <= n; j++)
+    if ((st = sw_curve_eval(J->c, K[j], &yk[j], err))) { free(yk); return st; }
+  if ((st = sw_pwl_alloc(out, n, err))) { free(yk); return st; }
+  for (j = 0; j <= n; j++) out->x[j] = K[j];
+  for (j = 0; j < n; j++) {
+    out->ya[j] = yk[j];
+    out->yb[j] = yk[j + 1];
+  }
+  free(yk);
+  if ((st = sw_pwl_finish(out, err))) { sw_pwl_free(out); return st; }
+  J->internal = fit_data_maxerr(&J->d, out);
+  return SW_OK;
+}
+
+static int minimax_fixed(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_err *err)
+{
+  int st;
+  if (n == 1 && one_segment_closed(J, out, &st, err)) return st;
+  if ((st = fit_data_insert(&J->d, J->c, K, n + 1, J->o->rel, J->o->rel_floor, err))) return st;
+  return fit_minimax_fixed(&J->d, K, n, J->o->continuous, &J->k, out, &J->internal, &J->iters, err);
+}
+
+/* A model with exactly n segments under the chosen scheme and criterion. */
+static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  double *K = sw_alloc(n + 1, sizeof *K, err);
+  int st;
+  if (!K) return SW_ENOMEM;
+  if (o->knots == SW_KNOTS_OPTIMAL && o->criterion == SW_FIT_MINIMAX) {
+    sw_pwl alt;
+    double e_alt;
+    memset(&alt, 0, sizeof alt);
+    if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->k, out, &J->internal, &J->iters, err)))
+      goto done;
+    /* never worse than the curvature scheme's minimax on its knots */
+    if (n > 1 && !(st = knots_for(J, n, K, err)) &&
+        !(st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err)) &&
+        fit_minimax_fixed(&J->d, K, n, o->continuous, &J->k, &alt, &e_alt, &J->iters, err) == SW_OK) {
+      if (e_alt < J->internal) { sw_pwl_free(out); *out = alt; J->internal = e_alt; }
+      else sw_pwl_free(&alt);
+    }
+    st = SW_OK;
+    goto done;
+  }
+  if (o->knots == SW_KNOTS_OPTIMAL && (o->criterion == SW_FIT_INTERP || o->criterion == SW_FIT_CHORD)) {
+    st = fit_interp_count(&J->d, n, out, &J->internal, &J->iters, err);
+    goto done;
+  }
+  if ((st = knots_for(J, n, K, err))) goto done;
+  if (o->knots == SW_KNOTS_OPTIMAL && o->criterion == SW_FIT_LSQ) {
+    double *start = sw_alloc(n + 1, sizeof *start, err);
+    if (!start) { st = SW_ENOMEM; goto done; }
+    memcpy(start, K, (n + 1) * sizeof *K);
+    st = fit_lsq_optimal(&J->d, o->lo, o->hi, n, o->continuous, start, K, &J->iters, err);
+    free(start);
+    if (st) goto done;
+  }
+  switch (o->criterion) {
+  case SW_FIT_MINIMAX:
+    st = minimax_fixed(J, K, n, out, err);
+    break;
+  case SW_FIT_LSQ:
+    st = fit_lsq_fixed(&J->d, K, n, o->continuous, &J->k, o->through_x, o->through_y, o->nthrough,
+                       out, &J->internal, err);
+    if (!st) J->internal = fit_data_maxerr(&J->d, out);
+    break;
+  default:
+    st = interp_model(J, K, n, out, err);
+    break;
+  }
+done:
+  free(K);
+  return st;
+}
+
+/* Error of m in the fit's measure, rechecked against the curve. */
+static int measure(fit_job *J, const sw_pwl *m, double *e, sw_err *err)
+{
+  sw_compare cmp;
+  int st = sw_pwl_compare(m, J->c, J->o->lo, J->o->hi, COMPARE_GRID, J->o->rel_floor, &cmp, err);
+  if (st) return st;
+  *e = J->o->rel ? cmp.max_rel : cmp.max_abs;
+  if (!(*e == *e)) *e = INFINITY;
+  return SW_OK;
+}
+
+/* Fewest segments within tol: the greedy tube for optimal minimax and
+ * interpolation; a search over the count for every other scheme. */
+static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  double tol = o->tol, e_int = tol, e;
+  size_t lo, hi, nmax;
+  int st, tries;
+  if (o->knots == SW_KNOTS_OPTIMAL && o->criterion != SW_FIT_LSQ) {
+    for (tries = 0; tries < TOL_RETRIES; tries++) {
+      if (o->criterion == SW_FIT_MINIMAX) {
+        st = fit_minimax_tol(&J->d, e_int, o->continuous, &J->k, out, err);
+        if (!st) { /* polish: the best lines on the greedy knots */
+          sw_pwl p;
+          double ep;
+          memset(&p, 0, sizeof p);
+          if (fit_minimax_fixed(&J->d, out->x, out->nseg, o->continuous, &J->k, &p, &ep,
+                                &J->iters, err) == SW_OK) {
+            if (ep <= e_int) { sw_pwl_free(out); *out = p; }
+            else sw_pwl_free(&p);
+          }
+        }
+      } else {
+        st = fit_interp_tol(&J->d, e_int, out, err);
+      }
+      if (st) return st;
+      J->internal = fit_data_maxerr(&J->d, out);
+      J->iters++;
+      if ((st = measure(J, out, &e, err))) { sw_pwl_free(out); return st; }
+      if (e <= tol * (1 + 1e-9)) return SW_OK;
+      sw_pwl_free(out);
+      e_int *= 0.98 * tol / e; /* the grid missed a peak: tighten and redo */
+    }
+    return sw_err_set(err, SW_ENUMERIC, "could not meet tol = %g on the curve itself", tol);
+  }
+  /* search the count: doubling, then bisection */
+  nmax = J->d.n > 1 ? J->d.n - 1 : 1;
+  if (nmax > 4096) nmax = 4096;
+  lo = 0;
+  hi = 1;
+  for (;;) {
+    memset(out, 0, sizeof *out);
+    st = fit_count(J, hi, out, err);
+    J->iters++;
+    if (!st) st = measure(J, out, &e, err);
+    if (st) { sw_pwl_free(out); return st; }
+    sw_pwl_free(out);
+    if (e <= tol) break;
+    lo = hi;
+    if (hi >= nmax)
+      return sw_err_set(err, SW_ENOSOL, "no model of up to %zu segments meets tol = %g with this "
+                        "scheme", nmax, tol);
+    hi = hi * 2 > nmax ? nmax : hi * 2;
+  }
+  while (hi - lo > 1) {
+    size_t mid = (lo + hi) / 2;
+    memset(out, 0, sizeof *out);
+    st = fit_count(J, mid, out, err);
+    J->iters++;
+    if (!st) st = measure(J, out, &e, err);
+    sw_pwl_free(out);
+    if (st == SW_ECALLBACK) return st;
+    if (!st && e <= tol) hi = mid; else lo = mid;
+  }
+  return fit_count(J, hi, out, err);
+}
+
+static int fit_tangent(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  double f, s;
+  int st;
+  if ((st = sw_curve_eval(J->c, o->at, &f, err)) || (st = sw_curve_deriv(J->c, o->at, &s, err)))
+    return st;
+  if (!sw_isfinite(s))
+    return sw_err_set(err, SW_ENUMERIC, "the curve's slope at at = %g is not finite", o->at);
+  if ((st = sw_pwl_alloc(out, 1, err))) return st;
+  out->x[0] = o->lo;
+  out->x[1] = o->hi;
+  out->ya[0] = f + s * (o->lo - o->at);
+  out->yb[0] = f + s * (o->hi - o->at);
+  if ((st = sw_pwl_finish(out, err))) sw_pwl_free(out);
+  return st;
+}
+
+static size_t distinct_x(const fit_data *d)
+{
+  size_t i, m = d->n ? 1 : 0;
+  for (i = 1; i < d->n; i++) m += d->x[i] > d->x[i - 1];
+  return m;
+}
+
+int sw_fit(const sw_curve *c, const sw_fit_opts *o, sw_pwl *out, sw_fit_info *info, sw_err *err)
+{
+  fit_job J;
+  sw_compare cmp;
+  int st;
+  memset(out, 0, sizeof *out);
+  memset(info, 0, sizeof *info);
+  memset(&J, 0, sizeof J);
+  if ((st = validate(c, o, err))) return st;
+  J.c = c;
+  J.o = o;
+  if ((st = prepare(c, o, &J.d, err))) return st;
+  if (c->kind == SW_CURVE_SAMPLES && !(o->tol > 0) && o->knots != SW_KNOTS_LIST &&
+      o->segments + 1 > distinct_x(&J.d)) {
+    st = sw_err_set(err, SW_EINVAL, "segments (%zu) needs at least %zu samples in [%g, %g]; the "
+                    "curve has %zu there (counting the range ends)", o->segments, o->segments + 1,
+                    o->lo, o->hi, distinct_x(&J.d));
+    goto done;
+  }
+  J.k.has_first = o->has_slope_first;
+  J.k.slope_first = o->slope_first;
+  J.k.has_last = o->has_slope_last;
+  J.k.slope_last = o->slope_last;
+  if (o->monotone) J.k.dir = J.d.y[J.d.n - 1] >= J.d.y[0] ? 1 : -1;
+  if (o->criterion == SW_FIT_TANGENT) st = fit_tangent(&J, out, err);
+  else if (o->tol > 0) st = fit_tol(&J, out, err);
+  else st = fit_count(&J, o->knots == SW_KNOTS_LIST ? o->nknot_list - 1 : o->segments, out, err);
+  if (st) goto done;
+  if ((st = sw_pwl_compare(out, c, o->lo, o->hi, COMPARE_GRID, o->rel_floor, &cmp, err))) goto done;
+  info->max_abs = cmp.max_abs;
+  info->x_abs = cmp.x_abs;
+  info->max_rel = cmp.rel_undefined ? NAN : cmp.max_rel;
+  info->x_rel = cmp.rel_undefined ? NAN : cmp.x_rel;
+  info->rms = cmp.rms;
+  info->iterations = J.iters;
+  info->internal = J.internal;
+done:
+  if (st) sw_pwl_free(out);
+  fit_data_free(&J.d);
+  return st;
+}
+
+int sw_fit_segment_errors(const sw_pwl *m, const sw_curve *c, double rel_floor, double *max_abs,
+                          double *x_abs, double *max_rel, sw_err *err)
+{
+  size_t k, i;
+  for (k = 0; k < m->nseg; k++) {
+    double a = m->x[k], b = m->x[k + 1];
+    max_abs[k] = 0;
+    x_abs[k] = a;
+    max_rel[k] = 0;
+    if (c->kind == SW_CURVE_SAMPLES) {
+      /* the segment's line against the samples inside and the curve at its ends */
+      for (i = 0; i <= c->n + 1; i++) {
+        double x = i == 0 ? a : i == c->n + 1 ? b : c->x[i - 1], y, v, r;
+        int st;
+        if (i > 0 && i <= c->n && (x <= a || x >= b)) continue;
+        if ((st = sw_curve_eval(c, x, &y, err))) return st;
+        v = fabs(sw_pwl_line(m, k, x) - y);
+        if (v > max_abs[k]) { max_abs[k] = v; x_abs[k] = x; }
+        if (rel_floor > 0 || y != 0) {
+          r = v / (fabs(y) > rel_floor ? fabs(y) : rel_floor);
+          if (max_rel[k] == max_rel[k] && r > max_rel[k]) max_rel[k] = r;
+        } else {
+          max_rel[k] = NAN;
+        }
+      }
+    } else {
+      sw_pwl one;
+      sw_compare cmp;
+      int st;
+      memset(&one, 0, sizeof one);
+      if ((st = sw_pwl_alloc(&one, 1, err))) return st;
+      one.x[0] = a;
+      one.x[1] = b;
+      one.ya[0] = m->ya[k];
+      one.yb[0] = m->yb[k];
+      st = sw_pwl_finish(&one, err);
+      if (!st) st = sw_pwl_compare(&one, c, a, b, 201, rel_floor, &cmp, err);
+      sw_pwl_free(&one);
+      if (st) return st;
+      max_abs[k] = cmp.max_abs;
+      x_abs[k] = cmp.x_abs;
+      max_rel[k] = cmp.rel_undefined ? NAN : cmp.max_rel;
+    }
+  }
+  return SW_OK;
+}
