@@ -1,0 +1,485 @@
+/* Binding of networks: the network userdata (its models and exact curves
+ * kept alive in its user values), solving, all solutions, sweeps.  Results
+ * of the core are held in a GC-owned holder while they are turned into Lua
+ * tables, so a Lua error at any point frees them. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "lsw.h"
+#include "net.h"
+
+#define LSW_NET_MT "segwise.Network"
+#define LSW_HOLD_MT "segwise.NetResults"
+
+typedef struct lsw_net {
+  sw_net net;
+  int freed;
+} lsw_net;
+
+/* Everything a solve may allocate, freed by __gc. */
+typedef struct lsw_hold {
+  sw_net_op *ops;
+  size_t nops;
+  sw_net_trace trace;
+  int *states;
+} lsw_hold;
+
+static int hold_gc(lua_State *L)
+{
+  lsw_hold *h = luaL_checkudata(L, 1, LSW_HOLD_MT);
+  size_t k;
+  for (k = 0; k < h->nops; k++) sw_net_op_free(&h->ops[k]);
+  free(h->ops); h->ops = NULL; h->nops = 0;
+  sw_net_trace_free(&h->trace);
+  free(h->states); h->states = NULL;
+  return 0;
+}
+
+static lsw_hold *new_hold(lua_State *L)
+{
+  lsw_hold *h = lua_newuserdatauv(L, sizeof *h, 0);
+  memset(h, 0, sizeof *h);
+  luaL_setmetatable(L, LSW_HOLD_MT);
+  return h;
+}
+
+static void hold_ops(lua_State *L, lsw_hold *h, size_t n)
+{
+  sw_err err;
+  h->ops = sw_alloc(n, sizeof *h->ops, &err);
+  if (!h->ops) lsw_raise(L, "network", &err);
+  h->nops = n;
+}
+
+static lsw_net *check_net(lua_State *L, int idx)
+{
+  lsw_net *n = luaL_checkudata(L, idx, LSW_NET_MT);
+  if (n->freed) luaL_error(L, "segwise.network: network used after free()");
+  return n;
+}
+
+static int net_release(lua_State *L)
+{
+  lsw_net *n = luaL_checkudata(L, 1, LSW_NET_MT);
+  if (!n->freed) {
+    sw_net_free(&n->net);
+    n->freed = 1;
+  }
+  return 0;
+}
+
+/* core.net_new(): user value 1 holds the models, 2 the exact curves, both
+ * indexed by device number (1-based). */
+static int l_net_new(lua_State *L)
+{
+  lsw_net *n = lua_newuserdatauv(L, sizeof *n, 2);
+  memset(n, 0, sizeof *n);
+  sw_net_init(&n->net);
+  luaL_setmetatable(L, LSW_NET_MT);
+  lua_newtable(L); lua_setiuservalue(L, -2, 1);
+  lua_newtable(L); lua_setiuservalue(L, -2, 2);
+  return 1;
+}
+
+static const char *node_arg(lua_State *L, int idx, const char *what)
+{
+  if (lua_type(L, idx) == LUA_TNUMBER) {
+    lua_pushvalue(L, idx);
+    lua_replace(L, idx);
+    return lua_tostring(L, idx); /* converts in place: numbers name nodes too */
+  }
+  if (lua_type(L, idx) != LUA_TSTRING)
+    luaL_error(L, "segwise.network: %s must be a node name (string or number, got %s)", what, luaL_typename(L, idx));
+  return lua_tostring(L, idx);
+}
+
+/* n:add(kind, name, n1, n2, n3, n4, ctrl, value) */
+static int l_add(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  static const char *const kinds[] = { "r", "v", "i", "vcvs", "vccs", "ccvs", "cccs", NULL };
+  static const sw_net_kind codes[] = { SW_NET_R, SW_NET_V, SW_NET_I, SW_NET_VCVS, SW_NET_VCCS, SW_NET_CCVS, SW_NET_CCCS };
+  int k = luaL_checkoption(L, 2, NULL, kinds);
+  const char *name = luaL_checkstring(L, 3), *nodes[4], *ctrl = NULL;
+  double value = luaL_checknumber(L, 9);
+  sw_err err;
+  int j, nn = (codes[k] == SW_NET_VCVS || codes[k] == SW_NET_VCCS) ? 4 : 2;
+  static const char *const what[] = { "first node", "second node", "first control node", "second control node" };
+  for (j = 0; j < nn; j++) nodes[j] = node_arg(L, 4 + j, what[j]);
+  if (codes[k] == SW_NET_CCVS || codes[k] == SW_NET_CCCS) ctrl = luaL_checkstring(L, 8);
+  if (sw_net_add(&n->net, codes[k], name, nodes, ctrl, value, &err)) return lsw_raise(L, "network:add", &err);
+  return 0;
+}
+
+/* n:device(name, na, nb, model, x_is_i, pmax [, curve]) */
+static int l_device(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  const char *name = luaL_checkstring(L, 2);
+  const char *na = node_arg(L, 3, "first node"), *nb = node_arg(L, 4, "second node");
+  lsw_model *m = lsw_checkmodel(L, 5);
+  int x_is_i = lua_toboolean(L, 6);
+  double pmax = luaL_optnumber(L, 7, 0);
+  sw_err err;
+  if (!lua_isnoneornil(L, 8)) lsw_checkcurve(L, 8);
+  if (sw_net_add_device(&n->net, name, na, nb, &m->m, x_is_i, pmax, &err)) return lsw_raise(L, "network:element", &err);
+  lua_getiuservalue(L, 1, 1);
+  lua_pushvalue(L, 5);
+  lua_rawseti(L, -2, (lua_Integer)n->net.ndev);
+  lua_getiuservalue(L, 1, 2);
+  lua_pushvalue(L, 8);
+  lua_rawseti(L, -2, (lua_Integer)n->net.ndev);
+  return 0;
+}
+
+static int l_set(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  sw_err err;
+  if (sw_net_set(&n->net, luaL_checkstring(L, 2), luaL_checknumber(L, 3), &err)) return lsw_raise(L, "network:set", &err);
+  return 0;
+}
+
+static void prepare(lua_State *L, lsw_net *n, const char *fname)
+{
+  sw_err err;
+  if (sw_net_prepare(&n->net, &err)) lsw_raise(L, fname, &err);
+}
+
+/* Fills a start array from the table at tidx. */
+static void fill_start(lua_State *L, int tidx, const sw_net *net, int *st)
+{
+  lua_pushnil(L);
+  while (lua_next(L, tidx)) {
+    const char *name;
+    size_t el, s;
+    lua_Integer label;
+    if (lua_type(L, -2) != LUA_TSTRING) luaL_error(L, "segwise.network:solve: start keys must be device names");
+    name = lua_tostring(L, -2);
+    el = sw_net_find(net, name);
+    if (el == SW_NET_NONE || net->el[el].kind != SW_NET_DEV) luaL_error(L, "segwise.network:solve: start: no device named '%s'", name);
+    if (!lua_isinteger(L, -1)) luaL_error(L, "segwise.network:solve: start.%s must be an integer segment number", name);
+    label = lua_tointeger(L, -1);
+    {
+      const sw_net_dev *d = &net->dev[net->el[el].dev];
+      for (s = 0; s < d->nseg; s++) if (d->seg[s].label == label) break;
+      if (s == d->nseg)
+        luaL_error(L, "segwise.network:solve: start.%s = %d is not a segment of its model (segments %d..%d)", name, (int)label, d->seg[0].label, d->seg[d->nseg - 1].label);
+      st[net->el[el].dev] = (int)s;
+    }
+    lua_pop(L, 1);
+  }
+}
+
+static void setnum(lua_State *L, const char *key, double v) { lua_pushnumber(L, v); lua_setfield(L, -2, key); }
+
+static const char *stability_name(int s)
+{
+  switch (s) {
+  case SW_NET_STABLE: return "stable";
+  case SW_NET_UNSTABLE: return "unstable";
+  case SW_NET_MARGINAL: return "marginal";
+  }
+  return "unknown";
+}
+
+static void push_op(lua_State *L, const sw_net *net, const sw_net_op *op)
+{
+  size_t k;
+  lua_createtable(L, 0, 10);
+  lua_createtable(L, 0, (int)net->nnodes);
+  for (k = 0; k < net->nnodes; k++) setnum(L, net->node[k], op->vnode[k]);
+  lua_pushnumber(L, 0); lua_setfield(L, -2, "gnd");
+  lua_setfield(L, -2, "v");
+  lua_createtable(L, 0, (int)net->nel);
+  for (k = 0; k < net->nel; k++) setnum(L, net->el[k].name, op->i[k]);
+  lua_setfield(L, -2, "i");
+  lua_createtable(L, 0, (int)net->nel);
+  for (k = 0; k < net->nel; k++) setnum(L, net->el[k].name, op->p[k]);
+  lua_setfield(L, -2, "p");
+  lua_createtable(L, 0, (int)net->nel);
+  for (k = 0; k < net->nel; k++) setnum(L, net->el[k].name, op->v[k]);
+  lua_setfield(L, -2, "vd");
+  lua_createtable(L, 0, (int)net->ndev);
+  for (k = 0; k < net->ndev; k++) {
+    lua_pushinteger(L, net->dev[k].seg[op->state[k]].label);
+    lua_setfield(L, -2, net->el[net->dev[k].el].name);
+  }
+  lua_setfield(L, -2, "state");
+  lua_createtable(L, 0, (int)net->ndev);
+  for (k = 0; k < net->ndev; k++) {
+    lua_pushboolean(L, op->on_bp[k]);
+    lua_setfield(L, -2, net->el[net->dev[k].el].name);
+  }
+  lua_setfield(L, -2, "on_breakpoint");
+  lua_pushinteger(L, (lua_Integer)op->iterations);
+  lua_setfield(L, -2, "iterations");
+}
+
+static void push_trace(lua_State *L, const sw_net *net, const sw_net_trace *t)
+{
+  size_t a, k, m = net->ndev;
+  static const char *const ev[] = { "solved", "singular", "cycle" };
+  lua_createtable(L, (int)t->n, 0);
+  for (a = 0; a < t->n; a++) {
+    lua_createtable(L, 0, 6);
+    lua_pushstring(L, ev[t->event[a]]); lua_setfield(L, -2, "event");
+    {
+      static const char *const keys[] = { "state", "v", "i", "x", "excess" };
+      int f;
+      for (f = 0; f < 5; f++) {
+        lua_createtable(L, 0, (int)m);
+        for (k = 0; k < m; k++) {
+          size_t q = a * m + k;
+          if (f == 0) lua_pushinteger(L, net->dev[k].seg[t->state[q]].label);
+          else lua_pushnumber(L, f == 1 ? t->v[q] : f == 2 ? t->i[q] : f == 3 ? t->x[q] : t->excess[q]);
+          lua_setfield(L, -2, net->el[net->dev[k].el].name);
+        }
+        lua_setfield(L, -2, keys[f]);
+      }
+    }
+    lua_rawseti(L, -2, (lua_Integer)a + 1);
+  }
+}
+
+/* Binds the exact curves (user value 2) and runs Newton from op. */
+static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_iter)
+{
+  size_t m = n->net.ndev, k;
+  const sw_curve **ptr;
+  sw_curve *copies;
+  lsw_callctx *ctx;
+  int top, rc;
+  sw_err err;
+  ptr = lua_newuserdatauv(L, (m ? m : 1) * sizeof *ptr, 0);
+  copies = lua_newuserdatauv(L, (m ? m : 1) * sizeof *copies, 0);
+  ctx = lua_newuserdatauv(L, (m ? m : 1) * sizeof *ctx, 0);
+  lua_getiuservalue(L, 1, 2);
+  top = lua_gettop(L);
+  for (k = 0; k < m; k++) {
+    lua_rawgeti(L, top, (lua_Integer)k + 1);
+    if (lua_isnil(L, -1)) { lua_pop(L, 1); ptr[k] = NULL; continue; }
+    lsw_curve_bind(L, -1, &copies[k], &ctx[k]);
+    ptr[k] = &copies[k];
+  }
+  rc = sw_net_exact(&n->net, ptr, op, max_iter > 0 ? (size_t)max_iter : 0, &err);
+  for (k = m; k-- > 0;) if (ptr[k]) { lsw_curve_done(L, &ctx[k]); lua_pop(L, 1); }
+  lua_settop(L, top - 4);
+  if (rc) lsw_raise(L, "network:solve", &err);
+}
+
+/* n:solve(method, start, trace, max_states, exact, max_iter)
+ * -> op, info {method=, nfound=, pmatrix=, pmatrix_test=, trace=} */
+static int l_solve(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  static const char *const methods[] = { "auto", "assumed", "enumerate", "lcp", NULL };
+  int method = luaL_checkoption(L, 2, "auto", methods);
+  int want_trace = lua_toboolean(L, 4), exact = lua_toboolean(L, 6), rc = SW_OK, pm = -1;
+  double max_states = luaL_optnumber(L, 5, 1e6);
+  lua_Integer max_iter = luaL_optinteger(L, 7, 0);
+  const sw_net *net = &n->net;
+  size_t m, it = 0, nfound = 0, count = 0;
+  const char *used = methods[method], *how = NULL;
+  int *start = NULL, *state;
+  lsw_hold *h;
+  sw_err err;
+  lua_settop(L, 7);
+  prepare(L, n, "network:solve");
+  m = net->ndev;
+  if (!lua_isnil(L, 3)) {
+    luaL_checktype(L, 3, LUA_TTABLE);
+    start = lua_newuserdatauv(L, (m ? m : 1) * sizeof *start, 0);
+    sw_net_default_start(net, start);
+    fill_start(L, 3, net, start);
+  }
+  h = new_hold(L);
+  hold_ops(L, h, 1);
+  h->states = sw_alloc(m ? m : 1, sizeof(int), &err);
+  if (!h->states) return lsw_raise(L, "network:solve", &err);
+  state = h->states;
+  switch (method) {
+  case 0: rc = sw_net_auto(net, start, max_states, state, &it, &nfound, &used, &err); break;
+  case 1: rc = sw_net_assumed(net, start, 0, state, &it, want_trace ? &h->trace : NULL, &err); break;
+  case 2: {
+    int *all = NULL;
+    rc = sw_net_enumerate(net, max_states, &all, &count, &it, &err);
+    if (rc == SW_OK && count == 0)
+      rc = sw_err_set(&err, SW_ENOSOL, "no consistent state exists: enumeration of all %zu states found none", it);
+    if (rc == SW_OK) memcpy(state, all, m * sizeof *state);
+    free(all);
+    nfound = count;
+    break;
+  }
+  case 3: rc = sw_net_lcp(net, state, &it, &pm, &how, &err); break;
+  }
+  if (rc) {
+    if (want_trace && h->trace.n) { /* the attempts are part of the answer */
+      push_trace(L, net, &h->trace);
+      lua_pushfstring(L, "segwise.network:solve: %s", err.msg);
+      lua_setfield(L, -2, "error");
+      return lua_error(L);
+    }
+    return lsw_raise(L, "network:solve", &err);
+  }
+  if (sw_net_op_from_state(net, state, &h->ops[0], &err)) return lsw_raise(L, "network:solve", &err);
+  h->ops[0].iterations = it;
+  if (exact) run_exact(L, n, &h->ops[0], max_iter);
+  push_op(L, net, &h->ops[0]);
+  lua_createtable(L, 0, 5);
+  lua_pushstring(L, exact ? "exact" : used); lua_setfield(L, -2, "method");
+  lua_pushinteger(L, (lua_Integer)nfound); lua_setfield(L, -2, "nfound");
+  if (method == 3) {
+    if (pm >= 0) { lua_pushboolean(L, pm); lua_setfield(L, -2, "pmatrix"); }
+    lua_pushstring(L, how); lua_setfield(L, -2, "pmatrix_test");
+  }
+  if (want_trace && method == 1) { push_trace(L, net, &h->trace); lua_setfield(L, -2, "trace"); }
+  return 2;
+}
+
+/* n:solve_all(max_states) -> list of ops with stability */
+static int l_solve_all(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  double max_states = luaL_optnumber(L, 2, 1e6);
+  const sw_net *net = &n->net;
+  size_t count = 0, visited = 0, k, m;
+  int *all = NULL;
+  lsw_hold *h;
+  sw_err err;
+  prepare(L, n, "network:solve_all");
+  m = net->ndev;
+  h = new_hold(L);
+  if (sw_net_enumerate(net, max_states, &all, &count, &visited, &err)) return lsw_raise(L, "network:solve_all", &err);
+  h->states = all;
+  if (count) hold_ops(L, h, count);
+  for (k = 0; k < count; k++) {
+    int s;
+    if (sw_net_op_from_state(net, all + k * m, &h->ops[k], &err)) return lsw_raise(L, "network:solve_all", &err);
+    h->ops[k].iterations = visited;
+    s = sw_net_stability(net, &h->ops[k], &err);
+    if (s < 0) return lsw_raise(L, "network:solve_all", &err);
+    h->ops[k].stability = s;
+  }
+  lua_createtable(L, (int)count, 0);
+  for (k = 0; k < count; k++) {
+    push_op(L, net, &h->ops[k]);
+    lua_pushstring(L, stability_name(h->ops[k].stability));
+    lua_setfield(L, -2, "stability");
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 1;
+}
+
+/* n:sweep(name, values, start, max_states) -> list of ops */
+static int l_sweep(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  const char *name = luaL_checkstring(L, 2);
+  size_t nv, k, el;
+  double *vals = lsw_checkdoubles(L, 3, "values", &nv, 0);
+  double max_states = luaL_optnumber(L, 5, 1e6);
+  int *start = NULL;
+  lsw_hold *h;
+  sw_err err;
+  el = sw_net_find(&n->net, name);
+  if (el == SW_NET_NONE) return luaL_error(L, "segwise.network:sweep: no element named '%s'", name);
+  if (n->net.el[el].kind == SW_NET_DEV) return luaL_error(L, "segwise.network:sweep: '%s' is a device; sweep a source, gain or resistor", name);
+  prepare(L, n, "network:sweep");
+  if (!lua_isnoneornil(L, 4)) {
+    luaL_checktype(L, 4, LUA_TTABLE);
+    start = lua_newuserdatauv(L, (n->net.ndev ? n->net.ndev : 1) * sizeof *start, 0);
+    sw_net_default_start(&n->net, start);
+    fill_start(L, 4, &n->net, start);
+  }
+  h = new_hold(L);
+  if (nv) hold_ops(L, h, nv);
+  if (sw_net_sweep(&n->net, el, vals, nv, start, max_states, h->ops, &err)) return lsw_raise(L, "network:sweep", &err);
+  lua_createtable(L, (int)nv, 0);
+  for (k = 0; k < nv; k++) {
+    push_op(L, &n->net, &h->ops[k]);
+    setnum(L, "value", vals[k]);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 1;
+}
+
+/* n:segments(name) -> {{label=, lo=, hi=, slope=, intercept=}, ...} */
+static int l_segments(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  const char *name = luaL_checkstring(L, 2);
+  size_t el = sw_net_find(&n->net, name), k;
+  const sw_net_dev *d;
+  if (el == SW_NET_NONE || n->net.el[el].kind != SW_NET_DEV) return luaL_error(L, "segwise.network: no device named '%s'", name);
+  d = &n->net.dev[n->net.el[el].dev];
+  lua_createtable(L, (int)d->nseg, 0);
+  for (k = 0; k < d->nseg; k++) {
+    lua_createtable(L, 0, 5);
+    lua_pushinteger(L, d->seg[k].label); lua_setfield(L, -2, "label");
+    setnum(L, "lo", d->seg[k].lo); setnum(L, "hi", d->seg[k].hi);
+    setnum(L, "slope", d->seg[k].slope); setnum(L, "intercept", d->seg[k].icpt);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 1;
+}
+
+/* n:info() -> {nodes = {...}, elements = {{name=, kind=, nodes={...}, ctrl=, value=, pmax=, x=}}} */
+static int l_info(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  const sw_net *net = &n->net;
+  size_t k;
+  lua_createtable(L, 0, 2);
+  lua_createtable(L, (int)net->nnodes, 0);
+  for (k = 0; k < net->nnodes; k++) { lua_pushstring(L, net->node[k]); lua_rawseti(L, -2, (lua_Integer)k + 1); }
+  lua_setfield(L, -2, "nodes");
+  lua_createtable(L, (int)net->nel, 0);
+  for (k = 0; k < net->nel; k++) {
+    const sw_net_el *e = &net->el[k];
+    static const char *const kn[] = { "", "resistor", "vsource", "isource", "vcvs", "vccs", "ccvs", "cccs", "element" };
+    int nn = (e->kind == SW_NET_VCVS || e->kind == SW_NET_VCCS) ? 4 : 2, j;
+    size_t idx[4];
+    idx[0] = e->na; idx[1] = e->nb; idx[2] = e->cp; idx[3] = e->cm;
+    lua_createtable(L, 0, 7);
+    lua_pushstring(L, e->name); lua_setfield(L, -2, "name");
+    lua_pushstring(L, kn[e->kind]); lua_setfield(L, -2, "kind");
+    lua_createtable(L, nn, 0);
+    for (j = 0; j < nn; j++) { lua_pushstring(L, net->node[idx[j]]); lua_rawseti(L, -2, j + 1); }
+    lua_setfield(L, -2, "nodes");
+    if (e->ctrl_name) { lua_pushstring(L, e->ctrl_name); lua_setfield(L, -2, "ctrl"); }
+    if (e->kind == SW_NET_DEV) {
+      const sw_net_dev *d = &net->dev[e->dev];
+      setnum(L, "pmax", d->pmax);
+      lua_pushstring(L, d->x_is_i ? "i" : "v"); lua_setfield(L, -2, "x");
+      lua_pushinteger(L, (lua_Integer)d->model.nseg); lua_setfield(L, -2, "nseg");
+    } else setnum(L, "value", e->value);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  lua_setfield(L, -2, "elements");
+  return 1;
+}
+
+static const luaL_Reg net_methods[] = {
+  { "add", l_add }, { "device", l_device }, { "set", l_set }, { "solve", l_solve },
+  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "segments", l_segments },
+  { "info", l_info }, { "free", net_release }, { NULL, NULL }
+};
+
+void lsw_open_net(lua_State *L)
+{
+  if (luaL_newmetatable(L, LSW_HOLD_MT)) {
+    lua_pushcfunction(L, hold_gc); lua_setfield(L, -2, "__gc");
+  }
+  lua_pop(L, 1);
+  if (luaL_newmetatable(L, LSW_NET_MT)) {
+    luaL_newlib(L, net_methods);
+    lua_setfield(L, -2, "__index");
+    lua_pushcfunction(L, net_release); lua_setfield(L, -2, "__gc");
+    lua_pushcfunction(L, net_release); lua_setfield(L, -2, "__close");
+  }
+  lua_pop(L, 1);
+  lua_pushcfunction(L, l_net_new);
+  lua_setfield(L, -2, "net_new");
+}
