@@ -557,3 +557,122 @@ describe("segwise.plot", function()
     end)
   end)
 end)
+
+describe("segwise.plot", function()
+  -- Doubles with the methods the ready-made specs use.  The model is
+  -- y = |x| on [-1, 2] (knots -1, 0, 2); the "curve" is y = x^2.
+  local model = {
+    knots = function() return { -1, 0, 2 }, { 1, 0, 2 }, { 1, 0, 2 } end,
+    eval = function(_, x)
+      if type(x) == "number" then return math.abs(x) end
+      local t = {}
+      for i = 1, #x do t[i] = math.abs(x[i]) end
+      return t
+    end,
+  }
+  local jumpy = {   -- a model with a jump at x = 0: left limit 0, right value 1
+    knots = function() return { -1, 0, 1 }, { -1, 1, 2 }, { -1, 0, 2 } end,
+    eval = function(_, x) return x < 0 and x or x + 1 end,
+  }
+  local curve = setmetatable({ domain = function() return -5, 5 end },
+    { __call = function(_, x) return x * x end })
+
+  describe("fit_spec", function()
+    it("samples the curve over the first model's knots and draws models through their knots", function()
+      local s = plot.fit_spec(curve, { { name = "abs", model = model } }, { n = 31 })
+      assert.are.equal(2, #s.series)
+      local c = s.series[1]
+      assert.are.equal(31, #c.x)
+      assert.are.equal(-1, c.x[1])
+      assert.are.equal(2, c.x[31])
+      assert.is.near(0.01, c.y[12], 1e-12)             -- x = -1 + 11 * 0.1 = 0.1, x^2 (by hand)
+      assert.are.same({ -1, 0, 2 }, s.series[2].x)
+      assert.are.same({ 1, 0, 2 }, s.series[2].y)
+      assert.is_true(s.series[2].marker)
+      assert.is_true(check_xml(plot.svg_string(s)))
+    end)
+
+    it("breaks the model line at a jump", function()
+      local s = plot.fit_spec(nil, jumpy)
+      local y = s.series[1].y
+      local gaps = 0
+      for i = 1, #y do if y[i] ~= y[i] then gaps = gaps + 1 end end
+      assert.are.equal(1, gaps)
+      assert.are.same({ -1, 0, 0, 0, 1 }, s.series[1].x)
+    end)
+
+    it("asks for a range when it cannot find one", function()
+      assert.has_error(function() plot.fit_spec(function(x) return x end, nil) end,
+        "segwise.plot.fit_spec: give the range as opts.lo and opts.hi (lo < hi)")
+    end)
+  end)
+
+  describe("error_spec", function()
+    it("plots model - curve and marks the knots on the zero line", function()
+      local s = plot.error_spec(curve, model, { n = 31, x = { unit = "A" } })
+      local e = s.series[1]
+      -- at x = 0.5: |x| - x^2 = 0.25 (by hand)
+      assert.is.near(0.5, e.x[16], 1e-12)
+      assert.is.near(0.25, e.y[16], 1e-12)
+      assert.are.equal(3, #s.marks)
+      assert.are.equal(0, s.marks[2].y)
+      assert.are.equal("knots (PWL model)", s.marks_label)
+      local t = plot.svg_string(s)
+      assert.is_true(check_xml(t))
+      assert.is_truthy(t:find(">knots (PWL model)</text>", 1, true))
+    end)
+
+    it("gives relative error in percent on request", function()
+      local s = plot.error_spec(curve, model, { n = 31, rel = true })
+      -- at x = 0.5: (0.5 - 0.25) / 0.25 * 100 = 100 % (by hand)
+      assert.is.near(100, s.series[1].y[16], 1e-9)
+      assert.are.equal("%", s.y.unit)
+    end)
+
+    it("names what failed to evaluate", function()
+      local broken = { knots = model.knots, eval = function() error("boom") end }
+      local ok, err = pcall(plot.error_spec, curve, broken)
+      assert.is_false(ok)
+      assert.is_truthy(err:find("cannot evaluate models[1]", 1, true), err)
+    end)
+  end)
+
+  describe("series_from_rows", function()
+    it("makes one series per key", function()
+      local rows = { { vb = 4.5, i = 0.010, p = 0.02 }, { vb = 5, i = 0.012, p = 0.03 } }
+      local s = plot.series_from_rows(rows, "vb", { "i", "p" })
+      assert.are.equal(2, #s)
+      assert.are.same({ 4.5, 5 }, s[1].x)
+      assert.are.same({ 0.02, 0.03 }, s[2].y)
+      assert.are.equal("p", s[2].label)
+    end)
+  end)
+
+  describe("legend placement", function()
+    it("moves the legend away from the data", function()
+      -- data crowd the top left corner, so the legend goes elsewhere
+      local xs, ys = {}, {}
+      for i = 0, 50 do xs[#xs + 1] = i / 50; ys[#ys + 1] = (1 - i / 50) ^ 4 end
+      local t = plot.svg_string { series = { { x = xs, y = ys, label = "falling" } } }
+      local lx = tonumber(t:match('<g class="legend">\n<rect x="([%d.]+)"'))
+      local left = tonumber(t:match('<rect class="frame" x="([%d.]+)"'))
+      assert.is_true(lx > left + 100, "legend at x = " .. tostring(lx))
+    end)
+  end)
+
+  describe("with the real C module", function()
+    it("plots a real model and curve when segwise is built", function()
+      local ok, sw = pcall(require, "segwise")
+      if not ok or type(sw) ~= "table" or not sw.pwl or not sw.curve then
+        pending("segwise C module not available in this build")
+        return
+      end
+      local m = sw.pwl { x = { 0, 1, 2 }, y = { 0, 1, 4 } }
+      local c = sw.curve.fn(function(x) return x * x end, { lo = 0, hi = 2 })
+      local s = plot.error_spec(c, { { name = "chords", model = m } }, { n = 21 })
+      -- chord of x^2 on [0, 1]: x - x^2, 0.25 at x = 0.5 (by hand)
+      assert.is.near(0.25, s.series[1].y[6], 1e-12)
+      assert.is_true(check_xml(plot.svg_string(plot.fit_spec(c, m))))
+    end)
+  end)
+end)

@@ -49,11 +49,20 @@ end
 
 -- Linear ticks.  With `tight`, the range stays [lo, hi] and only ticks
 -- inside are kept; otherwise it widens to the outer ticks.
+local SMALLER = { [1] = 0.5, [2] = 0.5, [5] = 0.4, [10] = 0.5 }   -- next 1-2-5 step down
+
 local function linear(lo, hi, target, tight)
   lo, hi = widen(lo, hi)
-  local step = nice_step(hi - lo, target)
+  local step, m = nice_step(hi - lo, target)
   local k0 = floor(lo / step + 1e-9)
   local k1 = ceil(hi / step - 1e-9)
+  -- when whole steps would waste over a quarter of the axis, take the next
+  -- smaller step if the tick count stays reasonable (at most 2*target+1)
+  if not tight and (hi - lo) < 0.75 * (k1 - k0) * step then
+    local s2 = step * SMALLER[m]
+    local j0, j1 = floor(lo / s2 + 1e-9), ceil(hi / s2 - 1e-9)
+    if j1 - j0 <= 2 * target then step, k0, k1 = s2, j0, j1 end
+  end
   local ticks = {}
   for k = k0, k1 do
     local v = k * step

@@ -69,7 +69,8 @@ function M.normalise(spec, F)
   if type(spec) ~= "table" then
     error(fmt("%s: spec must be a table (got %s)", F, type(spec)), 3)
   end
-  local out = { title = spec.title, marks = {}, series = {} }
+  local out = { title = spec.title, marks = {}, series = {},
+    marks_label = spec.marks_label and tostring(spec.marks_label) or nil }
   if out.title ~= nil then out.title = tostring(out.title) end
   for _, a in ipairs { "x", "y" } do
     local s = spec[a] or {}

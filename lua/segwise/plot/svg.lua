@@ -186,15 +186,50 @@ function M.render(spec)
     add("</g>")
   end
 
-  -- legend, top left inside the plot area
+  -- legend inside the plot area, in the corner holding the fewest points
+  -- (spec.legend = "left" | "right" | "bottom left" | "bottom right" fixes it)
   local labelled = {}
   for _, s in ipairs(p.series) do if s.label then labelled[#labelled + 1] = s end end
-  if #labelled > 0 and spec.legend ~= false then
-    local lw = 0
+  local entries = #labelled + ((p.marks_label and #p.marks > 0) and 1 or 0)
+  if entries > 0 and spec.legend ~= false then
+    local lw = p.marks_label and text_w(p.marks_label, fs) or 0
     for _, s in ipairs(labelled) do lw = max(lw, text_w(s.label, fs)) end
-    local bw, bh = lw + 52, #labelled * fs * 1.5 + 8
-    local bx = spec.legend == "right" and (left + pw - bw - 8) or (left + 8)
-    local by = top + 8
+    local bw, bh = lw + 52, entries * fs * 1.5 + 8
+    local corners = {
+      left = { left + 8, top + 8 }, right = { left + pw - bw - 8, top + 8 },
+      ["bottom left"] = { left + 8, top + ph - bh - 8 },
+      ["bottom right"] = { left + pw - bw - 8, top + ph - bh - 8 },
+    }
+    local choice = corners[spec.legend]
+    if not choice then
+      local best
+      for _, name in ipairs { "left", "right", "bottom right", "bottom left" } do
+        local c = corners[name]
+        local n = 0
+        for _, s in ipairs(p.series) do
+          for k = 1, #s.x do
+            local fx, fy = xa.map(s.x[k]), ya.map(s.y[k])
+            if fx and fy then
+              local x, y = X(fx), Y(fy)
+              if x >= c[1] - 4 and x <= c[1] + bw + 4 and y >= c[2] - 4 and y <= c[2] + bh + 4 then n = n + 1 end
+            end
+          end
+          -- a line crossing the box counts too: sample between the points
+          local runs = common.runs(s, xa, ya)
+          for _, r in ipairs(runs) do
+            for k = 1, #r - 2, 2 do
+              for t = 0.25, 0.75, 0.25 do
+                local x = X(r[k] + t * (r[k + 2] - r[k]))
+                local y = Y(r[k + 1] + t * (r[k + 3] - r[k + 1]))
+                if x >= c[1] and x <= c[1] + bw and y >= c[2] and y <= c[2] + bh then n = n + 1 end
+              end
+            end
+          end
+        end
+        if not best or n < best then best, choice = n, c end
+      end
+    end
+    local bx, by = choice[1], choice[2]
     add('<g class="legend">')
     add('<rect x="%s" y="%s" width="%s" height="%s" fill="#ffffff" fill-opacity="0.9" stroke="#999999"/>',
       num(bx), num(by), num(bw), num(bh))
@@ -210,6 +245,11 @@ function M.render(spec)
       end
       add('<text x="%s" y="%s">%s</text>', num(bx + 44), num(y + fs * 0.35), esc(s.label))
     end
+    if p.marks_label and #p.marks > 0 then
+      local y = by + 4 + (#labelled + 0.5) * fs * 1.5
+      add('<circle cx="%s" cy="%s" r="4.5" fill="#ffffff" stroke="#000000" stroke-width="1.5"/>', num(bx + 22), num(y))
+      add('<text x="%s" y="%s">%s</text>', num(bx + 44), num(y + fs * 0.35), esc(p.marks_label))
+    end
     add("</g>")
   end
   add("</svg>")
@@ -221,7 +261,8 @@ end
 -- @tparam table spec {title=, x={label=, unit=, log=, min=, max=}, y={...},
 --   series={{x=, y= (array or function of x), label=, style="line"|"points"|"step",
 --   marker=, color=, dash=, width=}...}, marks={{x=, y=, label=}...},
---   width=720, height=450, legend=true|false|"right"}
+--   marks_label = text for the marks in the legend,
+--   width=720, height=450, legend=true|false|"left"|"right"|"bottom left"|"bottom right"}
 -- @treturn string the SVG text
 function M.write(path, spec)
   if type(path) ~= "string" or path == "" then

@@ -234,10 +234,8 @@ function M.render(spec, opts)
   end
 
   -- legend: a sample of each series' line (same dash pattern) or marker
-  local any = false
   for _, s in ipairs(p.series) do
     if s.label then
-      any = true
       local sample
       if s.style == "points" then
         sample = "  " .. POINT_CHARS[(s.index - 1) % #POINT_CHARS + 1] .. "   "
@@ -256,10 +254,8 @@ function M.render(spec, opts)
       out[#out + 1] = string.rep(" ", lw + 2) .. paint(sample, s.index) .. " " .. s.label
     end
   end
-  if #p.marks > 0 and any ~= nil then
-    local labelled = false
-    for _, m in ipairs(p.marks) do if m.label then labelled = true end end
-    if not labelled then out[#out + 1] = string.rep(" ", lw + 2) .. "  " .. MARK .. "    marks" end
+  if #p.marks > 0 and p.marks_label then
+    out[#out + 1] = string.rep(" ", lw + 2) .. "  " .. MARK .. "    " .. p.marks_label
   end
   return concat(out, "\n") .. "\n"
 end
