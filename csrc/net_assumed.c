@@ -129,7 +129,17 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
         memcpy(hist, state, m * sizeof *state); nh = 1;
       }
     }
-    if (stepping) state[worst] += ex[worst] > 0 ? 1 : -1;
+    if (stepping) {
+      int to = state[worst] + (ex[worst] > 0 ? 1 : -1);
+      if (to < 0 || (size_t)to >= net->dev[worst].nseg) {
+        const sw_net_dev *d = &net->dev[worst];
+        if (trace) trace_push(trace, m, state, v, i, x, ex, event, err);
+        rc = sw_err_set(err, SW_ENOSOL, "assumed state: no consistent state: %s needs %s = %g, beyond the end of its model's range [%g, %g] (extend = \"error\")",
+                        net->el[d->el].name, d->x_is_i ? "i" : "v", x[worst], d->seg[0].lo, d->seg[d->nseg - 1].hi);
+        break;
+      }
+      state[worst] = to;
+    }
     if (trace && trace_push(trace, m, hist + (nh - 1) * m, v, i, x, ex, event, err)) { rc = SW_ENOMEM; break; }
     if (stepping && seen(hist, nh, state, m)) {
       sw_net_state_text(net, state, text, sizeof text);

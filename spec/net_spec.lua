@@ -1,0 +1,308 @@
+-- Networks: building, every solving method, errors, sweeps, corners and
+-- the safety of models and curves held by a network.
+local sw = require "segwise"
+local H = require "net_helpers"
+H.assert = assert
+
+-- A diode-like model: off below 0.6 V, 10 ohm above (i in A, v in V).
+local function knee() return sw.pwl { x = { 0, 0.6, 0.8 }, y = { 0, 0, 0.02 } } end
+
+-- E -> R -> node a -> device -> ground
+local function one_device(e, r, model, opts)
+  local net = sw.network()
+  net:vsource("E", "in", "0", e)
+  net:resistor("R", "in", "a", r)
+  net:element("D1", "a", "0", model or knee(), opts)
+  return net
+end
+
+describe("segwise.network", function()
+  describe("building", function()
+    it("lists the circuit readably", function()
+      local net = one_device(5, 1000)
+      local s = tostring(net)
+      assert.truthy(s:find("E%s+vsource%s+in %-> 0%s+5 V"))
+      assert.truthy(s:find("R%s+resistor%s+in %-> a%s+1000 ohm"))
+      assert.truthy(s:find("D1%s+element%s+a %-> 0%s+PWL device, 2 segments"))
+    end)
+
+    it("accepts numbers as node names and 'gnd' as the reference", function()
+      local net = sw.network()
+      net:vsource("E", 1, "gnd", 2)
+      net:resistor("R1", 1, 2, 100)
+      net:resistor("R2", 2, 0, 100)
+      local op = net:solve()
+      -- voltage divider: 2 V * 100 / 200 (hand algebra)
+      assert.is.near(1.0, op.v[2], 1e-14)
+      assert.is.near(1.0, op.v["2"], 1e-14)
+      assert.are.equal(0, op.v.gnd)
+      H.check_kirchhoff(net, op)
+    end)
+
+    it("rejects duplicate names, bad values and unknown options", function()
+      local net = one_device(5, 1000)
+      assert.has_error(function() net:resistor("R", "a", "0", 10) end, "segwise.network:add: duplicate element name 'R'")
+      assert.has_error(function() net:resistor("R9", "a", "0", 0 / 0) end)
+      assert.has_error(function() net:resistor("R9", "a", "0", -5) end)
+      assert.has_error(function() net:resistor("R9", "a", "0", math.huge) end)
+      assert.has_error(function() net:element("D2", "a", "0", knee(), { colour = 1 }) end)
+      assert.has_error(function() net:element("D2", "a", "0", {}, nil) end)
+      assert.has_error(function() net:solve { mehtod = "lcp" } end)
+      assert.has_error(function() net:solve { method = "magic" } end)
+    end)
+
+    it("keeps working after the model is freed or collected (it holds a copy and a reference)", function()
+      local m = knee()
+      local net = one_device(5, 1000, m)
+      m:free()
+      m = nil
+      collectgarbage(); collectgarbage()
+      local op = net:solve()
+      -- 5 = 1000 i + v, i = 0.1 (v - 0.6)  =>  v = 65/101 (hand algebra)
+      assert.is.near(65 / 101, op.vd.D1, 1e-13)
+    end)
+  end)
+
+  describe("topology errors", function()
+    it("names floating nodes", function()
+      local net = one_device(5, 1000)
+      net:resistor("Rf1", "x", "y", 10)
+      net:resistor("Rf2", "y", "x", 20)
+      local ok, err = pcall(net.solve, net)
+      assert.is_false(ok)
+      assert.truthy(err:find("floating nodes x, y"))
+    end)
+
+    it("names a loop of voltage sources", function()
+      local net = one_device(5, 1000)
+      net:vsource("E2", "in", "m", 1)
+      net:vsource("E3", "m", "0", 4)
+      local ok, err = pcall(net.solve, net)
+      assert.is_false(ok)
+      assert.truthy(err:find("voltage sources form a loop"))
+      assert.truthy(err:find("E3") and err:find("E2") and err:find("E"))
+    end)
+
+    it("names a cut of current sources", function()
+      local net = one_device(5, 1000)
+      net:isource("I1", "0", "p", 1e-3)
+      net:isource("I2", "p", "q", 1e-3)
+      net:resistor("Rq", "q", "p", 10)
+      local ok, err = pcall(net.solve, net)
+      assert.is_false(ok)
+      assert.truthy(err:find("current sources I1 form a cut"))
+      assert.truthy(err:find("nodes p, q"))
+    end)
+
+    it("names a dangling node", function()
+      local net = one_device(5, 1000)
+      net:resistor("Rd", "a", "tip", 10)
+      local ok, err = pcall(net.solve, net)
+      assert.is_false(ok)
+      assert.truthy(err:find("node 'tip' is dangling: only Rd connects to it"))
+    end)
+
+    it("names unknown elements in set and sweep", function()
+      local net = one_device(5, 1000)
+      assert.has_error(function() net:set("RX", 3) end, "segwise.network:set: no element named 'RX'")
+      assert.has_error(function() net:sweep("RX", { 1, 2 }) end, "segwise.network:sweep: no element named 'RX'")
+      assert.has_error(function() net:set("D1", 3) end)
+      assert.has_error(function() net:set("R", 0 / 0) end)
+    end)
+
+    it("names the missing control element of a current-controlled source", function()
+      local net = one_device(5, 1000)
+      net:cccs("F1", "a", "0", "VX", 2)
+      local ok, err = pcall(net.solve, net)
+      assert.is_false(ok)
+      assert.truthy(err:find("no element named 'VX'"))
+    end)
+  end)
+
+  describe("no consistent state", function()
+    -- a device whose model ends at 1 V (extend = "error") across a 5 V source
+    local function impossible()
+      local net = sw.network()
+      net:vsource("E", "a", "0", 5)
+      net:element("D1", "a", "0", sw.pwl { x = { 0, 0.5, 1 }, y = { 0, 0.001, 0.01 }, extend = "error" })
+      return net
+    end
+    it("solve raises an error saying so and what was tried", function()
+      local net = impossible()
+      for _, m in ipairs { "auto", "enumerate", "assumed" } do
+        local ok, err = pcall(net.solve, net, { method = m })
+        assert.is_false(ok)
+        assert.truthy(err:find("consistent") or err:find("cycles"), err)
+      end
+      local ok, err = pcall(net.solve, net, { method = "assumed", trace = true })
+      assert.is_false(ok)
+      assert.truthy(err:find("what was tried:\nattempt 1: assume D1 on segment 1", 1, true), err)
+    end)
+    it("solve_all returns an empty list", function()
+      assert.are.same({}, impossible():solve_all())
+    end)
+  end)
+
+  describe("method agreement on a two-device circuit", function()
+    local function two()
+      local net = sw.network()
+      net:vsource("E", "in", "0", 3)
+      net:resistor("R1", "in", "a", 100)
+      net:element("D1", "a", "b", knee())
+      net:element("D2", "b", "0", knee())
+      net:resistor("R2", "b", "0", 1000)
+      return net
+    end
+    it("assumed, enumerate, lcp and auto give the same point, satisfying Kirchhoff", function()
+      local net = two()
+      local ref = net:solve { method = "enumerate" }
+      H.check_kirchhoff(net, ref)
+      for _, m in ipairs { "assumed", "lcp", "auto" } do
+        local op = net:solve { method = m }
+        H.check_kirchhoff(net, op)
+        for _, d in ipairs { "D1", "D2" } do
+          assert.is.near(ref.vd[d], op.vd[d], 1e-12)
+          assert.is.near(ref.i[d], op.i[d], 1e-14)
+          assert.are.equal(ref.state[d], op.state[d])
+        end
+      end
+      local lcp = net:solve { method = "lcp" }
+      assert.is_true(lcp.pmatrix)
+      assert.are.equal("all principal minors positive", lcp.pmatrix_test)
+    end)
+    it("honours start states and traces every attempt", function()
+      local op = two():solve { method = "assumed", start = { D1 = 2, D2 = 2 }, trace = true }
+      assert.are.equal(1, #op.trace)   -- both conduct: the first guess holds
+      assert.truthy(op.trace[1].text:find("every device lies inside its assumed segment"))
+      local op2 = two():solve { method = "assumed", trace = true }
+      assert.is_true(#op2.trace >= 2)
+      assert.truthy(tostring(op2.trace):find("re%-assign: D1 %-> segment 2"))
+      assert.has_error(function() two():solve { start = { D1 = 7 } } end)
+      assert.has_error(function() two():solve { start = { DX = 1 } } end)
+    end)
+    it("reports the cap on enumerated states with the count", function()
+      local ok, err = pcall(two().solve, two(), { method = "enumerate", max_states = 3 })
+      assert.is_false(ok)
+      assert.truthy(err:find("4 combinations of segments exceed max_states = 3"))
+    end)
+  end)
+
+  describe("devices given as v(i)", function()
+    it("solve a vertical knee (an ideal-diode-like zener) exactly", function()
+      -- v(i): 0 A..1 A at exactly 5.1 V, flat in v: a vertical segment in i(v) terms
+      local z = sw.pwl { x = { -1, 0, 1 }, y = { -1, 5.1, 5.1 } }
+      local net = one_device(12, 100, z, { x = "i" })
+      local op = net:solve()
+      -- 12 V through 100 ohm into a 5.1 V clamp: i = 6.9/100 (hand algebra)
+      assert.is.near(5.1, op.vd.D1, 1e-13)
+      assert.is.near(0.069, op.i.D1, 1e-15)
+      H.check_kirchhoff(net, op)
+    end)
+  end)
+
+  describe("controlled sources", function()
+    it("a VCVS amplifier and a CCCS mirror follow hand algebra", function()
+      local net = sw.network()
+      net:vsource("VIN", "in", "0", 0.1)
+      net:resistor("RI", "in", "0", 1000)
+      net:vcvs("A1", "out", "0", "in", "0", 20)
+      net:resistor("RL", "out", "0", 200)
+      net:cccs("F1", "0", "m", "RL", 0.5)   -- half of RL's current pushed into m
+      net:resistor("RM", "m", "0", 50)
+      net:ccvs("H1", "h", "0", "VIN", 10)
+      net:resistor("RH", "h", "0", 10)
+      net:vccs("G1", "0", "g", "in", "0", 0.01)
+      net:resistor("RG", "g", "0", 100)
+      local op = net:solve()
+      assert.is.near(2.0, op.v.out, 1e-14)              -- 20 * 0.1
+      assert.is.near(0.5 * 0.01 * 50, op.v.m, 1e-14)   -- 0.5 * (2/200) * 50
+      -- VIN's current (in -> through source -> 0) is -0.1/1000
+      assert.is.near(10 * -1e-4, op.v.h, 1e-15)
+      assert.is.near(0.01 * 0.1 * 100, op.v.g, 1e-14)
+      H.check_kirchhoff(net, op)
+    end)
+  end)
+
+  describe("operating point fields", function()
+    it("has v, i, p, state, iterations and warnings (pmax above rating)", function()
+      local net = one_device(5, 1000, knee(), { pmax = 1e-3 })
+      local op = net:solve()
+      assert.is.near(op.vd.D1 * op.i.D1, op.p.D1, 1e-18)
+      assert.are.equal(2, op.state.D1)
+      assert.is_true(op.iterations >= 1)
+      assert.are.equal(1, #op.warnings)
+      assert.truthy(op.warnings[1]:find("D1 dissipates .* above its pmax rating of 0.001 W"))
+      assert.truthy(op.warnings[1]:find("README"))
+      -- sources deliver power: negative absorbed power
+      assert.is_true(op.p.E < 0)
+    end)
+  end)
+
+  describe("sweep", function()
+    it("matches single solves at every value and warm-starts", function()
+      local net = one_device(0, 1000)
+      local values = { 0, 0.3, 0.6, 1, 2, 5, 10 }
+      local rows = net:sweep("E", values)
+      assert.are.equal(#values, #rows)
+      for k, e in ipairs(values) do
+        -- hand algebra: off (i = 0) while e <= 0.6, else v = (e + 60)/101
+        local v = e <= 0.6 and e or (e + 60) / 101
+        assert.is.near(v, rows[k].vd.D1, 1e-13)
+        assert.are.equal(e, rows[k].value)
+        net:set("E", e)   -- the element laws are checked against the row's value
+        H.check_kirchhoff(net, rows[k])
+        net:set("E", 0)
+      end
+      -- warm start: after the knee each point holds its first guess
+      assert.are.equal(1, rows[#rows].iterations)
+      -- the swept source is restored
+      assert.is.near(0, net:solve().vd.D1, 1e-15)
+    end)
+  end)
+
+  describe("corners", function()
+    it("solves every corner and reports min and max", function()
+      local net = one_device(5, 1000)
+      local box = net:corners { E = { 4, 6 }, R = { 900, 1100 } }
+      assert.are.equal(4, #box.corners)
+      -- i = 0.1 (v - 0.6), v = (E + 60 R/1000 ... ) hand algebra per corner:
+      -- E = R i + v, i = 0.1 (v - 0.6)  =>  i = (E - 0.6) / (R + 10)
+      assert.is.near((4 - 0.6) / 1110, box.min.i.D1, 1e-15)
+      assert.is.near((6 - 0.6) / 910, box.max.i.D1, 1e-15)
+      -- values restored
+      assert.is.near((5 - 0.6) / 1010, net:solve().i.D1, 1e-15)
+      assert.has_error(function() net:corners { RX = { 1, 2 } } end)
+    end)
+  end)
+
+  describe("exact comparison", function()
+    it("Newton from the PWL point, and compare_ops / op:diff", function()
+      local c = sw.curve.diode { is = 1e-12, n = 1, vt = 0.025, x = "v" }
+      local xs, ys = {}, {}
+      for k = 0, 8 do xs[#xs + 1] = 0.1 * k; ys[#ys + 1] = c(0.1 * k) end
+      local net = one_device(5, 1000, sw.pwl { x = xs, y = ys }, { exact = c })
+      local pw = net:solve()
+      local ex = net:solve { exact = true }
+      assert.are.equal("exact", ex.method)
+      assert.is_true(ex.iterations >= 1)
+      H.check_kirchhoff(net, pw)
+      local d = sw.compare_ops(pw, ex)
+      assert.is_true(d.D1.rel_i < 0.02)
+      assert.are.same(d, pw:diff(ex))
+      assert.is.near(math.abs(pw.i.D1 - ex.i.D1), d.D1.di, 1e-18)
+    end)
+    it("uses Lua function curves and reports their errors", function()
+      local f = sw.curve.fn(function(v) return 0.1 * (v - 0.6) + 0.001 * v * v end, { lo = -10, hi = 10 })
+      local net = one_device(5, 1000, knee(), { exact = f })
+      local ex = net:solve { exact = true }
+      -- 5 = 1000 i + v with i = 0.1 (v - 0.6) + 0.001 v^2: check the residual
+      local v = ex.vd.D1
+      assert.is.near(5, 1000 * (0.1 * (v - 0.6) + 0.001 * v * v) + v, 1e-10)
+      local bad = sw.curve.fn(function() error("boom") end, { lo = -10, hi = 10 })
+      local net2 = one_device(5, 1000, knee(), { exact = bad })
+      local ok, err = pcall(net2.solve, net2, { exact = true })
+      assert.is_false(ok)
+      assert.truthy(tostring(err):find("boom"))
+    end)
+  end)
+end)
