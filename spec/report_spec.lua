@@ -471,6 +471,36 @@ describe("segwise.report", function()
       assert.are.equal(7, #t)
     end)
 
+    it("leaves out the reference node, shows element voltage, knots and method", function()
+      local s = report.op_table { v = { ["0"] = 0, gnd = 0, a = 2 }, vd = { D1 = 0.7 }, i = { D1 = 0.002 },
+        on_breakpoint = { D1 = true }, state = { D1 = 1 }, method = "assumed", iterations = 2 }
+      assert.is_falsy(s:find("\ngnd", 1, true))
+      assert.is_falsy(s:find("\n0 ", 1, true))
+      assert.is_truthy(s:find("v (mV)", 1, true))
+      assert.is_truthy(s:find("on knot", 1, true))
+      assert.is_truthy(s:find("method: assumed, iterations: 2", 1, true))
+      assert.is_truthy(report.op_table({ v = { gnd = 0 } }, { ground = true }):find("gnd", 1, true))
+    end)
+
+    it("reports a real operating point when segwise is built", function()
+      local ok, sw = pcall(require, "segwise")
+      if not ok or type(sw) ~= "table" or not sw.network then
+        pending("segwise C module or networks not available in this build")
+        return
+      end
+      -- 10 V across 1 kOhm + 1 kOhm: 5 V at the middle, 5 mA, 25 mW each (by hand)
+      local net = sw.network()
+      net:vsource("VB", "a", "0", 10)
+      net:resistor("R1", "a", "b", 1000)
+      net:resistor("R2", "b", "0", 1000)
+      local t = parse_csv(report.op_table(net:solve {}, { format = "csv" }))
+      local byname = {}
+      for k = 2, #t do byname[t[k][1] .. ":" .. t[k][2]] = t[k] end
+      assert.is.near(5, tonumber(byname["node:b"][3]), 1e-9)
+      assert.is.near(0.005, math.abs(tonumber(byname["element:R1"][4])), 1e-12)
+      assert.is.near(0.025, math.abs(tonumber(byname["element:R2"][5])), 1e-12)
+    end)
+
     it("rejects a non-table", function()
       assert.has_error(function() report.op_table(5) end,
         "segwise.report.op_table: op must be an operating point (got number)")

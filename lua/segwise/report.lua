@@ -705,6 +705,7 @@ end
 
 --- Operating-point report: node voltages, then each element's current,
 -- power and state (and voltage, when op.vd[name] is given), then warnings.
+-- The reference node ("0" or "gnd") is left out unless opts.ground.
 -- @tparam table op {v = {[node] = volts}, i = {[name] = amps}, p = {[name] = watts},
 --   state = {[name] = segment}, warnings = {string...}, vd = {[name] = volts}?}
 -- @tparam[opt] table opts {format =, out =, digits =}
@@ -721,7 +722,10 @@ function M.op_table(op, opts)
   local parts = {}
   local vrows = {}
   for _, node in ipairs(sorted_keys(op.v)) do
-    vrows[#vrows + 1] = { node = tostring(node), v = op.v[node] }
+    -- the reference node is 0 V by definition: listed only on request
+    if opts.ground or (node ~= "0" and node ~= "gnd" and node ~= 0) then
+      vrows[#vrows + 1] = { node = tostring(node), v = op.v[node] }
+    end
   end
   if format == "csv" then
     -- one CSV with a kind column, so a single file holds both parts
@@ -738,15 +742,18 @@ function M.op_table(op, opts)
   if #vrows > 0 then
     topts.title = format == "text" and "node voltages" or "node voltages"
     parts[#parts + 1] = M.table(vrows, { { name = "node", key = "node" },
-      { name = "V", key = "v", unit = "V" } }, topts)
+      { name = "v", key = "v", unit = "V" } }, topts)
   end
   local erows = {}
   local has_vd = type(op.vd) == "table"
   for _, name in ipairs(sorted_keys(op.i, op.p, op.state, op.vd)) do
+    local on_bp = type(op.on_breakpoint) == "table" and op.on_breakpoint[name]
     erows[#erows + 1] = { name = tostring(name), v = has_vd and op.vd[name] or nil,
       i = op.i and op.i[name], p = op.p and op.p[name],
-      state = op.state and op.state[name] }
+      state = op.state and op.state[name], knot = on_bp and "yes" or nil }
   end
+  local any_bp = false
+  for _, r in ipairs(erows) do if r.knot then any_bp = true end end
   if #erows > 0 then
     local cols = { { name = "element", key = "name" } }
     if has_vd then cols[#cols + 1] = { name = "v", key = "v", unit = "V" } end
@@ -755,6 +762,8 @@ function M.op_table(op, opts)
     if type(op.state) == "table" and next(op.state) then
       cols[#cols + 1] = { name = "state", key = "state", align = "right" }
     end
+    -- a device sitting exactly on a knot: either neighbouring segment is valid
+    if any_bp then cols[#cols + 1] = { name = "on knot", key = "knot" } end
     topts.title = "elements"
     parts[#parts + 1] = M.table(erows, cols, topts)
   end
@@ -766,9 +775,10 @@ function M.op_table(op, opts)
     end
     parts[#parts + 1] = concat(l, "\n") .. "\n"
   end
-  if op.iterations then
-    parts[#parts + 1] = fmt("iterations: %s\n", tostring(op.iterations))
-  end
+  local how = {}
+  if op.method then how[#how + 1] = "method: " .. tostring(op.method) end
+  if op.iterations then how[#how + 1] = "iterations: " .. tostring(op.iterations) end
+  if #how > 0 then parts[#parts + 1] = concat(how, ", ") .. "\n" end
   return finish(parts, opts, F)
 end
 
