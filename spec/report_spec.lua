@@ -352,6 +352,33 @@ describe("segwise.report", function()
     end)
   end)
 
+  describe("json", function()
+    it("encodes arrays, objects with sorted keys, escapes, NaN as null", function()
+      assert.are.equal('{"a":1,"b":[1,2.5,null],"c":"x\\"\\n\\u0001","d":[],"e":{"x":true}}\n',
+        report.json { a = 1, b = { 1, 2.5, 0 / 0 }, c = 'x"\n\1', d = {}, e = { x = true } })
+    end)
+
+    it("keeps 17 digits on request", function()
+      assert.are.equal(1 / 3, tonumber(report.json({ 1 / 3 }, { full = true }):match("%[(.-)%]")))
+    end)
+
+    it("names what it cannot encode", function()
+      assert.has_error(function() report.json { f = print } end,
+        "segwise.report.json: value.f is a function, which JSON cannot hold")
+      local t = {}
+      t.self = t
+      assert.has_error(function() report.json(t) end, "segwise.report.json: value.self refers back to itself")
+    end)
+
+    it("writes to a path", function()
+      local path = tmpname()
+      local s = report.json({ 1, 2 }, { out = path })
+      assert.are.equal("[1,2]\n", read_all(path))
+      assert.are.equal(s, read_all(path))
+      os.remove(path)
+    end)
+  end)
+
   -- A model double with the methods the reports use, so these specs do not
   -- depend on the C module.  Segments are {lo, hi, slope, intercept}.
   local function fake_model(segs, info, cmp)
