@@ -46,7 +46,7 @@ static lsw_hold *new_hold(lua_State *L)
 
 static void hold_ops(lua_State *L, lsw_hold *h, size_t n)
 {
-  sw_err err;
+  sw_err err = { 0, "" };
   h->ops = sw_alloc(n, sizeof *h->ops, &err);
   if (!h->ops) lsw_raise(L, "network", &err);
   h->nops = n;
@@ -103,7 +103,7 @@ static int l_add(lua_State *L)
   int k = luaL_checkoption(L, 2, NULL, kinds);
   const char *name = luaL_checkstring(L, 3), *nodes[4], *ctrl = NULL;
   double value = luaL_checknumber(L, 9);
-  sw_err err;
+  sw_err err = { 0, "" };
   int j, nn = (codes[k] == SW_NET_VCVS || codes[k] == SW_NET_VCCS) ? 4 : 2;
   static const char *const what[] = { "first node", "second node", "first control node", "second control node" };
   for (j = 0; j < nn; j++) nodes[j] = node_arg(L, 4 + j, what[j]);
@@ -121,7 +121,7 @@ static int l_device(lua_State *L)
   lsw_model *m = lsw_checkmodel(L, 5);
   int x_is_i = lua_toboolean(L, 6);
   double pmax = luaL_optnumber(L, 7, 0);
-  sw_err err;
+  sw_err err = { 0, "" };
   if (!lua_isnoneornil(L, 8)) lsw_checkcurve(L, 8);
   if (sw_net_add_device(&n->net, name, na, nb, &m->m, x_is_i, pmax, &err)) return lsw_raise(L, "network:element", &err);
   lua_getiuservalue(L, 1, 1);
@@ -136,14 +136,14 @@ static int l_device(lua_State *L)
 static int l_set(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
-  sw_err err;
+  sw_err err = { 0, "" };
   if (sw_net_set(&n->net, luaL_checkstring(L, 2), luaL_checknumber(L, 3), &err)) return lsw_raise(L, "network:set", &err);
   return 0;
 }
 
 static void prepare(lua_State *L, lsw_net *n, const char *fname)
 {
-  sw_err err;
+  sw_err err = { 0, "" };
   if (sw_net_prepare(&n->net, &err)) lsw_raise(L, fname, &err);
 }
 
@@ -251,7 +251,7 @@ static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_i
   sw_curve *copies;
   lsw_callctx *ctx;
   int top, rc;
-  sw_err err;
+  sw_err err = { 0, "" };
   ptr = lua_newuserdatauv(L, (m ? m : 1) * sizeof *ptr, 0);
   copies = lua_newuserdatauv(L, (m ? m : 1) * sizeof *copies, 0);
   ctx = lua_newuserdatauv(L, (m ? m : 1) * sizeof *ctx, 0);
@@ -284,7 +284,7 @@ static int l_solve(lua_State *L)
   const char *used = methods[method], *how = NULL;
   int *start = NULL, *state;
   lsw_hold *h;
-  sw_err err;
+  sw_err err = { 0, "" };
   lua_settop(L, 7);
   prepare(L, n, "network:solve");
   m = net->ndev;
@@ -347,7 +347,7 @@ static int l_solve_all(lua_State *L)
   size_t count = 0, visited = 0, k, m;
   int *all = NULL;
   lsw_hold *h;
-  sw_err err;
+  sw_err err = { 0, "" };
   prepare(L, n, "network:solve_all");
   m = net->ndev;
   h = new_hold(L);
@@ -382,7 +382,7 @@ static int l_sweep(lua_State *L)
   double max_states = luaL_optnumber(L, 5, 1e6);
   int *start = NULL;
   lsw_hold *h;
-  sw_err err;
+  sw_err err = { 0, "" };
   el = sw_net_find(&n->net, name);
   if (el == SW_NET_NONE) return luaL_error(L, "segwise.network:sweep: no element named '%s'", name);
   if (n->net.el[el].kind == SW_NET_DEV) return luaL_error(L, "segwise.network:sweep: '%s' is a device; sweep a source, gain or resistor", name);

@@ -145,7 +145,12 @@ int sw_net_enumerate(const sw_net *net, double max_states, int **states,
         /* generous first screen; the fresh solve below decides */
         if (fabs(sw_net_excess(&net->dev[k], (size_t)state[k], sw_net_dev_x(&net->dev[k], v, i))) > 1e3 * net->dev[k].tol) ok = 0;
       }
-      if (ok && sw_net_state_ports(net, state, pv, pv + m, err) == SW_OK) {
+      if (ok && (rc = sw_net_state_ports(net, state, pv, pv + m, err)) != SW_OK) {
+        if (rc == SW_ENOMEM) goto done;
+        rc = SW_OK;
+        ok = 0;
+      }
+      if (ok) {
         for (k = 0; k < m && ok; k++)
           if (sw_net_excess(&net->dev[k], (size_t)state[k], sw_net_dev_x(&net->dev[k], pv[k], pv[m + k])) != 0) ok = 0;
         for (k = 0; k < *count && ok; k++) if (same_point(net, pts + 2 * m * k, pv)) ok = 0;
@@ -164,7 +169,7 @@ int sw_net_enumerate(const sw_net *net, double max_states, int **states,
           memcpy(pts + *count * 2 * m, pv, 2 * m * sizeof *pv);
           ++*count;
         }
-      } else if (err->code == SW_ENOMEM) { rc = SW_ENOMEM; goto done; }
+      }
     }
     /* next state in the Gray code */
     a = focus[0]; focus[0] = 0;
