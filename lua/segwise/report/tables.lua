@@ -1,0 +1,296 @@
+--- segwise.report.tables: rows as aligned text, CSV (RFC 4180) or
+-- markdown, with SI units.
+-- @module segwise.report.tables
+
+local si = require "segwise.report.si"
+local write = require "segwise.report.write"
+
+local M = {}
+
+local floor, abs, huge = math.floor, math.abs, math.huge
+local fmt = string.format
+local concat = table.concat
+local nonfinite_text = si.nonfinite_text
+local PREFIX = si.PREFIX
+
+local function ulen(s)
+  return utf8.len(s) or #s
+end
+
+local function pad(s, w, align)
+  local n = w - ulen(s)
+  if n <= 0 then return s end
+  if align == "left" then return s .. string.rep(" ", n) end
+  if align == "center" then
+    local l = n // 2
+    return string.rep(" ", l) .. s .. string.rep(" ", n - l)
+  end
+  return string.rep(" ", n) .. s
+end
+
+-- Normalises one column spec.
+local function norm_column(c, i)
+  if type(c) == "string" then return { name = c, key = c } end
+  if type(c) ~= "table" then
+    error(fmt("segwise.report.table: column %d must be a name or a table (got %s)", i, type(c)), 3)
+  end
+  local name = c.name or c.key or c[1]
+  if type(name) ~= "string" then
+    error(fmt("segwise.report.table: column %d needs a name", i), 3)
+  end
+  if c.fmt ~= nil and type(c.fmt) ~= "string" and type(c.fmt) ~= "function" then
+    error(fmt("segwise.report.table: column '%s': fmt must be a format string or a function", name), 3)
+  end
+  if c.fn ~= nil and type(c.fn) ~= "function" then
+    error(fmt("segwise.report.table: column '%s': fn must be a function of the row", name), 3)
+  end
+  if c.align ~= nil and c.align ~= "left" and c.align ~= "right" and c.align ~= "center" then
+    error(fmt("segwise.report.table: column '%s': align must be 'left', 'right' or 'center'", name), 3)
+  end
+  if c.unit ~= nil and type(c.unit) ~= "string" then
+    error(fmt("segwise.report.table: column '%s': unit must be a string", name), 3)
+  end
+  return { name = name, key = c.key or c[2] or name, unit = c.unit, fmt = c.fmt,
+    fn = c.fn, align = c.align, digits = c.digits, scale = c.scale, si = c.si }
+end
+
+local function cell_value(col, row, r)
+  if col.fn then
+    local ok, v = pcall(col.fn, row)
+    if not ok then
+      error(fmt("segwise.report.table: column '%s', row %d: %s", col.name, r, tostring(v)), 4)
+    end
+    return v
+  end
+  return row[col.key]
+end
+
+local function plain_number(v, digits)
+  if v ~= v or v == huge or v == -huge then return nonfinite_text(v) end
+  if math.type(v) == "integer" then return tostring(v) end
+  if v == floor(v) and abs(v) < 1e15 then return fmt("%d", v) end
+  local s = fmt("%." .. digits .. "g", v)
+  return s
+end
+
+local function apply_fmt(col, v, r)
+  if type(col.fmt) == "function" then
+    local ok, s = pcall(col.fmt, v)
+    if not ok then
+      error(fmt("segwise.report.table: column '%s', row %d: fmt failed: %s", col.name, r, tostring(s)), 5)
+    end
+    return tostring(s)
+  end
+  if type(v) == "number" and (v ~= v or v == huge or v == -huge) and not col.fmt:find("%%[%d.]*[sq]") then
+    return nonfinite_text(v)
+  end
+  local ok, s = pcall(fmt, col.fmt, v)
+  if not ok then
+    error(fmt("segwise.report.table: column '%s', row %d: format %q does not fit value %s",
+      col.name, r, col.fmt, tostring(v)), 5)
+  end
+  return s
+end
+
+-- Builds the header and cell strings for the human formats (text, markdown).
+-- Rule for units: a column with `unit` and no `fmt` prints every value as a
+-- mantissa in ONE SI prefix for the whole column, chosen from the largest
+-- magnitude, and the header carries it: "I (mA)".  With `fmt`, the header is
+-- "I (A)" and values are in the base unit.  opts.units = "cells" instead
+-- prints each value with its own prefix and unit ("4.31 mA"), header "I".
+local function human_cells(rows, cols, opts)
+  local digits = opts.digits or 3
+  local header, cells, aligns = {}, {}, {}
+  for r = 1, #rows do cells[r] = {} end
+  for j, col in ipairs(cols) do
+    local vals, numeric = {}, true
+    for r, row in ipairs(rows) do
+      local v = cell_value(col, row, r)
+      if type(v) == "number" and col.scale then v = v * col.scale end
+      vals[r] = v
+      if v ~= nil and type(v) ~= "number" then numeric = false end
+    end
+    local d = col.digits or digits
+    local e3
+    if col.unit and not col.fmt and opts.units ~= "cells" and (col.si == false or col.unit == "%") then
+      e3 = 0
+    elseif col.unit and not col.fmt and opts.units ~= "cells" then
+      local maxabs
+      for r = 1, #rows do
+        local v = vals[r]
+        if type(v) == "number" and v == v and abs(v) ~= huge and v ~= 0
+           and (not maxabs or abs(v) > maxabs) then maxabs = abs(v) end
+      end
+      e3 = maxabs and si.si_step(maxabs, d) or 0
+    end
+    if col.unit and col.unit ~= "" and (opts.units ~= "cells" or col.fmt) then
+      local pre = (e3 and PREFIX[e3]) or ""
+      header[j] = fmt("%s (%s%s)", col.name, pre, col.unit)
+    elseif col.unit and col.unit == "" and e3 and e3 ~= 0 then
+      header[j] = fmt("%s (%s)", col.name, PREFIX[e3])
+    else
+      header[j] = col.name
+    end
+    for r = 1, #rows do
+      local v, s = vals[r], nil
+      if v == nil then
+        s = opts.empty or ""
+      elseif col.fmt then
+        s = apply_fmt(col, v, r)
+      elseif type(v) == "number" then
+        if col.unit and opts.units == "cells" and col.si ~= false and col.unit ~= "%" then
+          s = si.si(v, col.unit, d)
+        elseif col.unit and opts.units == "cells" then
+          s = si.si_in(v, 0, d) .. " " .. col.unit
+        elseif col.unit then s = si.si_in(v, e3, d)
+        else s = plain_number(v, math.max(d, 4)) end
+      else
+        s = tostring(v)
+      end
+      cells[r][j] = s
+    end
+    aligns[j] = col.align or (numeric and "right" or "left")
+  end
+  return header, cells, aligns
+end
+
+local function render_text(rows, cols, opts)
+  local header, cells, aligns = human_cells(rows, cols, opts)
+  local widths = {}
+  for j = 1, #cols do
+    local w = ulen(header[j])
+    for r = 1, #cells do w = math.max(w, ulen(cells[r][j])) end
+    widths[j] = w
+  end
+  local sep = opts.sep or "  "
+  local lines = {}
+  if opts.title then lines[#lines + 1] = opts.title end
+  local h, rule = {}, {}
+  for j = 1, #cols do
+    h[j] = pad(header[j], widths[j], aligns[j])
+    rule[j] = string.rep("\u{2500}", widths[j])
+  end
+  lines[#lines + 1] = (concat(h, sep):gsub("%s+$", ""))
+  lines[#lines + 1] = concat(rule, sep)
+  for r = 1, #cells do
+    local l = {}
+    for j = 1, #cols do l[j] = pad(cells[r][j], widths[j], aligns[j]) end
+    lines[#lines + 1] = (concat(l, sep):gsub("%s+$", ""))
+  end
+  return concat(lines, "\n") .. "\n"
+end
+
+local function md_escape(s)
+  return (s:gsub("\\", "\\\\"):gsub("|", "\\|"):gsub("\r?\n", "<br>"))
+end
+
+local function render_markdown(rows, cols, opts)
+  local header, cells, aligns = human_cells(rows, cols, opts)
+  local widths = {}
+  for j = 1, #cols do
+    header[j] = md_escape(header[j])
+    local w = math.max(3, ulen(header[j]))
+    for r = 1, #cells do
+      cells[r][j] = md_escape(cells[r][j])
+      w = math.max(w, ulen(cells[r][j]))
+    end
+    widths[j] = w
+  end
+  local lines = {}
+  if opts.title then lines[#lines + 1] = "**" .. md_escape(opts.title) .. "**"; lines[#lines + 1] = "" end
+  local h, rule = {}, {}
+  for j = 1, #cols do
+    h[j] = pad(header[j], widths[j], aligns[j] == "right" and "right" or "left")
+    local dashes = string.rep("-", widths[j] - 1)
+    if aligns[j] == "right" then rule[j] = dashes .. ":"
+    elseif aligns[j] == "center" then rule[j] = ":" .. string.rep("-", widths[j] - 2) .. ":"
+    else rule[j] = ":" .. dashes end
+  end
+  lines[#lines + 1] = "| " .. concat(h, " | ") .. " |"
+  lines[#lines + 1] = "| " .. concat(rule, " | ") .. " |"
+  for r = 1, #cells do
+    local l = {}
+    for j = 1, #cols do l[j] = pad(cells[r][j], widths[j], aligns[j] == "right" and "right" or "left") end
+    lines[#lines + 1] = "| " .. concat(l, " | ") .. " |"
+  end
+  return concat(lines, "\n") .. "\n"
+end
+
+-- RFC 4180: a field holding a comma, quote, CR or LF is quoted and its
+-- quotes doubled.  Leading/trailing spaces are quoted too, so no reader
+-- trims them away.
+local function csv_field(s)
+  if s:find('[,"\r\n]') or s:find("^%s") or s:find("%s$") then
+    return '"' .. s:gsub('"', '""') .. '"'
+  end
+  return s
+end
+
+local function render_csv(rows, cols, opts)
+  local numfmt = opts.full and "%.17g" or (opts.numfmt or "%.6g")
+  local eol = opts.eol or "\n"
+  local lines = {}
+  local h = {}
+  for j, col in ipairs(cols) do
+    local name = col.name
+    if col.unit and col.unit ~= "" then name = fmt("%s (%s)", name, col.unit) end
+    h[j] = csv_field(name)
+  end
+  lines[1] = concat(h, ",")
+  for r, row in ipairs(rows) do
+    local l = {}
+    for j, col in ipairs(cols) do
+      local v = cell_value(col, row, r)
+      if type(v) == "number" and col.scale then v = v * col.scale end
+      local s
+      if v == nil then s = ""
+      elseif type(v) == "number" then
+        if v ~= v or v == huge or v == -huge then s = nonfinite_text(v)
+        elseif math.type(v) == "integer" then s = tostring(v)
+        else s = fmt(numfmt, v) end
+      elseif type(col.fmt) == "function" then s = apply_fmt(col, v, r)
+      else s = tostring(v) end
+      l[j] = csv_field(s)
+    end
+    lines[#lines + 1] = concat(l, ",")
+  end
+  return concat(lines, eol) .. eol
+end
+
+local RENDER = { text = render_text, csv = render_csv, markdown = render_markdown, md = render_markdown }
+
+--- Formats rows as a table.
+-- @tparam {table,...} rows list of row tables
+-- @tparam {string|table,...} columns names, or {name=, key=, unit=, fmt=, fn=, align=, digits=, scale=}
+-- @tparam[opt] table opts {format = "text"|"csv"|"markdown", out = path or handle,
+--   digits = 3, units = "header"|"cells", full = false (CSV %.17g), numfmt = "%.6g",
+--   title = string, eol = "\n" (CSV), empty = "" (text for nil cells)}
+-- @treturn string the table
+function M.table(rows, columns, opts)
+  opts = opts or {}
+  if type(rows) ~= "table" then
+    error("segwise.report.table: rows must be a list of tables (got " .. type(rows) .. ")", 2)
+  end
+  for r = 1, #rows do
+    if type(rows[r]) ~= "table" then
+      error(fmt("segwise.report.table: row %d must be a table (got %s)", r, type(rows[r])), 2)
+    end
+  end
+  if type(columns) ~= "table" or #columns == 0 then
+    error("segwise.report.table: columns must be a non-empty list", 2)
+  end
+  if type(opts) ~= "table" then error("segwise.report.table: opts must be a table", 2) end
+  local cols = {}
+  for i, c in ipairs(columns) do cols[i] = norm_column(c, i) end
+  local format = opts.format or "text"
+  local render = RENDER[format]
+  if not render then
+    error("segwise.report.table: format must be 'text', 'csv' or 'markdown' (got " .. tostring(format) .. ")", 2)
+  end
+  local s = render(rows, cols, opts)
+  return write(opts.out, s, "segwise.report.table")
+end
+
+M.md_escape = md_escape
+
+return M
