@@ -167,6 +167,9 @@ static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err 
     n = b - a + 2;
   } else {
     n = o->grid ? o->grid : DEFAULT_GRID;
+    /* optimal knots sit on grid points: keep ~400 points per segment */
+    if (!o->grid && o->knots == SW_KNOTS_OPTIMAL && n < 400 * o->segments + 1)
+      n = 400 * o->segments + 1 < 100001 ? 400 * o->segments + 1 : 100001;
     if (n < 8 * o->segments + 1) n = 8 * o->segments + 1;
     if (n < 3) n = 3;
   }
@@ -372,12 +375,82 @@ static int interp_model(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_e
   return SW_OK;
 }
 
+/* Error of m at x in the fit's measure, against the curve itself. */
+static int true_error(fit_job *J, const sw_pwl *m, double x, double *e, sw_err *err)
+{
+  double y, v;
+  int st = sw_curve_eval(J->c, x, &y, err);
+  if (st) return st;
+  sw_pwl_eval(m, x, &v, NULL);
+  *e = J->o->rel ? fabs(v - y) / (fabs(y) > J->o->rel_floor ? fabs(y) : J->o->rel_floor)
+                 : fabs(v - y);
+  if (!(*e == *e)) *e = 0;
+  return SW_OK;
+}
+
+/* Exchange step for analytic curves: finds the curve's true error peaks of
+ * m between grid points (golden section around each grid maximum) and adds
+ * them to the sample set, so the next fit sees them.  *peak gets the largest. */
+static int refine_peaks(fit_job *J, const sw_pwl *m, double *peak, size_t *added, sw_err *err)
+{
+  fit_data *d = &J->d;
+  size_t i, cnt = 0;
+  double *e = sw_alloc(d->n, sizeof *e, err), *xs = sw_alloc(d->n, sizeof *xs, err), emax = 0;
+  int st = SW_OK;
+  *added = 0;
+  *peak = 0;
+  if (!e || !xs) { st = SW_ENOMEM; goto done; }
+  for (i = 0; i < d->n; i++) {
+    double v;
+    sw_pwl_eval(m, d->x[i], &v, NULL);
+    e[i] = d->s[i] > 0 ? fabs(v - d->y[i]) / d->s[i] : 0;
+    if (e[i] > emax) emax = e[i];
+  }
+  *peak = emax;
+  for (i = 1; i + 1 < d->n; i++) {
+    const double g = 0.6180339887498949;
+    double a = d->x[i - 1], b = d->x[i + 1], x1, x2, f1, f2;
+    int it;
+    if (!(e[i] >= e[i - 1] && e[i] >= e[i + 1] && e[i] > 0.5 * emax)) continue;
+    x1 = b - g * (b - a);
+    x2 = a + g * (b - a);
+    if ((st = true_error(J, m, x1, &f1, err)) || (st = true_error(J, m, x2, &f2, err))) goto done;
+    for (it = 0; it < 40 && b - a > 1e-14 * (fabs(a) + fabs(b)); it++) {
+      if (f1 >= f2) { b = x2; x2 = x1; f2 = f1; x1 = b - g * (b - a); if ((st = true_error(J, m, x1, &f1, err))) goto done; }
+      else { a = x1; x1 = x2; f1 = f2; x2 = a + g * (b - a); if ((st = true_error(J, m, x2, &f2, err))) goto done; }
+    }
+    if ((f1 > f2 ? f1 : f2) > *peak) *peak = f1 > f2 ? f1 : f2;
+    if ((f1 > f2 ? f1 : f2) > e[i] * (1 + 1e-9)) xs[cnt++] = f1 > f2 ? x1 : x2;
+  }
+  if (cnt) {
+    size_t k = 0;
+    for (i = 0; i < cnt; i++) /* sorted already, drop repeats */
+      if (k == 0 || xs[i] > xs[k - 1]) xs[k++] = xs[i];
+    st = fit_data_insert(d, J->c, xs, k, J->o->rel, J->o->rel_floor, err);
+    *added = k;
+  }
+done:
+  free(e);
+  free(xs);
+  return st;
+}
+
+#define EXCHANGE_ROUNDS 4
+
 static int minimax_fixed(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_err *err)
 {
-  int st;
+  int st, round;
   if (n == 1 && one_segment_closed(J, out, &st, err)) return st;
   if ((st = fit_data_insert(&J->d, J->c, K, n + 1, J->o->rel, J->o->rel_floor, err))) return st;
-  return fit_minimax_fixed(&J->d, K, n, J->o->continuous, &J->k, out, &J->internal, &J->iters, err);
+  for (round = 0;; round++) {
+    double peak;
+    size_t added;
+    st = fit_minimax_fixed(&J->d, K, n, J->o->continuous, &J->k, out, &J->internal, &J->iters, err);
+    if (st || !J->d.analytic || round == EXCHANGE_ROUNDS) return st;
+    if ((st = refine_peaks(J, out, &peak, &added, err))) { sw_pwl_free(out); return st; }
+    if (!added || peak <= J->internal * (1 + 1e-6)) return SW_OK;
+    sw_pwl_free(out);
+  }
 }
 
 /* A model with exactly n segments under the chosen scheme and criterion. */
@@ -393,6 +466,14 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
     memset(&alt, 0, sizeof alt);
     if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->k, out, &J->internal, &J->iters, err)))
       goto done;
+    if (J->d.analytic) { /* exchange steps on the found knots */
+      sw_pwl r;
+      memset(&r, 0, sizeof r);
+      memcpy(K, out->x, (n + 1) * sizeof *K);
+      if ((st = minimax_fixed(J, K, n, &r, err))) goto done;
+      sw_pwl_free(out);
+      *out = r;
+    }
     /* never worse than the curvature scheme's minimax on its knots */
     if (n > 1 && !(st = knots_for(J, n, K, err)) &&
         !(st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err)) &&

@@ -22,9 +22,20 @@ typedef struct poly {
   double *a, *s;
 } poly;
 
+/* The live polygon: a circular doubly-linked ring of vertices, so that a
+ * cut replaces a chain of vertices in time proportional to the chain
+ * (smooth convex data put a vertex per sample on the boundary). */
+typedef struct ring {
+  size_t n, used, nfree, head;
+  double *a, *s;
+  size_t *nx, *pv, *freel;
+  unsigned char *dead;
+} ring;
+
 typedef struct tube_ws {
   size_t cap;
-  poly P, T, U;
+  ring R;
+  poly P;        /* the ring exported after a run */
 } tube_ws;
 
 /* Recorded segment of a greedy or chained pass: samples p..q and the
@@ -48,20 +59,131 @@ static int ws_init(tube_ws *w, size_t n, sw_err *err)
   w->cap = 2 * n + 16;
   w->P.a = sw_alloc(w->cap, sizeof(double), err);
   w->P.s = sw_alloc(w->cap, sizeof(double), err);
-  w->T.a = sw_alloc(w->cap, sizeof(double), err);
-  w->T.s = sw_alloc(w->cap, sizeof(double), err);
-  w->U.a = sw_alloc(w->cap, sizeof(double), err);
-  w->U.s = sw_alloc(w->cap, sizeof(double), err);
-  if (!w->P.a || !w->P.s || !w->T.a || !w->T.s || !w->U.a || !w->U.s) return SW_ENOMEM;
+  w->R.a = sw_alloc(w->cap, sizeof(double), err);
+  w->R.s = sw_alloc(w->cap, sizeof(double), err);
+  w->R.nx = sw_alloc(w->cap, sizeof(size_t), err);
+  w->R.pv = sw_alloc(w->cap, sizeof(size_t), err);
+  w->R.freel = sw_alloc(w->cap, sizeof(size_t), err);
+  w->R.dead = sw_alloc(w->cap, 1, err);
+  if (!w->P.a || !w->P.s || !w->R.a || !w->R.s || !w->R.nx || !w->R.pv || !w->R.freel || !w->R.dead)
+    return SW_ENOMEM;
   return SW_OK;
 }
 
 static void ws_free(tube_ws *w)
 {
   free(w->P.a); free(w->P.s);
-  free(w->T.a); free(w->T.s);
-  free(w->U.a); free(w->U.s);
+  free(w->R.a); free(w->R.s); free(w->R.nx); free(w->R.pv); free(w->R.freel); free(w->R.dead);
   memset(w, 0, sizeof *w);
+}
+
+static size_t ring_node(ring *R, double a, double s)
+{
+  size_t i = R->nfree ? R->freel[--R->nfree] : R->used++;
+  R->dead[i] = 0;
+  R->a[i] = a;
+  R->s[i] = s;
+  return i;
+}
+
+static void ring_set(ring *R, const double *a, const double *s, size_t n)
+{
+  size_t k, first = 0, prev = 0;
+  R->n = n;
+  R->used = R->nfree = 0;
+  for (k = 0; k < n; k++) {
+    size_t i = ring_node(R, a[k], s[k]);
+    if (k == 0) first = i;
+    else { R->nx[prev] = i; R->pv[i] = prev; }
+    prev = i;
+  }
+  R->nx[prev] = first;
+  R->pv[first] = prev;
+  R->head = first;
+}
+
+static void ring_export(const ring *R, poly *P)
+{
+  size_t k, i = R->head;
+  for (k = 0; k < R->n; k++, i = R->nx[i]) {
+    P->a[k] = R->a[i];
+    P->s[k] = R->s[i];
+  }
+  P->n = R->n;
+}
+
+#define HV(R, i, al, be) ((al) * (R)->a[i] + (be) * (R)->s[i])
+
+/* Vertex maximising al*a + be*s, climbing from i (the ring is convex, so
+ * the climb ends at the maximum). */
+static size_t ring_climb(const ring *R, size_t i, double al, double be)
+{
+  double fi = HV(R, i, al, be);
+  size_t k;
+  for (k = 0; k < 2 * R->n + 2; k++) {
+    double fn = HV(R, R->nx[i], al, be), fp = HV(R, R->pv[i], al, be);
+    if (fn > fi) { i = R->nx[i]; fi = fn; }
+    else if (fp > fi) { i = R->pv[i]; fi = fp; }
+    else break;
+  }
+  return i;
+}
+
+static int outside(const ring *R, size_t i, double al, double be, double ga)
+{
+  double f = HV(R, i, al, be) - ga;
+  return f > 1e-12 * (fabs(al * R->a[i]) + fabs(be * R->s[i]) + fabs(ga));
+}
+
+/* Cuts away al*a + be*s > ga, given the maximising vertex top.  Returns 0
+ * (ring unchanged) when nothing would remain; *keep gets a live vertex. */
+static int ring_cut(ring *R, size_t top, double al, double be, double ga, size_t *keep)
+{
+  size_t j, k, v0, v1, pin, pout, A, B, cnt = 1;
+  double fa, fb, t;
+  *keep = top;
+  if (!outside(R, top, al, be, ga)) return 1;
+  for (j = R->nx[top]; outside(R, j, al, be, ga); j = R->nx[j]) {
+    if (j == top) return 0;
+    cnt++;
+  }
+  if (j == top) return 0;
+  pout = j;
+  v1 = R->pv[j];
+  for (k = R->pv[top]; outside(R, k, al, be, ga); k = R->pv[k]) cnt++;
+  pin = k;
+  v0 = R->nx[k];
+  if (cnt > R->n) return 0;
+  /* A on edge pin -> v0, B on edge v1 -> pout */
+  fa = HV(R, pin, al, be) - ga;
+  fb = HV(R, v0, al, be) - ga;
+  t = fa != fb ? fa / (fa - fb) : 0;
+  if (t < 0) t = 0; else if (t > 1) t = 1;
+  {
+    double aA = R->a[pin] + t * (R->a[v0] - R->a[pin]), sA = R->s[pin] + t * (R->s[v0] - R->s[pin]);
+    double aB, sB;
+    fa = HV(R, v1, al, be) - ga;
+    fb = HV(R, pout, al, be) - ga;
+    t = fa != fb ? fa / (fa - fb) : 0;
+    if (t < 0) t = 0; else if (t > 1) t = 1;
+    aB = R->a[v1] + t * (R->a[pout] - R->a[v1]);
+    sB = R->s[v1] + t * (R->s[pout] - R->s[v1]);
+    /* free the chain v0..v1 */
+    for (j = v0;; j = R->nx[j]) {
+      R->freel[R->nfree++] = j;
+      R->dead[j] = 1;
+      if (j == v1) break;
+    }
+    A = ring_node(R, aA, sA);
+    B = ring_node(R, aB, sB);
+  }
+  R->nx[pin] = A; R->pv[A] = pin;
+  R->nx[A] = B; R->pv[B] = A;
+  R->nx[B] = pout; R->pv[pout] = B;
+  R->n = R->n - cnt + 2;
+  R->head = pin;
+  *keep = A;
+  return 1;
 }
 
 static void recs_free(rec_list *r)
@@ -105,47 +227,6 @@ static int recs_push(rec_list *r, size_t p, size_t q, const poly *P, sw_err *err
   return SW_OK;
 }
 
-/* Keeps the part of convex polygon q where al*a + be*s <= ga (Sutherland and
- * Hodgman for one edge), with a relative slack for rounding. */
-static void clip(const poly *q, double al, double be, double ga, poly *r)
-{
-  size_t i;
-  r->n = 0;
-  for (i = 0; i < q->n; i++) {
-    size_t j = (i + 1) % q->n;
-    double ac = q->a[i], sc = q->s[i], an = q->a[j], sn = q->s[j];
-    double fc = al * ac + be * sc - ga, fn = al * an + be * sn - ga;
-    int ic = fc <= 1e-12 * (fabs(al * ac) + fabs(be * sc) + fabs(ga));
-    int in = fn <= 1e-12 * (fabs(al * an) + fabs(be * sn) + fabs(ga));
-    if (ic) {
-      r->a[r->n] = ac;
-      r->s[r->n] = sc;
-      r->n++;
-    }
-    if (ic != in && q->n > 1) {
-      double t = (fc != fn) ? fc / (fc - fn) : 0;
-      if (t < 0) t = 0;
-      if (t > 1) t = 1;
-      r->a[r->n] = ac + t * (an - ac);
-      r->s[r->n] = sc + t * (sn - sc);
-      r->n++;
-    }
-  }
-}
-
-/* Clips ws->P in place (through T); returns 0 when the result is empty
- * (P unchanged then). */
-static int clip_keep(tube_ws *w, double al, double be, double ga)
-{
-  poly t;
-  clip(&w->P, al, be, ga, &w->T);
-  if (w->T.n == 0) return 0;
-  t = w->P;
-  w->P = w->T;
-  w->T = t;
-  return 1;
-}
-
 static void value_range(const poly *P, double D, double *lo, double *hi)
 {
   size_t i;
@@ -165,8 +246,9 @@ static size_t tube_run(const fit_data *d, double e, size_t p, size_t qmax,
                        double alo, double ahi, double smin, double smax,
                        tube_ws *w, int *ok)
 {
-  double X0 = d->x[p], l, u, D;
-  size_t i = p, last;
+  double X0 = d->x[p], l, u, D, pa[4], ps[4];
+  size_t i = p, last, hu, hl, keep;
+  ring *R = &w->R;
   *ok = 0;
   while (i <= qmax && d->x[i] == X0) {
     l = d->y[i] - e * d->s[i];
@@ -188,25 +270,44 @@ static size_t tube_run(const fit_data *d, double e, size_t p, size_t qmax,
   D = d->x[i] - X0;
   l = d->y[i] - e * d->s[i];
   u = d->y[i] + e * d->s[i];
-  w->P.n = 4;
-  w->P.a[0] = alo; w->P.s[0] = (l - alo) / D;
-  w->P.a[1] = ahi; w->P.s[1] = (l - ahi) / D;
-  w->P.a[2] = ahi; w->P.s[2] = (u - ahi) / D;
-  w->P.a[3] = alo; w->P.s[3] = (u - alo) / D;
-  if (sw_isfinite(smin) && !clip_keep(w, 0, -1, -smin)) return last;
-  if (sw_isfinite(smax) && !clip_keep(w, 0, 1, smax)) return last;
+  pa[0] = alo; ps[0] = (l - alo) / D;
+  pa[1] = ahi; ps[1] = (l - ahi) / D;
+  pa[2] = ahi; ps[2] = (u - ahi) / D;
+  pa[3] = alo; ps[3] = (u - alo) / D;
+  ring_set(R, pa, ps, 4);
+  ring_export(R, &w->P);
+  hu = hl = R->head;
+  if (sw_isfinite(smin)) {
+    size_t top = ring_climb(R, R->head, 0, -1);
+    if (!ring_cut(R, top, 0, -1, -smin, &keep)) return last;
+  }
+  if (sw_isfinite(smax)) {
+    size_t top = ring_climb(R, R->head, 0, 1);
+    if (!ring_cut(R, top, 0, 1, smax, &keep)) return last;
+  }
+  hu = hl = R->head;
   last = i;
   for (i = i + 1; i <= qmax; i++) {
+    double vmax, vmin;
     D = d->x[i] - X0;
     l = d->y[i] - e * d->s[i];
     u = d->y[i] + e * d->s[i];
-    clip(&w->P, 1, D, u, &w->T);
-    if (w->T.n == 0) break;
-    clip(&w->T, -1, -D, -l, &w->U);
-    if (w->U.n == 0) break;
-    { poly t = w->P; w->P = w->U; w->U = t; }
+    hu = ring_climb(R, hu, 1, D);
+    hl = ring_climb(R, hl, -1, -D);
+    vmax = R->a[hu] + R->s[hu] * D;
+    vmin = R->a[hl] + R->s[hl] * D;
+    /* the band must meet the polygon's range of values at x[i] */
+    if (vmax < l - 1e-12 * (fabs(l) + fabs(vmax)) || vmin > u + 1e-12 * (fabs(u) + fabs(vmin))) break;
+    if (!ring_cut(R, hu, 1, D, u, &keep)) break;
+    hu = keep;
+    if (R->dead[hl]) hl = keep;
+    hl = ring_climb(R, hl, -1, -D);
+    if (!ring_cut(R, hl, -1, -D, -l, &keep)) break;
+    hl = keep;
+    if (R->dead[hu]) hu = keep;
     last = i;
   }
+  ring_export(R, &w->P);
   return last;
 }
 
