@@ -75,8 +75,7 @@ function M.render(spec, opts)
   local color = opts.color and os.getenv("NO_COLOR") == nil
 
   -- y labels decide the left margin; the x axis gets fewer ticks when narrow
-  local probe_x, probe_y = common.axes(p, F, { nx = max(2, floor(cols / 16)), ny = max(2, floor(rows / 4)) })
-  local xa, ya = probe_x, probe_y
+  local xa, ya = common.axes(p, F, { nx = max(2, floor(cols / 16)), ny = max(2, floor(rows / 4)) })
   local lw = 0
   for _, l in ipairs(ya.labels) do lw = max(lw, ulen(l)) end
   local w = cols - lw - 2
@@ -170,8 +169,7 @@ function M.render(spec, opts)
   for i, v in ipairs(ya.ticks) do
     local f = ya.map(v)
     if f and f >= -1e-9 and f <= 1 + 1e-9 then
-      local r = floor((1 - f) * (pxh - 1) / 4 + 0.5 / 4) + 1
-      r = min(rows, max(1, floor(((1 - f) * (pxh - 1) + 0.5) / 4) + 1))
+      local r = min(rows, max(1, floor(((1 - f) * (pxh - 1) + 0.5) / 4) + 1))
       if not ytick_at[r] then ytick_at[r] = ya.labels[i] end
     end
   end
