@@ -76,7 +76,9 @@ end
 -- space between number and prefixed unit, no space when unit is empty
 -- (si(4700) is "4.7k").  Zero prints "0 A"; NaN and infinities print "NaN",
 -- "inf", "-inf" followed by the unit.  Magnitudes beyond the yocto..yotta
--- prefixes fall back to exponent notation ("1.5e-27 A").
+-- prefixes fall back to exponent notation ("1.5e-27 A").  Rounding is C's
+-- printf rounding of the binary value (an exact half such as 12.5 to two
+-- digits goes to even: "12").  Micro prints as the micro sign U+00B5.
 -- @tparam number value
 -- @tparam[opt=""] string unit
 -- @tparam[opt=3] integer digits significant digits, 1..17
