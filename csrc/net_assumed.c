@@ -70,6 +70,21 @@ static int seen(const int *hist, size_t nh, const int *state, size_t m)
   return 0;
 }
 
+/* Port values of a state: the m x m reduced system, or, when a trace is
+ * kept, the full LU solve (its values are the ones an engineer reads). */
+static int solve_ports(const sw_net *net, const int *state, double *v, double *i,
+                       int full, sw_err *err)
+{
+  sw_net_op op;
+  size_t k;
+  if (!full) return sw_net_state_ports(net, state, v, i, err);
+  memset(&op, 0, sizeof op);
+  if (sw_net_op_from_state(net, state, &op, err)) return err->code;
+  for (k = 0; k < net->ndev; k++) { v[k] = op.v[net->dev[k].el]; i[k] = op.i[net->dev[k].el]; }
+  sw_net_op_free(&op);
+  return SW_OK;
+}
+
 int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
                    int *state, size_t *iterations, sw_net_trace *trace,
                    sw_err *err)
@@ -96,7 +111,7 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
     size_t worst = 0;
     double worst_rel = -1;
     *iterations = it;
-    if (sw_net_state_ports(net, state, v, i, err)) {
+    if (solve_ports(net, state, v, i, trace != NULL, err)) {
       sw_net_state_text(net, state, text, sizeof text);
       if (trace) {
         for (k = 0; k < m; k++) v[k] = i[k] = x[k] = ex[k] = NAN;

@@ -296,6 +296,14 @@ describe("segwise.report", function()
       assert.is_truthy(l[3]:find("1.5", 1, true))
     end)
 
+    it("reads nested values through dotted keys (sweep rows)", function()
+      local sweep = { { vb = 4.5, i = { D1 = 0.010 } }, { vb = 5.5, i = { D1 = 0.014 } } }
+      local t = parse_csv(report.table(sweep, { "vb", { name = "I(D1)", key = "i.D1", unit = "A" } },
+        { format = "csv" }))
+      assert.are.same({ "vb", "I(D1) (A)" }, t[1])
+      assert.are.equal(0.014, tonumber(t[3][2]))
+    end)
+
     it("fmt may be a function of the value", function()
       local s = report.table({ { ok = true } }, { { name = "ok", fmt = function(v) return v and "yes" or "no" end } })
       assert.is_truthy(s:find("yes", 1, true))

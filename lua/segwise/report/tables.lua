@@ -62,7 +62,16 @@ local function cell_value(col, row, r)
     end
     return v
   end
-  return row[col.key]
+  local v = row[col.key]
+  if v == nil and type(col.key) == "string" and col.key:find(".", 1, true) then
+    -- a dotted key reaches into nested tables: "i.D1" is row.i.D1 (sweep rows)
+    v = row
+    for part in col.key:gmatch("[^.]+") do
+      if type(v) ~= "table" then return nil end
+      v = v[part]
+    end
+  end
+  return v
 end
 
 local function plain_number(v, digits)
@@ -261,7 +270,8 @@ local RENDER = { text = render_text, csv = render_csv, markdown = render_markdow
 
 --- Formats rows as a table.
 -- @tparam {table,...} rows list of row tables
--- @tparam {string|table,...} columns names, or {name=, key=, unit=, fmt=, fn=, align=, digits=, scale=}
+-- @tparam {string|table,...} columns names, or {name=, key=, unit=, fmt=, fn=, align=, digits=, scale=,
+--   si = false (no prefix: one plain unit)}; a dotted key such as "i.D1" reads row.i.D1
 -- @tparam[opt] table opts {format = "text"|"csv"|"markdown", out = path or handle,
 --   digits = 3, units = "header"|"cells", full = false (CSV %.17g), numfmt = "%.6g",
 --   title = string, eol = "\n" (CSV), empty = "" (text for nil cells)}
