@@ -645,6 +645,8 @@ describe("segwise.plot", function()
       assert.are.same({ 4.5, 5 }, s[1].x)
       assert.are.same({ 0.02, 0.03 }, s[2].y)
       assert.are.equal("p", s[2].label)
+      local nested = plot.series_from_rows({ { vb = 1, i = { D1 = 0.5 } } }, "vb", "i.D1")
+      assert.are.same({ 0.5 }, nested[1].y)
     end)
   end)
 
