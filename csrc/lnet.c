@@ -405,6 +405,57 @@ static int l_sweep(lua_State *L)
   return 1;
 }
 
+/* n:montecarlo(names, tols, gauss, runs, seed, max_states) -> list of ops,
+ * each with .values = {name = drawn value} */
+static int l_montecarlo(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  size_t k, nt, q, r, runs;
+  double *tol;
+  lua_Integer nr = luaL_checkinteger(L, 5), seed = luaL_checkinteger(L, 6);
+  double max_states = luaL_optnumber(L, 7, 1e6), *drawn;
+  size_t *el;
+  int *gauss;
+  lsw_hold *h;
+  sw_err err = { 0, "" };
+  luaL_checktype(L, 2, LUA_TTABLE);
+  luaL_checktype(L, 4, LUA_TTABLE);
+  k = (size_t)luaL_len(L, 2);
+  tol = lsw_checkdoubles(L, 3, "tol", &nt, 0);
+  if (nt != k || k == 0) return luaL_error(L, "segwise.network:montecarlo: %d names but %d tolerances", (int)k, (int)nt);
+  if (nr < 1 || nr > 100000000) return luaL_error(L, "segwise.network:montecarlo: runs must be in 1..1e8 (got %d)", (int)nr);
+  runs = (size_t)nr;
+  el = lua_newuserdatauv(L, k * sizeof *el, 0);
+  gauss = lua_newuserdatauv(L, k * sizeof *gauss, 0);
+  for (q = 0; q < k; q++) {
+    const char *name;
+    lua_geti(L, 2, (lua_Integer)q + 1);
+    name = luaL_checkstring(L, -1);
+    el[q] = sw_net_find(&n->net, name);
+    if (el[q] == SW_NET_NONE || n->net.el[el[q]].kind == SW_NET_DEV)
+      return luaL_error(L, "segwise.network:montecarlo: no source, gain or resistor named '%s'", name);
+    lua_pop(L, 1);
+    lua_geti(L, 4, (lua_Integer)q + 1);
+    gauss[q] = lua_toboolean(L, -1);
+    lua_pop(L, 1);
+  }
+  prepare(L, n, "network:montecarlo");
+  drawn = lsw_scratch(L, runs * k);
+  h = new_hold(L);
+  hold_ops(L, h, runs);
+  if (sw_net_montecarlo(&n->net, el, tol, gauss, k, runs, (unsigned long)seed, max_states, h->ops, drawn, &err))
+    return lsw_raise(L, "network:montecarlo", &err);
+  lua_createtable(L, (int)runs, 0);
+  for (r = 0; r < runs; r++) {
+    push_op(L, &n->net, &h->ops[r]);
+    lua_createtable(L, 0, (int)k);
+    for (q = 0; q < k; q++) setnum(L, n->net.el[el[q]].name, drawn[r * k + q]);
+    lua_setfield(L, -2, "values");
+    lua_rawseti(L, -2, (lua_Integer)r + 1);
+  }
+  return 1;
+}
+
 /* n:segments(name) -> {{label=, lo=, hi=, slope=, intercept=}, ...} */
 static int l_segments(lua_State *L)
 {
@@ -463,7 +514,7 @@ static int l_info(lua_State *L)
 
 static const luaL_Reg net_methods[] = {
   { "add", l_add }, { "device", l_device }, { "set", l_set }, { "solve", l_solve },
-  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "segments", l_segments },
+  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "montecarlo", l_montecarlo }, { "segments", l_segments },
   { "info", l_info }, { "free", net_release }, { NULL, NULL }
 };
 

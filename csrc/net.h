@@ -174,4 +174,10 @@ int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
                  const int *start, double max_states, sw_net_op *ops,
                  sw_err *err);
 
+/* Seeded Monte Carlo over element values (see net_sweep.c). */
+int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
+                      const int *gauss, size_t k, size_t n, unsigned long seed,
+                      double max_states, sw_net_op *ops, double *drawn,
+                      sw_err *err);
+
 #endif

@@ -275,6 +275,34 @@ describe("segwise.network", function()
     end)
   end)
 
+  describe("montecarlo", function()
+    it("is seeded, stays inside the corner box and restores values", function()
+      local net = one_device(5, 1000)
+      local mc = net:montecarlo({ E = 0.1, R = { tol = 0.1 } }, { runs = 200, seed = 7 })
+      local mc2 = net:montecarlo({ E = 0.1, R = { tol = 0.1 } }, { runs = 200, seed = 7 })
+      assert.are.equal(200, #mc.runs)
+      assert.are.equal(mc.runs[17].values.R, mc2.runs[17].values.R)
+      local box = net:corners { E = { 4.5, 5.5 }, R = { 900, 1100 } }
+      for _, op in ipairs(mc.runs) do
+        assert.is_true(op.values.E >= 4.5 and op.values.E <= 5.5)
+        -- i = (E - 0.6)/(R + 10) for the drawn values (hand algebra)
+        assert.is.near((op.values.E - 0.6) / (op.values.R + 10), op.i.D1, 1e-15)
+        assert.is_true(op.i.D1 >= box.min.i.D1 - 1e-15 and op.i.D1 <= box.max.i.D1 + 1e-15)
+      end
+      assert.is_true(mc.sd.i.D1 > 0)
+      assert.is_true(mc.mean.i.D1 > box.min.i.D1 and mc.mean.i.D1 < box.max.i.D1)
+      assert.is.near((5 - 0.6) / 1010, net:solve().i.D1, 1e-15)
+      local g = net:montecarlo({ R = { sd = 0.01 } }, { runs = 2000, seed = 3 })
+      local sum, sq = 0, 0
+      for _, op in ipairs(g.runs) do sum = sum + op.values.R; sq = sq + (op.values.R - 1000) ^ 2 end
+      -- sample mean and sd of a normal draw, 2000 runs: within ~4 standard errors
+      assert.is.near(1000, sum / 2000, 4 * 10 / math.sqrt(2000))
+      assert.is.near(10, math.sqrt(sq / 2000), 4 * 10 / math.sqrt(2 * 2000))
+      assert.has_error(function() net:montecarlo({ RX = 0.1 }) end)
+      assert.has_error(function() net:montecarlo({ R = { tol = 1, sd = 1 } }) end)
+    end)
+  end)
+
   describe("exact comparison", function()
     it("Newton from the PWL point, and compare_ops / op:diff", function()
       local c = sw.curve.diode { is = 1e-12, n = 1, vt = 0.025, x = "v" }

@@ -250,6 +250,58 @@ return function(sw, core)
     return box
   end
 
+  -- Seeded Monte Carlo (GSL's MT19937 in C):
+  --   net:montecarlo({R1 = 0.05, VB = {sd = 0.02}}, {runs = 1000, seed = 1})
+  -- a number or {tol = t}: uniform within +-t relative; {sd = s}: normal with
+  -- relative standard deviation s.  Returns {runs = {op...} (each with
+  -- .values), min, max, mean, sd = {v = {}, i = {}, p = {}}} per element.
+  function Network:montecarlo(vary, opts)
+    if type(vary) ~= "table" then error("segwise.network:montecarlo: expected a table {name = tol, ...}", 2) end
+    opts = check_opts("network:montecarlo", opts, { runs = "number", seed = "number", max_states = "number" })
+    local names, tols, gauss = {}, {}, {}
+    for name in pairs(vary) do
+      if type(name) ~= "string" then error("segwise.network:montecarlo: keys must be element names", 2) end
+      names[#names + 1] = name
+    end
+    table.sort(names)
+    for k, name in ipairs(names) do
+      local t = vary[name]
+      if type(t) == "number" then tols[k], gauss[k] = t, false
+      elseif type(t) == "table" and (t.tol ~= nil) ~= (t.sd ~= nil) then
+        tols[k], gauss[k] = t.tol or t.sd, t.sd ~= nil
+      else
+        error(("segwise.network:montecarlo: %s must be a tolerance, {tol = t} or {sd = s}"):format(name), 2)
+      end
+      check_number("network:montecarlo", name .. " tolerance", tols[k])
+      if tols[k] < 0 then error(("segwise.network:montecarlo: %s tolerance must be >= 0"):format(name), 2) end
+    end
+    local runs = opts.runs or 1000
+    if runs ~= math.floor(runs) then error("segwise.network:montecarlo: runs must be an integer", 2) end
+    local list = self._c:montecarlo(names, tols, gauss, math.tointeger(runs), math.tointeger(opts.seed or 1) or 1, opts.max_states)
+    local out = { runs = list, min = { v = {}, i = {}, p = {} }, max = { v = {}, i = {}, p = {} },
+                  mean = { v = {}, i = {}, p = {} }, sd = { v = {}, i = {}, p = {} } }
+    local s1, s2 = { v = {}, i = {}, p = {} }, { v = {}, i = {}, p = {} }
+    for k, op in ipairs(list) do
+      list[k] = finish_op(self, op, { method = "montecarlo" })
+      for name, v in pairs(op.vd) do
+        for key, val in pairs { v = v, i = op.i[name], p = op.p[name] } do
+          if out.min[key][name] == nil or val < out.min[key][name] then out.min[key][name] = val end
+          if out.max[key][name] == nil or val > out.max[key][name] then out.max[key][name] = val end
+          s1[key][name] = (s1[key][name] or 0) + val
+          s2[key][name] = (s2[key][name] or 0) + val * val
+        end
+      end
+    end
+    for key in pairs(s1) do
+      for name, a in pairs(s1[key]) do
+        local mean = a / #list
+        out.mean[key][name] = mean
+        out.sd[key][name] = #list > 1 and math.sqrt(math.max(0, (s2[key][name] - #list * mean * mean) / (#list - 1))) or 0
+      end
+    end
+    return out
+  end
+
   function Network:__tostring()
     local info = self:info()
     local lines = { ("network: %d nodes (reference \"0\"), %d elements"):format(#info.nodes, #info.elements) }
