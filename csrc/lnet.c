@@ -280,7 +280,7 @@ static int l_solve(lua_State *L)
   double max_states = luaL_optnumber(L, 5, 1e6);
   lua_Integer max_iter = luaL_optinteger(L, 7, 0);
   const sw_net *net = &n->net;
-  size_t m, it = 0, nfound = 0, count = 0;
+  size_t m, it = 0, nfound = 0, count = 0, updates = 0;
   const char *used = methods[method], *how = NULL;
   int *start = NULL, *state;
   lsw_hold *h;
@@ -301,7 +301,7 @@ static int l_solve(lua_State *L)
   state = h->states;
   switch (method) {
   case 0: rc = sw_net_auto(net, start, max_states, state, &it, &nfound, &used, &err); break;
-  case 1: rc = sw_net_assumed(net, start, 0, state, &it, want_trace ? &h->trace : NULL, &err); break;
+  case 1: rc = sw_net_assumed(net, start, 0, state, &it, want_trace ? &h->trace : NULL, &updates, &err); break;
   case 2: {
     int *all = NULL;
     rc = sw_net_enumerate(net, max_states, &all, &count, &it, &err);
@@ -334,6 +334,7 @@ static int l_solve(lua_State *L)
     if (pm >= 0) { lua_pushboolean(L, pm); lua_setfield(L, -2, "pmatrix"); }
     lua_pushstring(L, how); lua_setfield(L, -2, "pmatrix_test");
   }
+  if (method == 1) { lua_pushinteger(L, (lua_Integer)updates); lua_setfield(L, -2, "lowrank_updates"); }
   if (want_trace && method == 1) { push_trace(L, net, &h->trace); lua_setfield(L, -2, "trace"); }
   return 2;
 }

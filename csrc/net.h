@@ -139,10 +139,28 @@ int sw_net_stamp(const sw_net *net, const int *state, gsl_matrix *A,
 int sw_net_reduce(sw_net *net, sw_err *err);
 int sw_net_stability(const sw_net *net, const sw_net_op *op, sw_err *err);
 
-/* Solvers.  Each fills state (m ints). */
+/* Low-rank (Sherman-Morrison-Woodbury) solves of state systems against a
+ * stored inverse at a base state (net_lowrank.c). */
+typedef struct sw_net_lr {
+  size_t m;
+  int *base;           /* state of the stored inverse */
+  double *Minv;        /* m x m */
+  double *work;
+  size_t *idx;
+  int valid;
+  size_t updates, refactors;
+} sw_net_lr;
+int sw_net_lr_init(sw_net_lr *lr, size_t m, sw_err *err);
+void sw_net_lr_free(sw_net_lr *lr);
+int sw_net_lr_ports(const sw_net *net, sw_net_lr *lr, const int *state,
+                    double *v, double *i, sw_err *err);
+
+/* Solvers.  Each fills state (m ints).  updates (may be NULL) receives the
+ * number of attempts solved by a low-rank update instead of a new
+ * factorisation. */
 int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
                    int *state, size_t *iterations, sw_net_trace *trace,
-                   sw_err *err);
+                   size_t *updates, sw_err *err);
 void sw_net_trace_free(sw_net_trace *t);
 void sw_net_default_start(const sw_net *net, int *state);
 

@@ -72,12 +72,12 @@ static int seen(const int *hist, size_t nh, const int *state, size_t m)
 
 /* Port values of a state: the m x m reduced system, or, when a trace is
  * kept, the full LU solve (its values are the ones an engineer reads). */
-static int solve_ports(const sw_net *net, const int *state, double *v, double *i,
-                       int full, sw_err *err)
+static int solve_ports(const sw_net *net, sw_net_lr *lr, const int *state, double *v,
+                       double *i, int full, sw_err *err)
 {
   sw_net_op op;
   size_t k;
-  if (!full) return sw_net_state_ports(net, state, v, i, err);
+  if (!full) return sw_net_lr_ports(net, lr, state, v, i, err);
   memset(&op, 0, sizeof op);
   if (sw_net_op_from_state(net, state, &op, err)) return err->code;
   for (k = 0; k < net->ndev; k++) { v[k] = op.v[net->dev[k].el]; i[k] = op.i[net->dev[k].el]; }
@@ -87,8 +87,9 @@ static int solve_ports(const sw_net *net, const int *state, double *v, double *i
 
 int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
                    int *state, size_t *iterations, sw_net_trace *trace,
-                   sw_err *err)
+                   size_t *updates, sw_err *err)
 {
+  sw_net_lr lr;
   size_t m = net->ndev, k, it, nh = 0;
   double *v, *i, *x, *ex;
   int *hist = NULL, stepping = 0, rc = SW_OK;
@@ -101,7 +102,7 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
   }
   v = sw_alloc(4 * m, sizeof *v, err);
   hist = sw_alloc((max_iter + 1) * m, sizeof *hist, err);
-  if (!v || !hist) { free(v); free(hist); return SW_ENOMEM; }
+  if (!v || !hist || sw_net_lr_init(&lr, m, err)) { free(v); free(hist); return SW_ENOMEM; }
   i = v + m; x = i + m; ex = x + m;
   if (start) { if (start != state) memcpy(state, start, m * sizeof *state); }
   else sw_net_default_start(net, state);
@@ -111,7 +112,7 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
     size_t worst = 0;
     double worst_rel = -1;
     *iterations = it;
-    if (solve_ports(net, state, v, i, trace != NULL, err)) {
+    if (solve_ports(net, &lr, state, v, i, trace != NULL, err)) {
       sw_net_state_text(net, state, text, sizeof text);
       if (trace) {
         for (k = 0; k < m; k++) v[k] = i[k] = x[k] = ex[k] = NAN;
@@ -167,6 +168,8 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
       rc = sw_err_set(err, SW_ENOSOL, "assumed state: no consistent state after %zu attempts (last tried %s); try method = \"enumerate\" or \"lcp\"", it, text);
     }
   }
+  if (updates) *updates = lr.updates;
+  sw_net_lr_free(&lr);
   free(v); free(hist);
   return rc;
 }
@@ -191,7 +194,7 @@ int sw_net_auto(const sw_net *net, const int *start, double max_states,
   if (m == 0) { *used = "linear"; *nfound = 1; return SW_OK; }
   if (m > 1) {
     *used = "assumed";
-    if (sw_net_assumed(net, start, 0, state, iterations, NULL, err) == SW_OK) return SW_OK;
+    if (sw_net_assumed(net, start, 0, state, iterations, NULL, NULL, err) == SW_OK) return SW_OK;
     if (err->code == SW_ENOMEM) return SW_ENOMEM;
     snprintf(tried, sizeof tried, "assumed state: %.300s", err->msg);
     *used = "lcp";

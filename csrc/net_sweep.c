@@ -24,7 +24,7 @@ int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
   for (k = 0; k < n && rc == SW_OK; k++) {
     if ((rc = sw_net_set(net, name, values[k], err)) || (rc = sw_net_prepare(net, err))) break;
     if (!have) sw_net_default_start(net, state);
-    if (sw_net_assumed(net, state, 0, state, &it, NULL, err) != SW_OK) {
+    if (sw_net_assumed(net, state, 0, state, &it, NULL, NULL, err) != SW_OK) {
       if (err->code == SW_ENOMEM) { rc = SW_ENOMEM; break; }
       if ((rc = sw_net_auto(net, state, max_states, state, &it, &nf, &used, err))) {
         sw_err_prefix(err, "at %s = %g: ", name, values[k]);
@@ -72,7 +72,7 @@ int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
     }
     if (rc || (rc = sw_net_prepare(net, err))) { sw_err_prefix(err, "run %zu: ", r + 1); break; }
     if (r == 0) sw_net_default_start(net, state);
-    if (sw_net_assumed(net, state, 0, state, &it, NULL, err) != SW_OK) {
+    if (sw_net_assumed(net, state, 0, state, &it, NULL, NULL, err) != SW_OK) {
       if (err->code == SW_ENOMEM) { rc = SW_ENOMEM; break; }
       if ((rc = sw_net_auto(net, state, max_states, state, &it, &nf, &used, err))) { sw_err_prefix(err, "run %zu: ", r + 1); break; }
     }

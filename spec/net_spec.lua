@@ -187,6 +187,28 @@ describe("segwise.network", function()
     end)
   end)
 
+  describe("low-rank updates", function()
+    it("assumed-state attempts after the first reuse the factorisation (Sherman-Morrison-Woodbury) and agree with Lemke", function()
+      local net = sw.network()
+      net:vsource("E", "s", "0", 5)
+      net:resistor("RS", "s", "n1", 100)
+      for k = 1, 16 do
+        net:resistor("RG" .. k, "n" .. k, "0", 2000)
+        net:resistor("RC" .. k, "n" .. k, "n" .. (k + 1), 150)
+        net:element("D" .. k, "n" .. (k + 1), "0", sw.pwl { x = { 0, 0.3, 0.6, 0.9 }, y = { 0, 3e-4, 1.5e-3, 4.2e-3 } })
+      end
+      local op = net:solve { method = "assumed" }
+      assert.is_true(op.iterations >= 2)
+      assert.is_true(op.lowrank_updates >= 1)
+      local ref = net:solve { method = "lcp" }
+      for k = 1, 16 do
+        assert.is.near(ref.vd["D" .. k], op.vd["D" .. k], 1e-12)
+        assert.are.equal(ref.state["D" .. k], op.state["D" .. k])
+      end
+      H.check_kirchhoff(net, op)
+    end)
+  end)
+
   describe("devices given as v(i)", function()
     it("solve a vertical knee (an ideal-diode-like zener) exactly", function()
       -- v(i): 0 A..1 A at exactly 5.1 V, flat in v: a vertical segment in i(v) terms

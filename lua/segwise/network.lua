@@ -189,6 +189,7 @@ return function(sw, core)
     end
     op = finish_op(self, op, info)
     op.pmatrix, op.pmatrix_test, op.nfound = info.pmatrix, info.pmatrix_test, info.nfound
+    op.lowrank_updates = info.lowrank_updates
     if info.trace then op.trace = trace_text(self, info.trace) end
     return op
   end
