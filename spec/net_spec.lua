@@ -222,6 +222,65 @@ describe("segwise.network", function()
     end)
   end)
 
+  describe("model extension rules", function()
+    it("held ends add flat segments numbered 0 and nseg + 1", function()
+      -- i(v) held at 0.02 A above 0.8 V: a current limiter
+      local lim = sw.pwl { x = { 0, 0.6, 0.8 }, y = { 0, 0, 0.02 }, extend = "hold" }
+      local net = one_device(10, 100, lim)
+      local op = net:solve()
+      assert.are.equal(3, op.state.D1)
+      assert.is.near(0.02, op.i.D1, 1e-16)
+      assert.is.near(10 - 100 * 0.02, op.vd.D1, 1e-13)   -- hand algebra
+      H.check_kirchhoff(net, op)
+      local neg = one_device(-1, 100, lim):solve()
+      assert.are.equal(0, neg.state.D1)
+      assert.is.near(-1, neg.vd.D1, 1e-15)               -- no current below 0 V
+    end)
+    it("lcp refuses discontinuous models and names the jump", function()
+      local jump = sw.pwl.segments { { lo = 0, hi = 1, slope = 0.001, intercept = 0 },
+                                     { lo = 1, hi = 2, slope = 0.001, intercept = 0.01 } }
+      local net = one_device(5, 1000, jump)
+      local ok, err = pcall(net.solve, net, { method = "lcp" })
+      assert.is_false(ok)
+      assert.truthy(err:find("device D1 has a jump at x = 1"))
+      -- the other methods handle the jump: 5 = 1000 i + v on segment 2,
+      -- i = 0.001 v + 0.01  =>  v = -5/2 (outside), segment 1: v = 5/2 (outside:
+      -- hi = 1); none fits; enumerate says so
+      local ok2, err2 = pcall(net.solve, net, { method = "enumerate" })
+      assert.is_false(ok2)
+      assert.truthy(err2:find("no consistent state exists"))
+    end)
+  end)
+
+  describe("several operating points", function()
+    local function tunnel(e)
+      local net = sw.network()
+      net:vsource("E", "in", "0", e)
+      net:resistor("R", "in", "a", 50)
+      net:element("D1", "a", "0", sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } })
+      return net
+    end
+    it("the start states choose which point the assumed method lands on", function()
+      local net = tunnel(0.5)
+      -- crossings at E/6, 0.7 - E, (E + 1.25)/5.5 (hand algebra, see the reference spec)
+      assert.is.near(0.5 / 6, net:solve { method = "assumed", start = { D1 = 1 } }.vd.D1, 1e-14)
+      assert.is.near(1.75 / 5.5, net:solve { method = "assumed", start = { D1 = 3 } }.vd.D1, 1e-14)
+    end)
+    it("a warm-started sweep shows hysteresis on a bistable circuit", function()
+      local net = tunnel(0)
+      local up, down = {}, {}
+      for k = 0, 10 do up[#up + 1] = 0.1 * k end
+      for k = 10, 0, -1 do down[#down + 1] = 0.1 * k end
+      local ru, rd = net:sweep("E", up), net:sweep("E", down)
+      -- at E = 0.5 V the upward sweep stays on the low branch (segment 1),
+      -- the downward one on the high branch (segment 3)
+      assert.are.equal(1, ru[6].state.D1)
+      assert.are.equal(3, rd[6].state.D1)
+      assert.is.near(0.5 / 6, ru[6].vd.D1, 1e-14)
+      assert.is.near(1.75 / 5.5, rd[6].vd.D1, 1e-14)
+    end)
+  end)
+
   describe("controlled sources", function()
     it("a VCVS amplifier and a CCCS mirror follow hand algebra", function()
       local net = sw.network()
@@ -241,6 +300,15 @@ describe("segwise.network", function()
       -- VIN's current (in -> through source -> 0) is -0.1/1000
       assert.is.near(10 * -1e-4, op.v.h, 1e-15)
       assert.is.near(0.01 * 0.1 * 100, op.v.g, 1e-14)
+      H.check_kirchhoff(net, op)
+    end)
+    it("a CCCS controlled by a device current mirrors it", function()
+      local net = one_device(5, 1000)
+      net:cccs("F1", "0", "m", "D1", 3)
+      net:resistor("RM", "m", "0", 100)
+      local op = net:solve()
+      assert.is.near(3 * op.i.D1 * 100, op.v.m, 1e-13)
+      assert.is.near((5 - 0.6) / 1010, op.i.D1, 1e-15)
       H.check_kirchhoff(net, op)
     end)
   end)

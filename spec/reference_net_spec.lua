@@ -231,5 +231,24 @@ describe("segwise.network reference", function()
       assert.is_true(d.D1.rel_i < 0.05 and d.D1.rel_i > 0)
       H.check_kirchhoff(net, pw)
     end)
+
+    it("a device given as v(i) with its own series resistance (Newton on v = n Vt ln(1 + i/Is) + Rs i)", function()
+      local is, n, vt, rs, E, R = 1e-14, 1, 0.025852, 2, 3, 100
+      local law = sw.curve.diode { is = is, n = n, vt = vt, rs = rs, x = "i" }
+      local xs, ys = {}, {}
+      for k = 0, 12 do
+        local i = 0.03 * (k / 12) ^ 2
+        xs[#xs + 1], ys[#ys + 1] = i, n * vt * math.log(1 + i / is) + rs * i
+      end
+      local net = sw.network()
+      net:vsource("E", "in", "0", E)
+      net:resistor("R", "in", "a", R)
+      net:element("D1", "a", "0", sw.pwl { x = xs, y = ys }, { x = "i", exact = law })
+      local ex = net:solve { exact = true }
+      -- independent: bisection on E = R i + n Vt ln(1 + i/Is) + Rs i
+      local iref = H.bisect(function(i) return R * i + n * vt * math.log(1 + i / is) + rs * i - E end, 0, E / R)
+      assert.is.near(iref, ex.i.D1, 1e-12 * iref)
+      H.check_kirchhoff(net, net:solve())
+    end)
   end)
 end)
