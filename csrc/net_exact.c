@@ -63,15 +63,12 @@ static int fdf(const gsl_vector *y, void *params, gsl_vector *f, gsl_matrix *J)
     if (law(c, k, x, &fx, &dfx)) return GSL_EBADFUNC;
     if (f) gsl_vector_set(f, d->col, clampbig(yy - fx));
     if (J) {
-      size_t cx, cy = 0;
       for (r = 0; r < N; r++) gsl_matrix_set(J, d->col, r, 0);
-      /* d/dv of v and d/di of i */
-      if (d->x_is_i) { cx = d->col; cy = 1; } else { cx = SW_NET_NONE; }
-      if (cy) { /* y = v */
+      if (d->x_is_i) {  /* F = v - f(i) */
         if (e->na) *gsl_matrix_ptr(J, d->col, e->na - 1) += 1;
         if (e->nb) *gsl_matrix_ptr(J, d->col, e->nb - 1) -= 1;
-        *gsl_matrix_ptr(J, d->col, cx) -= dfx;
-      } else {  /* y = i, x = v */
+        *gsl_matrix_ptr(J, d->col, d->col) -= dfx;
+      } else {          /* F = i - f(v) */
         *gsl_matrix_ptr(J, d->col, d->col) += 1;
         if (e->na) *gsl_matrix_ptr(J, d->col, e->na - 1) -= dfx;
         if (e->nb) *gsl_matrix_ptr(J, d->col, e->nb - 1) += dfx;
@@ -83,6 +80,32 @@ static int fdf(const gsl_vector *y, void *params, gsl_vector *f, gsl_matrix *J)
 
 static int f_only(const gsl_vector *y, void *p, gsl_vector *f) { return fdf(y, p, f, NULL); }
 static int df_only(const gsl_vector *y, void *p, gsl_matrix *J) { return fdf(y, p, NULL, J); }
+
+/* A step-size test alone also stops at a minimum of |F| that is not a
+ * root (backtracking shrinks the step to nothing): require every row's
+ * residual to be small against the size of its terms. */
+static int residual_ok(exact_ctx *c, const gsl_vector *y)
+{
+  const sw_net *net = c->net;
+  size_t N = net->nunk, r, k;
+  for (r = 0; r < net->nlin; r++) {
+    double acc = -gsl_vector_get(c->b, r), mag = fabs(gsl_vector_get(c->b, r));
+    for (k = 0; k < N; k++) {
+      double t = gsl_matrix_get(c->A, r, k) * gsl_vector_get(y, k);
+      acc += t; mag += fabs(t);
+    }
+    if (!(fabs(acc) <= 1e-9 * mag + 1e-300)) return 0;
+  }
+  for (k = 0; k < net->ndev; k++) {
+    const sw_net_dev *d = &net->dev[k];
+    const sw_net_el *e = &net->el[d->el];
+    double v = (e->na ? gsl_vector_get(y, e->na - 1) : 0) - (e->nb ? gsl_vector_get(y, e->nb - 1) : 0);
+    double i = gsl_vector_get(y, d->col), fx, dfx, yy = d->x_is_i ? v : i;
+    if (law(c, k, d->x_is_i ? i : v, &fx, &dfx)) return 0;
+    if (!(fabs(yy - fx) <= 1e-9 * (fabs(yy) + fabs(fx)) + 1e-300)) return 0;
+  }
+  return 1;
+}
 
 int sw_net_exact(const sw_net *net, const sw_curve *const *curves,
                  sw_net_op *op, size_t max_iter, sw_err *err)
@@ -123,6 +146,10 @@ int sw_net_exact(const sw_net *net, const sw_curve *const *curves,
   }
   if (st != GSL_SUCCESS) {
     rc = sw_err_set(err, SW_ENUMERIC, "exact: Newton's method did not converge in %zu iterations", max_iter);
+    goto done;
+  }
+  if (!residual_ok(&c, s->x)) {
+    rc = c.failed ? SW_ECALLBACK : sw_err_set(err, SW_ENUMERIC, "exact: Newton's method stalled after %zu iterations where the exact laws are not met (no nearby solution of the exact circuit?)", it);
     goto done;
   }
   for (k = 0; k < net->ndev; k++) {

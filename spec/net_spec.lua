@@ -409,6 +409,16 @@ describe("segwise.network", function()
       assert.are.same(d, pw:diff(ex))
       assert.is.near(math.abs(pw.i.D1 - ex.i.D1), d.D1.di, 1e-18)
     end)
+    it("reports when the exact circuit has no solution near the PWL point", function()
+      -- exact law i = 0.01 + v^2 against the load line i = -v/100: v^2 + v/100
+      -- + 0.01 = 0 has discriminant 1e-4 - 0.04 < 0, so no real root
+      local f = sw.curve.fn(function(v) return 0.01 + v * v end, { lo = -100, hi = 100 })
+      local net = one_device(0, 100, sw.pwl { x = { -1, 0, 1 }, y = { -0.01, 0, 0.01 } }, { exact = f })
+      local ok, err = pcall(net.solve, net, { exact = true })
+      assert.is_false(ok)
+      assert.truthy(err:find("exact: Newton's method"))
+      assert.is.near(0, net:solve().vd.D1, 1e-15) -- the PWL circuit itself is fine
+    end)
     it("uses Lua function curves and reports their errors", function()
       local f = sw.curve.fn(function(v) return 0.1 * (v - 0.6) + 0.001 * v * v end, { lo = -10, hi = 10 })
       local net = one_device(5, 1000, knee(), { exact = f })
