@@ -2,7 +2,8 @@
 -- counts.  Usage: lua5.4 spec/run.lua LUA BUSTED [busted args...]
 local lua, busted = arg[1], arg[2]
 local rest = {}
-for i = 3, #arg do rest[#rest + 1] = arg[i] end
+-- LUA may be a command with arguments (valgrind ...); the rest are quoted.
+for i = 3, #arg do rest[#rest + 1] = "'" .. arg[i]:gsub("'", "'\\''") .. "'" end
 local cmd = string.format("%s %s -o plainTerminal %s 2>&1", lua, busted, table.concat(rest, " "))
 local pipe = assert(io.popen(cmd))
 local ok_n, fail_n, err_n

@@ -1,0 +1,28 @@
+-- The README's tour: a diode law, a 4-segment minimax model over the range
+-- where the diode will work, and that model solved in a small circuit.
+-- (Device values are invented for illustration.)
+package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
+package.cpath = "./build/?.so;" .. package.cpath
+local sw = require "segwise"
+
+-- A small-signal silicon diode (invented values): i(v) from 0.6 V to 0.8 V.
+local d = sw.curve.diode { is = 2.5e-9, n = 1.9, rs = 0.6 }
+local m = sw.fit(d, { lo = 0.6, hi = 0.8, segments = 4, criterion = "minimax" })
+print(m)
+local info = m:fit_info()
+print(("max error %s at v = %s"):format(sw.si(info.max_abs, "A"), sw.si(info.x_abs, "V")))
+for k = 1, m:nseg() do
+  local j, g = m:thevenin(k) -- i = j + g*v: a current source beside a conductance
+  print(("segment %d: i = %s + v / %s"):format(k, sw.si(j, "A"), sw.si(1 / g, "Ω")))
+end
+
+-- 5 V through 470 ohm into the diode: assumed-state solution with its trace.
+local net = sw.network()
+net:vsource("VS", "in", "0", 5)
+net:resistor("R1", "in", "a", 470)
+net:element("D1", "a", "0", m, { exact = d })
+local op = net:solve { method = "assumed", trace = true }
+print(op.trace)
+local ex = net:solve { exact = true }
+print(("PWL: %s at %s   exact: %s at %s"):format(sw.si(op.i.D1, "A"), sw.si(op.v.a, "V"),
+  sw.si(ex.i.D1, "A"), sw.si(ex.v.a, "V")))
