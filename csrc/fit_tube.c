@@ -32,11 +32,12 @@ typedef struct ring {
   unsigned char *dead;
 } ring;
 
-typedef struct tube_ws {
+struct fit_tube {
   size_t cap;
   ring R;
   poly P;        /* the ring exported after a run */
-} tube_ws;
+};
+typedef fit_tube tube_ws;
 
 /* Recorded segment of a greedy or chained pass: samples p..q and the
  * polygon of feasible (a, s) at its end (copied into a pool). */
@@ -242,9 +243,8 @@ static void value_range(const poly *P, double D, double *lo, double *hi)
 /* Lines a + s*(x - x[p]) with a in [alo, ahi] and s in [smin, smax] through
  * the bands of samples p..qmax.  Returns the last index q all of p..q fit,
  * with ws->P their polygon; *ok = 0 when even the samples at x[p] do not. */
-static size_t tube_run(const fit_data *d, double e, size_t p, size_t qmax,
-                       double alo, double ahi, double smin, double smax,
-                       tube_ws *w, int *ok)
+size_t fit_tube_run(const fit_data *d, double e, size_t p, size_t qmax, double alo, double ahi,
+                    double smin, double smax, fit_tube *w, int *ok, double *rlo, double *rhi)
 {
   double X0 = d->x[p], l, u, D, pa[4], ps[4];
   size_t i = p, last, hu, hl, keep;
@@ -285,7 +285,12 @@ static size_t tube_run(const fit_data *d, double e, size_t p, size_t qmax,
     size_t top = ring_climb(R, R->head, 0, 1);
     if (!ring_cut(R, top, 0, 1, smax, &keep)) return last;
   }
-  hu = hl = R->head;
+  hu = ring_climb(R, R->head, 1, D);
+  hl = ring_climb(R, R->head, -1, -D);
+  if (rlo) {
+    rlo[i] = R->a[hl] + R->s[hl] * D;
+    rhi[i] = R->a[hu] + R->s[hu] * D;
+  }
   last = i;
   for (i = i + 1; i <= qmax; i++) {
     double vmax, vmin;
@@ -305,13 +310,17 @@ static size_t tube_run(const fit_data *d, double e, size_t p, size_t qmax,
     if (!ring_cut(R, hl, -1, -D, -l, &keep)) break;
     hl = keep;
     if (R->dead[hu]) hu = keep;
+    if (rlo) {
+      rlo[i] = vmin > l ? vmin : l;
+      rhi[i] = vmax < u ? vmax : u;
+    }
     last = i;
   }
   ring_export(R, &w->P);
   return last;
 }
 
-static void slope_bounds(const fit_cons *k, int first, int lastseg, double *smin, double *smax)
+void fit_slope_bounds(const fit_cons *k, int first, int lastseg, double *smin, double *smax)
 {
   *smin = -INFINITY;
   *smax = INFINITY;
@@ -322,6 +331,45 @@ static void slope_bounds(const fit_cons *k, int first, int lastseg, double *smin
     if (first && k->has_first && k->slope_first != k->slope_last) { *smin = 1; *smax = 0; return; }
     *smin = *smax = k->slope_last;
   }
+}
+
+fit_tube *fit_tube_new(size_t n, sw_err *err)
+{
+  fit_tube *w = sw_alloc(1, sizeof *w, err);
+  if (!w) return NULL;
+  if (ws_init(w, n, err)) { ws_free(w); free(w); return NULL; }
+  return w;
+}
+
+void fit_tube_free(fit_tube *w)
+{
+  if (!w) return;
+  ws_free(w);
+  free(w);
+}
+
+/* Start value of a line of the last run's polygon whose value at distance
+ * h from the start is target (the middle of the chord the line cuts). */
+double fit_tube_start_for(const fit_tube *w, double h, double target)
+{
+  const poly *P = &w->P;
+  size_t i, n = P->n, best = 0;
+  double amin = INFINITY, amax = -INFINITY, bd = INFINITY;
+  for (i = 0; i < n; i++) {
+    size_t j = (i + 1) % n;
+    double fi = P->a[i] + P->s[i] * h - target, fj = P->a[j] + P->s[j] * h - target;
+    if (fabs(fi) < bd) { bd = fabs(fi); best = i; }
+    if (fi == 0) {
+      if (P->a[i] < amin) amin = P->a[i];
+      if (P->a[i] > amax) amax = P->a[i];
+    } else if ((fi < 0) != (fj < 0) && fj != 0) {
+      double t = fi / (fi - fj), av = P->a[i] + t * (P->a[j] - P->a[i]);
+      if (av < amin) amin = av;
+      if (av > amax) amax = av;
+    }
+  }
+  if (amin <= amax) return 0.5 * (amin + amax);
+  return n ? P->a[best] : target;
 }
 
 static void centroid(const double *a, const double *s, size_t n, double *ac, double *sc)
@@ -406,8 +454,8 @@ static size_t greedy(const fit_data *d, double e, int continuous, const fit_cons
   for (;;) {
     double smin, smax;
     int ok;
-    slope_bounds(k, m == 0, 0, &smin, &smax);
-    q = tube_run(d, e, p, d->n - 1, alo, ahi, smin, smax, w, &ok);
+    fit_slope_bounds(k, m == 0, 0, &smin, &smax);
+    q = fit_tube_run(d, e, p, d->n - 1, alo, ahi, smin, smax, w, &ok, NULL, NULL);
     if (!ok || !(d->x[q] > d->x[p])) return SIZE_MAX;
     m++;
     if (R && (*st = recs_push(R, p, q, &w->P, err))) return SIZE_MAX;
@@ -514,12 +562,59 @@ static int tol_direct(const fit_data *d, double e, int continuous, const fit_con
   return st;
 }
 
+/* 1 when the samples are convex or concave (second divided differences of
+ * one sign) with no hard points: there the greedy farthest reach carrying
+ * the start interval is the equal-error construction, optimal. */
+static int convex_data(const fit_data *d)
+{
+  size_t i;
+  int sign = 0;
+  for (i = 0; i < d->n; i++)
+    if (!(d->s[i] > 0)) return 0;
+  for (i = 1; i + 1 < d->n; i++) {
+    double h1 = d->x[i] - d->x[i - 1], h2 = d->x[i + 1] - d->x[i], dd;
+    if (!(h1 > 0) || !(h2 > 0)) return 0;
+    dd = (d->y[i + 1] - d->y[i]) / h2 - (d->y[i] - d->y[i - 1]) / h1;
+    if (fabs(dd) <= 1e-12 * (fabs(d->y[i + 1] - d->y[i]) / h2 + fabs(d->y[i] - d->y[i - 1]) / h1)) continue;
+    if (sign == 0) sign = dd > 0 ? 1 : -1;
+    else if ((dd > 0 ? 1 : -1) != sign) return 0;
+  }
+  return 1;
+}
+
+/* Continuous model through knots kx with values ky. */
+static int knots_model(const double *kx, const double *ky, size_t m, sw_pwl *out, sw_err *err)
+{
+  size_t j;
+  int st = sw_pwl_alloc(out, m, err);
+  if (st) return st;
+  for (j = 0; j <= m; j++) out->x[j] = kx[j];
+  for (j = 0; j < m; j++) {
+    out->ya[j] = ky[j];
+    out->yb[j] = ky[j + 1];
+  }
+  if ((st = sw_pwl_finish(out, err))) sw_pwl_free(out);
+  return st;
+}
+
 int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons *k,
                     sw_pwl *out, sw_err *err)
 {
   int rev, st;
   fit_data r;
   fit_cons kr;
+  if (continuous && (!convex_data(d) || (k && k->has_last))) {
+    double *kx = sw_alloc(d->n + 1, sizeof *kx, err), *ky = sw_alloc(d->n + 1, sizeof *ky, err);
+    size_t m;
+    st = (!kx || !ky) ? SW_ENOMEM : fit_reach(d, e, k, d->n, &m, kx, ky, err);
+    if (!st && m == SIZE_MAX)
+      st = sw_err_set(err, SW_ENOSOL, "no continuous model meets the tolerance %g under the "
+                      "constraints (through points, slopes, monotone) at the data", e);
+    if (!st) st = knots_model(kx, ky, m, out, err);
+    free(kx);
+    free(ky);
+    return st;
+  }
   if ((st = need_reverse(k, err, &rev))) return st;
   if (!rev) return tol_direct(d, e, continuous, k, out, err);
   if ((st = reverse_data(d, &r, err))) return st;
@@ -530,6 +625,26 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
   return st;
 }
 
+/* Segment count at level e: greedy for discontinuous models and convex
+ * data, reachable sets for other continuous ones; knots into kx when given. */
+static int count_at(const fit_data *d, double e, int continuous, const fit_cons *k, size_t maxseg,
+                    tube_ws *w, rec_list *R, double *kx, double *ky, size_t *m, sw_err *err)
+{
+  int st = SW_OK;
+  if (continuous && (!convex_data(d) || (k && k->has_last))) {
+    st = fit_reach(d, e, k, maxseg, m, kx, ky, err);
+    if (*m == SIZE_MAX) *m = maxseg + 1;
+    return st;
+  }
+  *m = greedy(d, e, continuous, k, maxseg, w, kx ? R : NULL, &st, err);
+  if (!st && kx && *m <= maxseg) {
+    size_t j;
+    for (j = 0; j < R->n; j++) kx[j] = d->x[R->r[j].p];
+    kx[R->n] = d->x[R->r[R->n - 1].q];
+  }
+  return st;
+}
+
 /* Smallest e whose greedy count is at most nseg, by bisection; the knots of
  * that greedy pass (split to exactly nseg) in knots[0..nseg]. */
 static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
@@ -537,14 +652,16 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
 {
   tube_ws w;
   rec_list R;
-  double elo = 0, ehi = start_level(d);
+  double elo = 0, ehi = start_level(d), *kx = NULL, *ky = NULL;
   size_t m, it, j, *idx = NULL;
   int st, tries;
   memset(&R, 0, sizeof R);
+  kx = sw_alloc(d->n + 1, sizeof *kx, err);
+  ky = sw_alloc(d->n + 1, sizeof *ky, err);
+  if (!kx || !ky) { st = SW_ENOMEM; goto done; }
   if ((st = ws_init(&w, d->n, err))) goto done;
   for (tries = 0; tries < 200; tries++) {
-    m = greedy(d, ehi, continuous, k, nseg, &w, NULL, &st, err);
-    if (st) goto done;
+    if ((st = count_at(d, ehi, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
     if (m <= nseg) break;
     elo = ehi;
     ehi *= 2;
@@ -554,21 +671,18 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
                     "be met with %zu segments", nseg);
     goto done;
   }
-  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-13 * ehi; it++) {
+  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-12 * ehi; it++) {
     double mid = 0.5 * (elo + ehi);
-    m = greedy(d, mid, continuous, k, nseg, &w, NULL, &st, err);
-    if (st) goto done;
+    if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
     if (m <= nseg) ehi = mid; else elo = mid;
   }
   *iters += it;
-  m = greedy(d, ehi, continuous, k, nseg, &w, &R, &st, err);
-  if (st) goto done;
+  if ((st = count_at(d, ehi, continuous, k, nseg, &w, &R, kx, ky, &m, err))) goto done;
+  if (m > nseg) { st = sw_err_set(err, SW_ENUMERIC, "segment count search did not settle"); goto done; }
   /* split the segment with most samples at its middle sample until nseg */
   idx = sw_alloc(nseg + 1, sizeof *idx, err);
   if (!idx) { st = SW_ENOMEM; goto done; }
-  for (j = 0; j < R.n; j++) idx[j] = R.r[j].p;
-  idx[R.n] = R.r[R.n - 1].q;
-  m = R.n;
+  for (j = 0; j <= m; j++) idx[j] = j == 0 ? 0 : j == m ? d->n - 1 : fit_lower(d, kx[j]);
   while (m < nseg) {
     size_t best = m, span = 0, mid;
     for (j = 0; j < m; j++)
@@ -585,6 +699,8 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   for (j = 0; j <= nseg; j++) knots[j] = d->x[idx[j]];
 done:
   free(idx);
+  free(kx);
+  free(ky);
   recs_free(&R);
   ws_free(&w);
   return st;
@@ -596,7 +712,8 @@ int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_
   double *knots = sw_alloc(nseg + 1, sizeof(double), err);
   int st, rev;
   if (!knots) return SW_ENOMEM;
-  if ((st = need_reverse(k, err, &rev))) goto done;
+  rev = 0;
+  if (!continuous && (st = need_reverse(k, err, &rev))) goto done;
   if (rev) {
     fit_data r;
     fit_cons kr;
@@ -633,9 +750,9 @@ static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi
     double smin, smax;
     int ok;
     size_t q;
-    slope_bounds(k, j == 0, j == nseg - 1, &smin, &smax);
+    fit_slope_bounds(k, j == 0, j == nseg - 1, &smin, &smax);
     if (smin > smax) return SW_OK;
-    q = tube_run(d, e, pi[j], qi[j], alo, ahi, smin, smax, w, &ok);
+    q = fit_tube_run(d, e, pi[j], qi[j], alo, ahi, smin, smax, w, &ok, NULL, NULL);
     if (!ok || q < qi[j]) return SW_OK;
     if (R && (st = recs_push(R, pi[j], qi[j], &w->P, err))) return st;
     value_range(&w->P, d->x[qi[j]] - d->x[pi[j]], &alo, &ahi);

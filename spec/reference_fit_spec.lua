@@ -1,0 +1,297 @@
+-- Fitting checked against results from outside the project: closed forms of
+-- approximation theory, de Boor's asymptotic error, least-squares normal
+-- equations solved here independently, and brute-force optimality.
+local sw = require "segwise"
+
+-- Shockley law without series resistance: i = is*(exp(v/vt) - 1).
+local IS, VT = 1e-12, 0.025
+local function diode() return sw.curve.diode { is = IS, n = 1, vt = VT } end
+local function expf(v) return IS * math.exp(v / VT) end
+
+-- Sign changes among the extremes of e(x) = m(x) - f(x) that reach
+-- (1 - slack)*E in size, on a fine grid.
+local function alternations(m, f, lo, hi, E, slack)
+  local n, signs = 20000, {}
+  local prev, pprev
+  local function err(x) return m(x) - f(x) end
+  for i = 0, n do
+    local x = lo + (hi - lo) * i / n
+    local e = err(x)
+    if math.abs(e) >= (1 - slack) * E then
+      local s = e > 0 and 1 or -1
+      if signs[#signs] ~= s then signs[#signs + 1] = s end
+    end
+    pprev, prev = prev, e
+  end
+  return #signs
+end
+
+-- Best error of one segment [x, x + h] of the exponential: the chord slope m,
+-- the parallel tangent at xi (f'(xi) = m), error half the gap
+-- (Chebyshev equioscillation, common practice).
+local function seg_error(x, h)
+  local m = (expf(x + h) - expf(x)) / h
+  local xi = VT * math.log(m * VT / IS)
+  return (expf(x) + m * (xi - x) - expf(xi)) / 2
+end
+
+-- Equal-error construction: can n segments of error <= E cover [a, b]?
+local function covers(E, n, a, b)
+  local x = a
+  for _ = 1, n do
+    if seg_error(x, b - x) <= E then return true end
+    local lo, hi = 0, b - x
+    for _ = 1, 80 do
+      local mid = (lo + hi) / 2
+      if seg_error(x, mid) <= E then lo = mid else hi = mid end
+    end
+    x = x + lo
+  end
+  return false
+end
+
+local function optimal_error(n, a, b)
+  local lo, hi = 0, 1
+  for _ = 1, 100 do
+    local mid = (lo + hi) / 2
+    if covers(mid, n, a, b) then hi = mid else lo = mid end
+  end
+  return hi
+end
+
+describe("segwise.fit reference values", function()
+  describe("best uniform line (Chebyshev equioscillation)", function()
+    -- The best uniform line to sqrt(x) on [0, 1] is x + 1/8 with error 1/8:
+    -- equioscillation at 0, 1/4 and 1 (classical textbook example, from memory).
+    it("is x + 1/8 with error 1/8 for the power law x^0.5 (closed form path)", function()
+      local m = sw.fit(sw.curve.power { k = 1, n = 0.5 }, { lo = 0, hi = 1, segments = 1 })
+      local s = m:seg(1)
+      assert.is.near(1, s.slope, 1e-9)
+      assert.is.near(0.125, s.intercept, 1e-9)
+      assert.is.near(0.125, m:fit_info().max_abs, 1e-9)
+    end)
+
+    it("is x + 1/8 for a Lua function with numeric derivatives", function()
+      local m = sw.fit(sw.curve.fn(math.sqrt, { lo = 0, hi = 1 }), { segments = 1, knots = "uniform" })
+      assert.is.near(1, m:seg(1).slope, 1e-6)
+      assert.is.near(0.125, m:seg(1).intercept, 1e-6)
+    end)
+
+    it("is x + 1/8 within the sampling error for 2001 samples of sqrt(x)", function()
+      local xs, ys = {}, {}
+      for i = 0, 2000 do xs[#xs + 1] = (i / 2000) ^ 2; ys[#ys + 1] = i / 2000 end
+      local m = sw.fit(sw.curve.samples(xs, ys), { segments = 1 })
+      assert.is.near(1, m:seg(1).slope, 1e-3)
+      assert.is.near(0.125, m:seg(1).intercept, 1e-3)
+      -- three alternation points: 0, 1/4, 1
+      assert.are.equal(3, alternations(m, math.sqrt, 0, 1, m:fit_info().max_abs, 1e-3))
+    end)
+  end)
+
+  describe("optimal knots on a convex law (equal-error construction)", function()
+    -- For a strictly convex f the best continuous PWL with n free knots has
+    -- every segment at the same error, each equioscillating at its two ends
+    -- and its tangent point: 2n + 1 alternation points (approximation
+    -- theory, from memory; the exact value is built here independently).
+    for _, n in ipairs { 3, 8 } do
+      it(("matches the independent equal-error optimum for %d segments"):format(n), function()
+        local E = optimal_error(n, 0.3, 0.7)
+        local m = sw.fit(diode(), { lo = 0.3, hi = 0.7, segments = n })
+        local info = m:fit_info()
+        assert.is.near(E, info.max_abs, 5e-3 * E)  -- grid-placed knots: within 0.5 %
+        assert.is_true(info.max_abs >= E * (1 - 1e-9)) -- nothing beats the optimum
+        assert.are.equal(2 * n + 1, alternations(m, function(v) return IS * (math.exp(v / VT) - 1) end,
+          0.3, 0.7, info.max_abs, 0.02))
+      end)
+    end
+
+    it("is no better with continuous = false on a convex law (same optimum)", function()
+      local E = optimal_error(4, 0.3, 0.7)
+      local m = sw.fit(diode(), { lo = 0.3, hi = 0.7, segments = 4, continuous = false })
+      assert.is.near(E, m:fit_info().max_abs, 5e-3 * E)
+    end)
+
+    -- de Boor, A Practical Guide to Splines: free-knot PWL error
+    -- E_n ~ (int sqrt|f''| dx)^2 / (16 n^2) for large n.
+    it("approaches de Boor's asymptotic error for the diode law", function()
+      local I = 2 * math.sqrt(IS) * (math.exp(0.7 / (2 * VT)) - math.exp(0.3 / (2 * VT)))
+      local m = sw.fit(diode(), { lo = 0.3, hi = 0.7, segments = 32 })
+      assert.is.near(1, m:fit_info().max_abs / (I * I / (16 * 32 * 32)), 0.03)
+    end)
+
+    it("approaches de Boor's asymptotic error for the power law x^1.5", function()
+      -- f'' = 0.75 x^-1/2, int_0^1 sqrt(f'') = sqrt(0.75) * 4/3
+      local I = math.sqrt(0.75) * 4 / 3
+      local m = sw.fit(sw.curve.power { k = 1, n = 1.5 }, { lo = 0, hi = 1, segments = 32 })
+      assert.is.near(1, m:fit_info().max_abs / (I * I / (16 * 32 * 32)), 0.02)
+    end)
+
+    it("gives the fewest segments of the equal-error construction for a tolerance", function()
+      for _, tol in ipairs { 1e-3, 1e-4 } do
+        local nstar = 1
+        while not covers(tol, nstar, 0.3, 0.7) do nstar = nstar + 1 end
+        local m = sw.fit(diode(), { lo = 0.3, hi = 0.7, tol = tol })
+        assert.are.equal(nstar, m:nseg())
+        assert.is_true(m:compare(diode(), { lo = 0.3, hi = 0.7 }).max_abs <= tol * (1 + 1e-9))
+      end
+    end)
+  end)
+
+  describe("least squares (normal equations solved here)", function()
+    local function noisy(n, seed)
+      local xs, ys, s = {}, {}, seed
+      for i = 1, n do
+        s = (1103515245 * s + 12345) % 2147483648  -- LCG, seeded
+        xs[i] = i / n
+        ys[i] = math.exp(xs[i]) + 0.05 * (s / 2147483648 - 0.5)
+      end
+      return xs, ys
+    end
+
+    it("matches the closed-form least-squares line of each segment", function()
+      local xs, ys = noisy(60, 7)
+      local m = sw.fit(sw.curve.samples(xs, ys), {
+        criterion = "lsq", continuous = false, knots = { xs[1], 0.5, xs[#xs] } })
+      -- closed form: slope = Sxy / Sxx about the means (Gauss normal equations)
+      for k, range in ipairs { { xs[1], 0.5 }, { 0.5, xs[#xs] + 1 } } do
+        local n, sx, sy = 0, 0, 0
+        for i = 1, #xs do
+          if xs[i] >= range[1] and xs[i] < range[2] then n = n + 1; sx = sx + xs[i]; sy = sy + ys[i] end
+        end
+        local mx, my, sxx, sxy = sx / n, sy / n, 0, 0
+        for i = 1, #xs do
+          if xs[i] >= range[1] and xs[i] < range[2] then
+            sxx = sxx + (xs[i] - mx) ^ 2; sxy = sxy + (xs[i] - mx) * (ys[i] - my)
+          end
+        end
+        local b = sxy / sxx
+        local seg = m:seg(k)
+        assert.is.near(b, seg.slope, 1e-9)
+        assert.is.near(my - b * mx, seg.intercept, 1e-9)
+      end
+    end)
+
+    it("matches the hat-basis normal equations for a continuous fit", function()
+      local xs, ys = noisy(50, 11)
+      local K = { xs[1], 0.3, 0.7, xs[#xs] }
+      local m = sw.fit(sw.curve.samples(xs, ys), { criterion = "lsq", knots = K })
+      -- build and solve the 4x4 normal equations by Gaussian elimination
+      local A, r = {}, {}
+      for i = 1, 4 do A[i] = { 0, 0, 0, 0 }; r[i] = 0 end
+      for i = 1, #xs do
+        local j = xs[i] < 0.3 and 1 or (xs[i] < 0.7 and 2 or 3)
+        local t = (xs[i] - K[j]) / (K[j + 1] - K[j])
+        local phi = { [j] = 1 - t, [j + 1] = t }
+        for p, vp in pairs(phi) do
+          r[p] = r[p] + vp * ys[i]
+          for q, vq in pairs(phi) do A[p][q] = A[p][q] + vp * vq end
+        end
+      end
+      for c = 1, 4 do
+        for row = c + 1, 4 do
+          local f = A[row][c] / A[c][c]
+          for k = c, 4 do A[row][k] = A[row][k] - f * A[c][k] end
+          r[row] = r[row] - f * r[c]
+        end
+      end
+      local c = {}
+      for row = 4, 1, -1 do
+        local s = r[row]
+        for k = row + 1, 4 do s = s - A[row][k] * c[k] end
+        c[row] = s / A[row][row]
+      end
+      local _, ky = m:knots()
+      for i = 1, 4 do assert.is.near(c[i], ky[i], 1e-9) end
+    end)
+
+    -- The L2-best line to x^2 on [0, 1] is x - 1/6 (orthogonal projection
+    -- onto {1, x}; Legendre polynomials shifted to [0, 1], common practice).
+    it("projects a law in L2: x^2 on [0, 1] gives x - 1/6", function()
+      local m = sw.fit(sw.curve.power { k = 1, n = 2 }, { lo = 0, hi = 1, criterion = "lsq", segments = 1 })
+      assert.is.near(1, m:seg(1).slope, 1e-5)
+      assert.is.near(-1 / 6, m:seg(1).intercept, 1e-5)
+    end)
+  end)
+
+  describe("noisy data (seeded) recovers a known PWL", function()
+    -- truth: knots 0, 0.3, 0.7, 1 with values 0, 0.6, 0.2, 1.0
+    local truth = sw.pwl { x = { 0, 0.3, 0.7, 1 }, y = { 0, 0.6, 0.2, 1.0 } }
+    local noise = 0.01
+    local function data(seed)
+      local xs, ys, s = {}, {}, seed
+      for i = 0, 400 do
+        s = (1103515245 * s + 12345) % 2147483648
+        xs[#xs + 1] = i / 400
+        ys[#ys + 1] = truth(i / 400) + noise * (2 * s / 2147483648 - 1)
+      end
+      return sw.curve.samples(xs, ys)
+    end
+
+    for _, crit in ipairs { "lsq", "minimax" } do
+      it(("finds the knots and stays within the noise (%s, optimal knots)"):format(crit), function()
+        local m = sw.fit(data(42), { criterion = crit, segments = 3 })
+        local kx = m:knots()
+        assert.is.near(0.3, kx[2], 0.02)
+        assert.is.near(0.7, kx[3], 0.02)
+        for i = 0, 200 do
+          local x = i / 200
+          assert.is_true(math.abs(m(x) - truth(x)) <= 2 * noise)
+        end
+      end)
+    end
+
+    it("needs exactly the true segment count for tol = noise level", function()
+      local m = sw.fit(data(3), { tol = 1.001 * noise })
+      assert.are.equal(3, m:nseg())
+    end)
+  end)
+
+  describe("fewest segments: brute force on small cases", function()
+    -- Minimax error of one line on points i..j: the largest three-point
+    -- Chebyshev error over every triple (a line's best error on points is
+    -- attained on a 3-point reference; common practice).
+    local function line_error(xs, ys, i, j)
+      local e = 0
+      for a = i, j do
+        for b = a + 1, j do
+          for c = b + 1, j do
+            local chord = ys[a] + (ys[c] - ys[a]) * (xs[b] - xs[a]) / (xs[c] - xs[a])
+            e = math.max(e, math.abs(chord - ys[b]) / 2)
+          end
+        end
+      end
+      return e
+    end
+
+    -- Can k segments (knots on samples, neighbours sharing their end sample)
+    -- cover the points within tol?  Exhaustive over knot choices.
+    local function feasible(xs, ys, k, tol)
+      local n = #xs
+      local function rec(start, left)
+        if left == 1 then return line_error(xs, ys, start, n) <= tol end
+        for stop = start + 1, n - 1 do
+          if line_error(xs, ys, start, stop) <= tol and rec(stop, left - 1) then return true end
+        end
+        return false
+      end
+      return rec(1, k)
+    end
+
+    for seed = 1, 6 do
+      it(("no discontinuous model with one segment fewer meets tol (seed %d)"):format(seed), function()
+        local xs, ys, s = {}, {}, seed
+        for i = 1, 11 do
+          s = (1103515245 * s + 12345) % 2147483648
+          xs[i] = i
+          ys[i] = math.sin(i * 0.9) + 0.6 * s / 2147483648
+        end
+        local tol = 0.15
+        local m = sw.fit(sw.curve.samples(xs, ys), { tol = tol, continuous = false })
+        local k = m:nseg()
+        assert.is_true(m:fit_info().max_abs <= tol * (1 + 1e-9))
+        assert.is_true(feasible(xs, ys, k, tol * (1 + 1e-9)))
+        if k > 1 then assert.is_false(feasible(xs, ys, k - 1, tol)) end
+      end)
+    end
+  end)
+end)
