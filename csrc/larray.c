@@ -113,7 +113,9 @@ static int l_array(lua_State *L)
 static int array_index(lua_State *L)
 {
   lsw_array *a;
-  if (lua_type(L, 2) != LUA_TNUMBER) { /* methods */
+  if (lua_type(L, 2) != LUA_TNUMBER) { /* methods by name */
+    if (lua_type(L, 2) != LUA_TSTRING)
+      return luaL_error(L, "segwise.array: index must be a whole number (got %s)", luaL_typename(L, 2));
     lua_getmetatable(L, 1);
     lua_getfield(L, -1, "methods");
     lua_pushvalue(L, 2);

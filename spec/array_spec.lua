@@ -73,6 +73,7 @@ describe("segwise.array", function()
       { "set index 0", function(a) a[0] = 1 end, "index 0 out of range 1..3" },
       { "set past the end", function(a) a[4] = 1 end, "index 4 out of range 1..3" },
       { "set a string key", function(a) a.x = 1 end, "index must be a whole number (got string)" },
+      { "get a boolean key", function(a) return a[true] end, "index must be a whole number (got boolean)" },
       { "set NaN", function(a) a[2] = 0 / 0 end, "value for [2] is not finite" },
       { "set infinity", function(a) a[3] = math.huge end, "value for [3] is not finite" },
       { "set a string", function(a) a[1] = "1x" end, "value for [1] must be a number (got string)" },
