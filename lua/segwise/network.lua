@@ -34,6 +34,19 @@ return function(sw, core)
     return name_arg(fname, what, v)
   end
 
+  -- Calls the C method and re-raises its error at the caller's level, with
+  -- the "segwise.<function>: " prefix when the message lacks one.
+  local function call(fname, f, ...)
+    local res = table.pack(pcall(f, ...))
+    if res[1] then return table.unpack(res, 2, res.n) end
+    local msg = res[2]
+    if type(msg) == "string" then
+      msg = msg:gsub("^[^\n]-:%d+: ", "")
+      if not msg:find("^segwise%.") then msg = ("segwise.%s: %s"):format(fname, msg) end
+    end
+    error(msg, 3)
+  end
+
   -- numbers used as node names index results as strings too
   local by_string = { __index = function(t, k) if type(k) == "number" then return rawget(t, tostring(k)) end end }
 
@@ -45,7 +58,7 @@ return function(sw, core)
     name = name_arg(fname, "name", name)
     for k = 1, #nodes do nodes[k] = node_arg(fname, ("node %d"):format(k), nodes[k]) end
     check_number(fname, unit, value, 3)
-    self._c:add(kind, name, nodes[1], nodes[2], nodes[3], nodes[4], ctrl, value)
+    call(fname, self._c.add, self._c, kind, name, nodes[1], nodes[2], nodes[3], nodes[4], ctrl, value)
     self._values[name] = value
     self._kinds[name] = kind
     return self
@@ -73,7 +86,7 @@ return function(sw, core)
     end
     opts = check_opts("network:element", opts, { x = { "v", "i" }, exact = "userdata", pmax = "number" })
     if opts.pmax ~= nil then check_number("network:element", "pmax", opts.pmax) end
-    self._c:device(name, a, b, model, opts.x == "i", opts.pmax or 0, opts.exact)
+    call("network:element", self._c.device, self._c, name, a, b, model, opts.x == "i", opts.pmax or 0, opts.exact)
     self._devices[#self._devices + 1] = name
     self._kinds[name] = "element"
     return self
@@ -82,7 +95,7 @@ return function(sw, core)
   function Network:set(name, value)
     name = name_arg("network:set", "name", name)
     check_number("network:set", name, value)
-    self._c:set(name, value)
+    call("network:set", self._c.set, self._c, name, value)
     self._values[name] = value
     return self
   end
@@ -185,6 +198,7 @@ return function(sw, core)
       if type(op) == "table" then
         error(op.error .. "\nwhat was tried:\n" .. tostring(trace_text(self, op)), 2)
       end
+      if type(op) == "string" then op = op:gsub("^[^\n]-:%d+: ", "") end
       error(op, 2)
     end
     op = finish_op(self, op, info)
@@ -196,7 +210,7 @@ return function(sw, core)
 
   function Network:solve_all(opts)
     opts = check_opts("network:solve_all", opts, { max_states = "number" })
-    local list = self._c:solve_all(opts.max_states)
+    local list = call("network:solve_all", self._c.solve_all, self._c, opts.max_states)
     for k, op in ipairs(list) do list[k] = finish_op(self, op, { method = "enumerate" }) end
     return list
   end
@@ -204,7 +218,7 @@ return function(sw, core)
   function Network:sweep(name, values, opts)
     name = name_arg("network:sweep", "name", name)
     opts = check_opts("network:sweep", opts, { start = "table", max_states = "number" })
-    local rows = self._c:sweep(name, values, opts.start, opts.max_states)
+    local rows = call("network:sweep", self._c.sweep, self._c, name, values, opts.start, opts.max_states)
     for k, op in ipairs(rows) do rows[k] = finish_op(self, op, { method = "sweep" }) end
     return rows
   end
@@ -278,7 +292,7 @@ return function(sw, core)
     end
     local runs = opts.runs or 1000
     if runs ~= math.floor(runs) then error("segwise.network:montecarlo: runs must be an integer", 2) end
-    local list = self._c:montecarlo(names, tols, gauss, math.tointeger(runs), math.tointeger(opts.seed or 1) or 1, opts.max_states)
+    local list = call("network:montecarlo", self._c.montecarlo, self._c, names, tols, gauss, math.tointeger(runs), math.tointeger(opts.seed or 1) or 1, opts.max_states)
     local out = { runs = list, min = { v = {}, i = {}, p = {} }, max = { v = {}, i = {}, p = {} },
                   mean = { v = {}, i = {}, p = {} }, sd = { v = {}, i = {}, p = {} } }
     local s1, s2 = { v = {}, i = {}, p = {} }, { v = {}, i = {}, p = {} }
