@@ -293,5 +293,115 @@ describe("segwise.fit reference values", function()
         if k > 1 then assert.is_false(feasible(xs, ys, k - 1, tol)) end
       end)
     end
+
+    -- Continuous models: exact feasibility of fixed knots (on samples) by
+    -- vertex enumeration of the band polytope in the knot values (a bounded
+    -- nonempty polytope has a vertex; common practice in linear programming).
+    local function solve(A, b)
+      local n = #b
+      local M = {}
+      for i = 1, n do M[i] = { table.unpack(A[i]) }; M[i][n + 1] = b[i] end
+      for c = 1, n do
+        local p = c
+        for r = c + 1, n do if math.abs(M[r][c]) > math.abs(M[p][c]) then p = r end end
+        if math.abs(M[p][c]) < 1e-12 then return nil end
+        M[c], M[p] = M[p], M[c]
+        for r = c + 1, n do
+          local f = M[r][c] / M[c][c]
+          for k = c, n + 1 do M[r][k] = M[r][k] - f * M[c][k] end
+        end
+      end
+      local x = {}
+      for r = n, 1, -1 do
+        local s = M[r][n + 1]
+        for k = r + 1, n do s = s - M[r][k] * x[k] end
+        x[r] = s / M[r][r]
+      end
+      return x
+    end
+
+    local function cont_feasible_knots(xs, ys, K, tol)
+      local m = #K  -- knot count; values c[1..m]
+      local rows = {}
+      for i = 1, #xs do
+        local j = 1
+        while j < m - 1 and xs[i] >= xs[K[j + 1]] do j = j + 1 end
+        local t = (xs[i] - xs[K[j]]) / (xs[K[j + 1]] - xs[K[j]])
+        local row = {}
+        for q = 1, m do row[q] = 0 end
+        row[j] = 1 - t; row[j + 1] = t
+        rows[#rows + 1] = { row, ys[i] }
+      end
+      local function ok(c)
+        for _, r in ipairs(rows) do
+          local v = 0
+          for q = 1, m do v = v + r[1][q] * c[q] end
+          if math.abs(v - r[2]) > tol * (1 + 1e-9) + 1e-12 then return false end
+        end
+        return true
+      end
+      -- every choice of m rows, each at its upper or lower band edge
+      local pick = {}
+      local function rec(start, depth)
+        if depth > m then
+          for mask = 0, 2 ^ m - 1 do
+            local A, b = {}, {}
+            for q = 1, m do
+              local r = rows[pick[q]]
+              A[q] = r[1]
+              b[q] = r[2] + (((mask >> (q - 1)) & 1) == 1 and tol or -tol)
+            end
+            local c = solve(A, b)
+            if c and ok(c) then return true end
+          end
+          return false
+        end
+        for r = start, #rows do
+          pick[depth] = r
+          if rec(r + 1, depth + 1) then return true end
+        end
+        return false
+      end
+      return rec(1, 1)
+    end
+
+    local function cont_feasible(xs, ys, k, tol)
+      local n = #xs
+      local K = { 1 }
+      local function rec(start, left)
+        if left == 0 then
+          K[#K + 1] = n
+          local r = cont_feasible_knots(xs, ys, K, tol)
+          K[#K] = nil
+          return r
+        end
+        for j = start, n - 1 do
+          K[#K + 1] = j
+          local r = rec(j + 1, left - 1)
+          K[#K] = nil
+          if r then return true end
+        end
+        return false
+      end
+      return rec(2, k - 1)
+    end
+
+    for seed = 1, 3 do
+      it(("no continuous model with one segment fewer meets tol (seed %d)"):format(seed), function()
+        local xs, ys, s = {}, {}, seed
+        for i = 1, 8 do
+          s = (1103515245 * s + 12345) % 2147483648
+          xs[i] = i
+          ys[i] = math.sin(i * 0.8) + 0.5 * s / 2147483648
+        end
+        local tol = 0.12
+        local m = sw.fit(sw.curve.samples(xs, ys), { tol = tol })
+        local k = m:nseg()
+        assert.is_true(m:fit_info().max_abs <= tol * (1 + 1e-9))
+        assert.is_true(k > 1)  -- the case must be able to fail
+        assert.is_false(cont_feasible(xs, ys, k - 1, tol))
+        assert.is_true(cont_feasible(xs, ys, k, tol))  -- the brute force finds the fit's count
+      end)
+    end
   end)
 end)
