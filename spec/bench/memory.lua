@@ -1,0 +1,41 @@
+-- Peak memory of a 1e7-point evaluation against the size of the data
+-- (8 bytes a point), read from VmHWM in a child process; numpy.interp's
+-- peak for the same job beside it.
+local N = 10000000
+
+local function field(out, name)
+  return tonumber(out:match(name .. " (%d+)"))
+end
+
+return function(B)
+  local lua = arg and arg[-1] or "lua5.4"
+  local ok, out = B.sh(("%s spec/bench/memory_child.lua %d"):format(lua, N))
+  assert(ok and field(out, "peak"), "memory child failed: " .. out)
+  local data = 8 * N
+  local base, peak = field(out, "base"), field(out, "peak")
+  local mib = 1024 * 1024
+  B.row("memory", "peak RSS of 1e7-point m:eval, input 80 MB", N, "segwise (whole process)", nil,
+    ("%.0f MiB = %.2fx the data (interpreter and module %.0f MiB, input, result)"):format(peak / mib, peak / data, base / mib))
+  B.row("memory", "peak RSS of 1e7-point m:eval, input 80 MB", N, "segwise (above the loaded interpreter)", nil,
+    ("%.0f MiB = %.2fx the data"):format((peak - base) / mib, (peak - base) / data))
+  if B.python then
+    local file = B.path("mem_points.bin")
+    assert(B.sh(("%s gen %d 99 random 0 0.75 %s"):format(B.gsl, N, file)))
+    local script = ("import numpy as np\n" ..
+      "def hwm():\n  return int(open('/proc/self/status').read().split('VmHWM:')[1].split()[0]) * 1024\n" ..
+      "xp = np.linspace(0, 0.75, 65); fp = xp ** 2\nbase = hwm()\nx = np.fromfile('%s', dtype='<f8')\n" ..
+      "y = np.interp(x, xp, fp)\nprint('base %%d peak %%d' %% (base, hwm()))\n"):format(file)
+    local sfile = B.path("mem.py")
+    local f = assert(io.open(sfile, "w"))
+    f:write(script)
+    f:close()
+    local okp, outp = B.sh(B.python .. " " .. sfile)
+    assert(okp and field(outp, "peak"), "numpy memory child failed: " .. outp)
+    local pb, pp = field(outp, "base"), field(outp, "peak")
+    B.row("memory", "peak RSS of 1e7-point m:eval, input 80 MB", N, "numpy.interp (whole process)", nil,
+      ("%.0f MiB = %.2fx the data (interpreter and numpy %.0f MiB)"):format(pp / mib, pp / data, pb / mib))
+    B.ratio("memory_1e7_peak_vs_numpy", pp, peak)
+  end
+  B.note(("peak memory target (< 2x the data): segwise whole process %.2fx, above the interpreter %.2fx")
+    :format(peak / data, (peak - base) / data))
+end

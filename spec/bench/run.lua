@@ -1,0 +1,47 @@
+-- The side-by-side benchmark (`make bench`): each comparison runs in this
+-- one process, round after round (A B A B), median of B.rounds rounds; one
+-- line "bench NAME ratio X" per comparison (X = peer time / segwise time),
+-- then a markdown table, also written to spec/bench/RESULTS.md.
+-- Usage: lua5.4 spec/bench/run.lua [section ...]   (default: all sections)
+package.path = "./spec/bench/?.lua;" .. package.path
+local B = require "benchlib"
+
+local sections = { "eval", "memory", "sweep", "ladder", "fit" }
+local chosen = {}
+if #arg > 0 then
+  for _, s in ipairs(arg) do chosen[s] = true end
+else
+  for _, s in ipairs(sections) do chosen[s] = true end
+end
+
+local started = os.time()
+B.setup()
+local ok, err = xpcall(function()
+  for _, s in ipairs(sections) do
+    if chosen[s] then
+      local t0 = os.time()
+      require(s == "eval" and "eval" or s)(B)
+      io.stderr:write(("bench: section %s took %d s\n"):format(s, os.time() - t0))
+    end
+  end
+end, debug.traceback)
+B.cleanup()
+if not ok then
+  io.stderr:write("bench failed: " .. tostring(err) .. "\n")
+  os.exit(1)
+end
+
+local machine = B.machine()
+local _, gslv = B.sh("pkg-config --modversion gsl")
+machine.gsl = gslv:gsub("%s+$", "")
+local date = os.date("!%Y-%m-%d %H:%M UTC")
+local md = B.markdown(date, machine)
+print()
+io.write(md)
+B.note(("whole run: %d s"):format(os.time() - started))
+if #arg == 0 then
+  local f = assert(io.open("spec/bench/RESULTS.md", "w"))
+  f:write(md)
+  f:close()
+  print("written to spec/bench/RESULTS.md")
+end
