@@ -506,6 +506,8 @@ static int l_info(lua_State *L)
       setnum(L, "pmax", d->pmax);
       lua_pushstring(L, d->x_is_i ? "i" : "v"); lua_setfield(L, -2, "x");
       lua_pushinteger(L, (lua_Integer)d->model.nseg); lua_setfield(L, -2, "nseg");
+      setnum(L, "lo", d->model.x[0]); /* the model's knot range, for range warnings */
+      setnum(L, "hi", d->model.x[d->model.nseg]);
     } else setnum(L, "value", e->value);
     lua_rawseti(L, -2, (lua_Integer)k + 1);
   }

@@ -165,7 +165,19 @@ return function(sw, core)
   end
 
   ---------------------------------------------------------------- solving
-  local function finish_op(self, op, info)
+  -- Devices operating beyond their model's knots run on an extrapolated
+  -- segment: the model was not fitted there, so say so.
+  local function range_warning(e, op)
+    local x = e.x == "i" and op.i[e.name] or op.vd[e.name]
+    if x == nil then return nil end
+    local slack = 1e-9 * math.max(math.abs(e.lo), math.abs(e.hi), 1e-300)
+    if x < e.lo - slack or x > e.hi + slack then
+      return ("%s operates at %s = %s, outside its model's knots [%s, %s]: the model is extrapolated there, so refit over a range that covers this point"):format(
+        e.name, e.x, fmt(x), fmt(e.lo), fmt(e.hi))
+    end
+  end
+
+  local function finish_op(self, op, info, elements)
     op = setmetatable(op, Op)
     setmetatable(op.v, by_string)
     op.devices = { table.unpack(self._devices) }
@@ -174,10 +186,12 @@ return function(sw, core)
     if info and info.nfound and info.nfound > 1 then
       op.warnings[#op.warnings + 1] = ("%d operating points exist; this is one of them (net:solve_all() lists every one)"):format(info.nfound)
     end
-    local elements = self:info().elements
-    for _, e in ipairs(elements) do
-      if e.kind == "element" and e.pmax > 0 and math.abs(op.p[e.name]) > e.pmax then
-        op.warnings[#op.warnings + 1] = ("%s dissipates %s W, above its pmax rating of %s W: as the README cautions, a device driven beyond its rating leaves the range its model describes and may be damaged, so this operating point cannot be trusted"):format(e.name, fmt(math.abs(op.p[e.name])), fmt(e.pmax))
+    for _, e in ipairs(elements or self:info().elements) do
+      if e.kind == "element" then
+        if e.pmax > 0 and math.abs(op.p[e.name]) > e.pmax then
+          op.warnings[#op.warnings + 1] = ("%s dissipates %s W, above its pmax rating of %s W: as the README cautions, a device driven beyond its rating leaves the range its model describes and may be damaged, so this operating point cannot be trusted"):format(e.name, fmt(math.abs(op.p[e.name])), fmt(e.pmax))
+        end
+        op.warnings[#op.warnings + 1] = range_warning(e, op)
       end
     end
     return op
@@ -211,7 +225,8 @@ return function(sw, core)
   function Network:solve_all(opts)
     opts = check_opts("network:solve_all", opts, { max_states = "number" })
     local list = call("network:solve_all", self._c.solve_all, self._c, opts.max_states)
-    for k, op in ipairs(list) do list[k] = finish_op(self, op, { method = "enumerate" }) end
+    local elements = self:info().elements
+    for k, op in ipairs(list) do list[k] = finish_op(self, op, { method = "enumerate" }, elements) end
     return list
   end
 
@@ -219,7 +234,8 @@ return function(sw, core)
     name = name_arg("network:sweep", "name", name)
     opts = check_opts("network:sweep", opts, { start = "table", max_states = "number" })
     local rows = call("network:sweep", self._c.sweep, self._c, name, values, opts.start, opts.max_states)
-    for k, op in ipairs(rows) do rows[k] = finish_op(self, op, { method = "sweep" }) end
+    local elements = self:info().elements
+    for k, op in ipairs(rows) do rows[k] = finish_op(self, op, { method = "sweep" }, elements) end
     return rows
   end
 
@@ -296,8 +312,9 @@ return function(sw, core)
     local out = { runs = list, min = { v = {}, i = {}, p = {} }, max = { v = {}, i = {}, p = {} },
                   mean = { v = {}, i = {}, p = {} }, sd = { v = {}, i = {}, p = {} } }
     local s1, s2 = { v = {}, i = {}, p = {} }, { v = {}, i = {}, p = {} }
+    local elements = self:info().elements
     for k, op in ipairs(list) do
-      list[k] = finish_op(self, op, { method = "montecarlo" })
+      list[k] = finish_op(self, op, { method = "montecarlo" }, elements)
       for name, v in pairs(op.vd) do
         for key, val in pairs { v = v, i = op.i[name], p = op.p[name] } do
           if out.min[key][name] == nil or val < out.min[key][name] then out.min[key][name] = val end

@@ -1,0 +1,32 @@
+-- Warnings an operating point carries: a device outside its model's knots.
+local sw = require "segwise"
+
+describe("segwise.network warnings", function()
+  local function circuit(r)
+    local m = sw.pwl { x = { 0.6, 0.7, 0.8 }, y = { 0, 0.01, 0.05 } }
+    local net = sw.network()
+    net:vsource("VS", "in", "0", 5)
+    net:resistor("R1", "in", "a", r)
+    net:element("D1", "a", "0", m)
+    return net
+  end
+
+  it("warns when a device runs on an extrapolated segment", function()
+    -- Ohm's law by hand: on the last segment (slope 0.4 S from 0.7 V) with
+    -- 10 ohm, i = (5 - v)/10 = 0.01 + 0.4 (v - 0.7) gives v = 1.54 V > 0.8 V.
+    local op = circuit(10):solve()
+    assert.is.near(1.54, op.vd.D1, 1e-12)
+    local found = false
+    for _, w in ipairs(op.warnings) do
+      if w:match("D1 operates at v = 1.54, outside its model's knots") then found = true end
+    end
+    assert.is_true(found)
+  end)
+
+  it("stays quiet inside the knots, also along a sweep", function()
+    local net = circuit(470)
+    assert.are.equal(0, #net:solve().warnings)
+    local rows = net:sweep("VS", { 4, 5, 6 })
+    for _, row in ipairs(rows) do assert.are.equal(0, #row.warnings) end
+  end)
+end)
