@@ -265,12 +265,12 @@ static int validate(const sw_curve *c, const sw_fit_opts *o, sw_err *err)
     if (!o->has_at) return sw_err_set(err, SW_EINVAL, "criterion 'tangent' needs at (the operating point)");
     if (!(o->at >= o->lo && o->at <= o->hi))
       return sw_err_set(err, SW_EINVAL, "at (%g) must lie in the range [%g, %g]", o->at, o->lo, o->hi);
-    if (o->tol > 0 || o->segments != 1)
-      return sw_err_set(err, SW_EINVAL, "criterion 'tangent' gives one segment (no segments > 1, no tol)");
     if (o->knots == SW_KNOTS_OPTIMAL || o->knots == SW_KNOTS_CURVATURE ||
         o->knots == SW_KNOTS_GEOMETRIC || o->knots == SW_KNOTS_LIST)
       return sw_err_set(err, SW_EINVAL, "knots have no meaning for criterion 'tangent' (one "
                         "segment at the operating point)");
+    if (o->tol > 0 || o->segments != 1)
+      return sw_err_set(err, SW_EINVAL, "criterion 'tangent' gives one segment (no segments > 1, no tol)");
   }
   if (o->criterion != SW_FIT_MINIMAX && o->criterion != SW_FIT_LSQ &&
       (o->nthrough || o->has_slope_first || o->has_slope_last || o->monotone))

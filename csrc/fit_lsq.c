@@ -46,6 +46,7 @@ static int solve_dense(const double *D, const double *E, const double *r, size_t
   gsl_vector *b = NULL, *xv = NULL;
   gsl_permutation *P = NULL;
   int sg, st = SW_OK, gs;
+  double cmax = 0;
   if (N > DENSE_LIMIT)
     return sw_err_set(err, SW_EINVAL, "constrained least squares with %zu unknowns is not "
                       "supported yet (limit %d)", N, DENSE_LIMIT);
@@ -82,6 +83,18 @@ static int solve_dense(const double *D, const double *E, const double *r, size_t
     c[i] = gsl_vector_get(xv, i);
     if (!sw_isfinite(c[i])) {
       st = sw_err_set(err, SW_ENOSOL, "the constraints cannot be met together (singular system)");
+      goto done;
+    }
+  }
+  /* a dependent or contradictory set leaves LU a meaningless answer: recheck */
+  for (i = 0; i < nc; i++)
+    if (fabs(c[i]) > cmax) cmax = fabs(c[i]);
+  for (i = 0; i < m; i++) {
+    size_t j = rows[i].j;
+    double v = rows[i].cj * c[j] + (j + 1 < nc ? rows[i].cj1 * c[j + 1] : 0);
+    if (fabs(v - rows[i].g) > 1e-8 * (fabs(rows[i].g) + cmax) + 1e-300) {
+      st = sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
+                      "be met together");
       goto done;
     }
   }
