@@ -22,7 +22,8 @@ static void os_error(int e, char *dst, size_t cap)
   if (e == 0 || strerror_r(e, dst, cap) != 0) snprintf(dst, cap, "error %d", e);
 }
 
-/* A unit goes on a comment line: refuse line breaks and control bytes. */
+/* A unit goes on a comment line: refuse line breaks and control bytes
+ * (a tab is fine). */
 static int check_unit(const char *u, const char *which, sw_err *err)
 {
   size_t i;
@@ -30,7 +31,7 @@ static int check_unit(const char *u, const char *which, sw_err *err)
   if (strlen(u) >= SW_UNIT_MAX)
     return sw_err_set(err, SW_EINVAL, "%s unit is longer than %d bytes", which, SW_UNIT_MAX - 1);
   for (i = 0; u[i]; i++)
-    if ((unsigned char)u[i] < 0x20 || u[i] == 0x7f)
+    if (((unsigned char)u[i] < 0x20 && u[i] != '\t') || u[i] == 0x7f)
       return sw_err_set(err, SW_EINVAL, "%s unit contains a control character (byte %zu)", which, i + 1);
   return SW_OK;
 }
@@ -156,7 +157,9 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
           size_t ul = (size_t)(ve - v);
           if (dst) {
             if (ul >= SW_UNIT_MAX) ul = SW_UNIT_MAX - 1;
-            memcpy(dst, v, ul);
+            size_t i;
+            for (i = 0; i < ul; i++) /* a stray CR must not reach a later save */
+              dst[i] = ((unsigned char)v[i] < 0x20 && v[i] != '\t') ? ' ' : v[i];
             dst[ul] = '\0';
           }
         }

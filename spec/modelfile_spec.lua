@@ -107,6 +107,20 @@ describe("segwise.pwl.load and model:save", function()
     end)
   end)
 
+  describe("units", function()
+    it("keep tabs and spaces inside; a stray CR in a file does not block a later save", function()
+      local m = sw.pwl { x = { 0, 1 }, y = { 0, 1 } }
+      local path = dir .. "/units.csv"
+      m:save(path, { x_unit = "m A", y_unit = "k\tV" })
+      local _, xu, yu = sw.pwl.load(path)
+      assert.are.equal("m A", xu)
+      assert.are.equal("k\tV", yu)
+      local m2, xu2 = sw.pwl.load(write("cr.csv", "# x unit: a\rb\nx,y_left,y_right\n0,0,0\n1,1,1\n"))
+      assert.are.equal("a b", xu2)
+      m2:save(path, { x_unit = xu2 })
+    end)
+  end)
+
   describe("file layout", function()
     it("is a commented CSV of x, y_left, y_right, slope_right", function()
       local m = sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 },
