@@ -22,7 +22,7 @@ for _, scheme in ipairs { "uniform", "geometric", "curvature", "optimal" } do
                       model = sw.fit(diode, { segments = SEGMENTS, knots = scheme }) }
 end
 -- Tolerance-driven: the fewest segments whose error stays within TOL.
-fits[#fits + 1] = { name = ("within %s"):format(sw.si(TOL, "A")), scheme = "tol",
+fits[#fits + 1] = { name = ("within %s"):format(sw.si(TOL, "A")), scheme = "within_tol",
                     model = sw.fit(diode, { tol = TOL }) }
 
 local xs = diode:points()
