@@ -37,7 +37,7 @@ say("an absolute fit spends nothing on microamps; fit with error = \"rel\" if th
 
 local fit_path, err_path = outdir .. "/breakpoints_fits.svg", outdir .. "/breakpoints_errors.svg"
 local axes = { x = { label = "diode voltage", unit = "V" }, y = { label = "diode current", unit = "A" } }
-local spec = sw.plot.fit_spec(diode, fits, axes)
+local spec = sw.plot.fit_spec(diode, fits, { x = axes.x, y = axes.y, curve_label = "measured" })
 spec.title = "Schottky diode: measured points and five PWL models"
 sw.plot.svg(fit_path, spec)
 local espec = sw.plot.error_spec(diode, fits, { x = axes.x, y = { label = "model - measured", unit = "A" } })

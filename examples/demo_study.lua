@@ -104,7 +104,7 @@ local function plot(name, spec)
   plots[#plots + 1] = path
 end
 local V = { label = "diode voltage", unit = "V" }
-local fspec = sw.plot.fit_spec(diode, fits, { x = V, y = { label = "diode current", unit = "A" } })
+local fspec = sw.plot.fit_spec(diode, fits, { x = V, y = { label = "diode current", unit = "A" }, curve_label = "measured" })
 fspec.title = "Rectifier diode: measured points and PWL models"
 plot("fits.svg", fspec)
 local espec = sw.plot.error_spec(diode, fits, { x = V, y = { label = "model - measured", unit = "A" } })
