@@ -59,7 +59,7 @@ say(sw.report.table(sweep, {
   { name = "P clamp", key = "p_dz", unit = "W" },
   { name = "of rating", key = "share", fmt = "%.0f", unit = "%" },
   { name = "rating", key = "rated" },
-}))
+}, { units = "cells" }))
 say("CAUTION: a PWL model is an approximation of the part.  Check the real clamp's")
 say("datasheet ratings (continuous and surge power, clamping voltage at the fault current,")
 say("temperature derating); a clamp driven past its rating may fail short or open.  For mains")

@@ -59,7 +59,7 @@ for k = 0, 6 do
   local ex = net:solve { exact = true }
   local i = op.i.L1
   rows[#rows + 1] = {
-    vb = vb, i = i, i_exact = ex.i.L1, dev = (i - ex.i.L1) / ex.i.L1 * 100,
+    vb = vb, i = i, i_exact = ex.i.L1, dev = math.abs(i - ex.i.L1) < 5e-5 * ex.i.L1 and 0 or (i - ex.i.L1) / ex.i.L1 * 100,
     v_led = op.vd.L1, p_led = op.p.L1, p_r = op.p.RB, eff = NLED * op.p.L1 / (vb * i) * 100,
   }
 end

@@ -65,7 +65,7 @@ say(sw.report.table(rows, {
   { name = "P battery", key = "p_bat", unit = "W" },
   { name = "P diode", key = "p_db", unit = "W" },
   { name = "battery", key = "state" },
-}))
+}, { units = "cells" }))
 say("At night the blocking diode holds the battery's reverse current to its leakage;")
 say("in deep shade (10 W/m^2 here) the shunt takes the whole photocurrent before the")
 say("module voltage reaches the battery, and nothing charges.")
