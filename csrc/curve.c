@@ -42,7 +42,9 @@ int sw_curve_samples(sw_curve *c, const double *x, const double *y, size_t n,
   if (!rows) return SW_ENOMEM;
   for (i = 0; i < n; i++) { rows[i].x = x[i]; rows[i].y = y[i]; rows[i].idx = i; }
   if (sort) {
-    qsort(rows, n, sizeof *rows, cmp_rows);
+    int sorted = 1; /* measured sweeps usually arrive sorted: skip the sort */
+    for (i = 1; i < n && sorted; i++) sorted = rows[i].x >= rows[i - 1].x;
+    if (!sorted) qsort(rows, n, sizeof *rows, cmp_rows);
   } else {
     for (i = 1; i < n; i++)
       if (rows[i].x < rows[i - 1].x) {

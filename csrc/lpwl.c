@@ -72,7 +72,8 @@ static int l_pwl_segments(lua_State *L)
   return 1;
 }
 
-/* Evaluates a number, a table or an array at index 2. */
+/* Evaluates a number, a table or an array at index 2; m:eval(x, out) writes
+ * into the array out (which may be x itself) and returns it. */
 static int l_eval(lua_State *L)
 {
   lsw_model *m = lsw_checkmodel(L, 1);
@@ -84,14 +85,28 @@ static int l_eval(lua_State *L)
     return 1;
   } else {
     size_t n;
-    lsw_array *in = lsw_toarray(L, 2);
+    lsw_array *in = lsw_toarray(L, 2), *out = NULL;
     double *x, *y;
+    if (!lua_isnoneornil(L, 3)) {
+      out = lsw_toarray(L, 3);
+      if (!out) return luaL_error(L, "segwise.model:eval: out must be a segwise array (got %s)", luaL_typename(L, 3));
+      if (out->freed) return luaL_error(L, "segwise.model:eval: out used after free()");
+    }
     if (in && !in->freed) { /* straight from the array: no copy */
-      lsw_array *out = lsw_newarray(L, in->n);
+      if (out && out->n < in->n)
+        return luaL_error(L, "segwise.model:eval: out has %d values but x has %d", (int)out->n, (int)in->n);
+      if (!out) out = lsw_newarray(L, in->n);
+      else lua_pushvalue(L, 3);
       if (sw_pwl_eval_many(&m->m, in->data, out->data, in->n, &err)) return lsw_raise(L, "model:eval", &err);
       return 1;
     }
     x = lsw_checkdoubles(L, 2, "x", &n, 1);
+    if (out) {
+      if (out->n < n) return luaL_error(L, "segwise.model:eval: out has %d values but x has %d", (int)out->n, (int)n);
+      if (sw_pwl_eval_many(&m->m, x, out->data, n, &err)) return lsw_raise(L, "model:eval", &err);
+      lua_pushvalue(L, 3);
+      return 1;
+    }
     y = lsw_scratch(L, n);
     if (sw_pwl_eval_many(&m->m, x, y, n, &err)) return lsw_raise(L, "model:eval", &err);
     lsw_pushdoubles(L, y, n);

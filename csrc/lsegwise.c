@@ -23,7 +23,7 @@ LSW_EXPORT int luaopen_segwise_core(lua_State *L)
   lsw_open_read(L);
   lsw_open_fit(L);
   lsw_open_net(L);
-  lua_pushliteral(L, "0.1.0");
+  lua_pushliteral(L, SW_VERSION);
   lua_setfield(L, -2, "version");
   return 1;
 }

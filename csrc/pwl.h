@@ -51,6 +51,7 @@ size_t sw_pwl_locate(const sw_pwl *m, double x);
 double sw_pwl_line(const sw_pwl *m, size_t k, double x);
 /* y(x) honouring the extension rule. */
 int sw_pwl_eval(const sw_pwl *m, double x, double *y, sw_err *err);
+/* y may be x itself: each x[i] is read before y[i] is written. */
 int sw_pwl_eval_many(const sw_pwl *m, const double *x, double *y, size_t n,
                      sw_err *err);
 /* dy/dx at x (the segment's slope; 0 outside the knots under HOLD). */

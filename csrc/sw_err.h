@@ -5,6 +5,9 @@
 
 #include <stddef.h>
 
+/* The one place the version lives (model files and the Lua module). */
+#define SW_VERSION "0.1.0"
+
 enum {
   SW_OK = 0,
   SW_EINVAL,    /* bad argument or data: the message names it */

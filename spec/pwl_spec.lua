@@ -206,3 +206,20 @@ describe("segwise.pwl", function()
     assert.is_nil(m:fit_info())
   end)
 end)
+
+describe("segwise.pwl eval into an array", function()
+  it("writes into out, in place too, and checks sizes", function()
+    local m = sw.pwl { x = { 0, 1, 2 }, y = { 0, 2, 3 } }
+    local x = sw.array { 0.5, 1.5, 3 }
+    local out = sw.array(3)
+    assert.are.equal(out, m:eval(x, out))
+    assert.are.same({ 1, 2.5, 4 }, out:totable())
+    assert.are.equal(x, m:eval(x, x)) -- in place
+    assert.are.same({ 1, 2.5, 4 }, x:totable())
+    assert.are.same({ 1, 2.5 }, m:eval({ 0.5, 1.5 }, sw.array(2)):totable())
+    local ok, msg = pcall(m.eval, m, sw.array(5), sw.array(2))
+    assert.is_false(ok); assert.matches("out has 2 values but x has 5", msg)
+    ok, msg = pcall(m.eval, m, x, { 1, 2, 3 })
+    assert.is_false(ok); assert.matches("out must be a segwise array", msg)
+  end)
+end)
