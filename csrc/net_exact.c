@@ -24,24 +24,35 @@ typedef struct exact_ctx {
 
 static double clampbig(double x) { return sw_isfinite(x) ? x : BIG; }
 
-/* Law value and slope of device j at x. */
+/* Law value and slope of device j at x: 0 when evaluated, 1 when x lies
+ * outside the law's domain, -1 when a callback failed.  Outside the domain
+ * the law continues on its tangent at the nearest end, so Newton's steps stay
+ * sane; a final point outside (beyond rounding) is reported by the caller. */
 static int law(exact_ctx *c, size_t j, double x, double *y, double *dy)
 {
   const sw_net_dev *d = &c->net->dev[j];
   const sw_curve *cv = c->curves ? c->curves[j] : NULL;
   sw_err e;
+  int outside = 0;
   if (cv) {
-    if (sw_curve_eval(cv, x, y, &e) || sw_curve_deriv(cv, x, dy, &e)) {
+    double xe = x, slack = sw_curve_bounded(cv) ? 1e-9 * (cv->hi - cv->lo) : 0;
+    /* v(i) of a diode is undefined at its lower end i = -is itself */
+    int open_lo = cv->kind == SW_CURVE_DIODE && cv->x_is_i;
+    double lo = open_lo ? cv->lo + 1e-3 * fabs(cv->lo) : cv->lo;
+    if (x < lo) { xe = lo; outside = x < cv->lo - slack; }
+    if (x > cv->hi) { xe = cv->hi; outside = x > cv->hi + slack; }
+    if (sw_curve_eval(cv, xe, y, &e) || sw_curve_deriv(cv, xe, dy, &e)) {
       if (e.code == SW_ECALLBACK) { c->failed = 1; *c->err = e; return -1; }
-      *y = BIG; *dy = 0; /* outside the law's domain */
-      return 0;
+      *y = BIG; *dy = 0;
+      return 1;
     }
+    *y += *dy * (x - xe);
   } else if (sw_pwl_eval(&d->model, x, y, &e) || sw_pwl_slope_at(&d->model, x, dy, &e)) {
     *y = BIG; *dy = 0;
-    return 0;
+    return 1;
   }
   *y = clampbig(*y); *dy = clampbig(*dy);
-  return 0;
+  return outside;
 }
 
 static int fdf(const gsl_vector *y, void *params, gsl_vector *f, gsl_matrix *J)
@@ -60,7 +71,7 @@ static int fdf(const gsl_vector *y, void *params, gsl_vector *f, gsl_matrix *J)
     const sw_net_el *e = &net->el[d->el];
     double v = (e->na ? gsl_vector_get(y, e->na - 1) : 0) - (e->nb ? gsl_vector_get(y, e->nb - 1) : 0);
     double i = gsl_vector_get(y, d->col), x = d->x_is_i ? i : v, yy = d->x_is_i ? v : i, fx, dfx;
-    if (law(c, k, x, &fx, &dfx)) return GSL_EBADFUNC;
+    if (law(c, k, x, &fx, &dfx) < 0) return GSL_EBADFUNC;
     if (f) gsl_vector_set(f, d->col, clampbig(yy - fx));
     if (J) {
       for (r = 0; r < N; r++) gsl_matrix_set(J, d->col, r, 0);
@@ -83,8 +94,9 @@ static int df_only(const gsl_vector *y, void *p, gsl_matrix *J) { return fdf(y, 
 
 /* A step-size test alone also stops at a minimum of |F| that is not a
  * root (backtracking shrinks the step to nothing): require every row's
- * residual to be small against the size of its terms. */
-static int residual_ok(exact_ctx *c, const gsl_vector *y)
+ * residual to be small against the size of its terms.  *outside gets the
+ * device index + 1 when a device ended outside its law's domain. */
+static int residual_ok(exact_ctx *c, const gsl_vector *y, size_t *outside, double *xout)
 {
   const sw_net *net = c->net;
   size_t N = net->nunk, r, k;
@@ -101,7 +113,8 @@ static int residual_ok(exact_ctx *c, const gsl_vector *y)
     const sw_net_el *e = &net->el[d->el];
     double v = (e->na ? gsl_vector_get(y, e->na - 1) : 0) - (e->nb ? gsl_vector_get(y, e->nb - 1) : 0);
     double i = gsl_vector_get(y, d->col), fx, dfx, yy = d->x_is_i ? v : i;
-    if (law(c, k, d->x_is_i ? i : v, &fx, &dfx)) return 0;
+    int lw = law(c, k, d->x_is_i ? i : v, &fx, &dfx);
+    if (lw) { if (lw > 0) { *outside = k + 1; *xout = d->x_is_i ? i : v; } return 0; }
     if (!(fabs(yy - fx) <= 1e-9 * (fabs(yy) + fabs(fx)) + 1e-300)) return 0;
   }
   return 1;
@@ -148,9 +161,20 @@ int sw_net_exact(const sw_net *net, const sw_curve *const *curves,
     rc = sw_err_set(err, SW_ENUMERIC, "exact: Newton's method did not converge in %zu iterations", max_iter);
     goto done;
   }
-  if (!residual_ok(&c, s->x)) {
-    rc = c.failed ? SW_ECALLBACK : sw_err_set(err, SW_ENUMERIC, "exact: Newton's method stalled after %zu iterations where the exact laws are not met (no nearby solution of the exact circuit?)", it);
-    goto done;
+  {
+    size_t outside = 0;
+    double xout = 0;
+    if (!residual_ok(&c, s->x, &outside, &xout)) {
+      if (c.failed) rc = SW_ECALLBACK;
+      else if (outside) {
+        const sw_net_dev *d = &net->dev[outside - 1];
+        const sw_curve *cv = curves ? curves[outside - 1] : NULL;
+        rc = sw_err_set(err, SW_ENUMERIC, "exact: Newton's method ended at %s = %g, outside the domain of %s's exact law [%g, %g]: the exact circuit has no solution there (extend the curve's range)",
+                        d->x_is_i ? "i" : "v", xout, net->el[d->el].name, cv ? cv->lo : d->model.x[0], cv ? cv->hi : d->model.x[d->model.nseg]);
+      } else
+        rc = sw_err_set(err, SW_ENUMERIC, "exact: Newton's method stalled after %zu iterations where the exact laws are not met (no nearby solution of the exact circuit?)", it);
+      goto done;
+    }
   }
   for (k = 0; k < net->ndev; k++) {
     const sw_net_dev *d = &net->dev[k];

@@ -30,3 +30,24 @@ describe("segwise.network warnings", function()
     for _, row in ipairs(rows) do assert.are.equal(0, #row.warnings) end
   end)
 end)
+
+describe("segwise.network exact solve at a sampled curve's edge", function()
+  it("names the device and its domain instead of returning a huge number", function()
+    -- A measured curve known only on [0, 1] V; 2 V reversed across it drives
+    -- the exact circuit (Kirchhoff: v = -2 - 10 i) outside what was measured.
+    local c = sw.curve.samples({ 0, 0.5, 0.7, 1 }, { 0, 1e-4, 0.01, 0.2 })
+    local m = sw.pwl { x = { 0, 0.5, 0.7, 1 }, y = { 0, 1e-4, 0.01, 0.2 } }
+    local net = sw.network()
+    net:vsource("VS", "a", "0", -2)
+    net:element("D1", "a", "b", m, { exact = c })
+    net:resistor("RL", "b", "0", 10)
+    local ok, msg = pcall(net.solve, net, { exact = true })
+    assert.is_false(ok)
+    assert.matches("outside the domain of D1's exact law %[0, 1%]", msg)
+    -- and the network stays usable: forward drive solves exactly
+    net:set("VS", 0.8)
+    local ex = net:solve { exact = true }
+    -- Kirchhoff on the loop: 0.8 = v + 10 i
+    assert.is.near(0.8, ex.vd.D1 + 10 * ex.i.D1, 1e-12)
+  end)
+end)
