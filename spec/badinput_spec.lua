@@ -1,0 +1,315 @@
+-- The bad-input matrix: every case must raise a Lua error (never crash the
+-- host) whose message starts "segwise." and names the culprit: the argument,
+-- option, index, element, node or file line at fault.  Cases are grouped by
+-- area in tables of { what, function, pattern naming the culprit }.
+local sw = require "segwise"
+
+local NAN, INF = 0 / 0, math.huge
+
+-- Scratch files for the reader cases, removed at the end.
+local tmpdir = os.tmpname()
+os.remove(tmpdir)
+assert(os.execute("mkdir -p '" .. tmpdir .. "'"))
+local function file(name, text)
+  local path = tmpdir .. "/" .. name
+  local f = assert(io.open(path, "wb"))
+  f:write(text)
+  f:close()
+  return path
+end
+
+local function model() return sw.pwl { x = { 0, 1, 2 }, y = { 0, 1, 3 } } end
+local function diode() return sw.curve.diode { is = 1e-14, n = 1, rs = 0.5 } end
+local function samples() return sw.curve.samples({ 0, 1, 2, 3 }, { 0, 1, 4, 9 }) end
+local function freed(obj) obj:free(); return obj end
+
+-- A small circuit: 5 V, 1 kohm and a diode-like element.
+local function circuit()
+  local net = sw.network()
+  net:vsource("V1", "in", "0", 5)
+  net:resistor("R1", "in", "a", 1000)
+  net:element("D1", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } })
+  return net
+end
+
+local function run_cases(cases)
+  for _, case in ipairs(cases) do
+    it(case[1], function()
+      local t0 = os.clock()
+      local ok, msg = pcall(case[2])
+      assert.is_false(ok, "expected an error for: " .. case[1])
+      assert.is_string(msg)
+      -- the user's own error (a callback that raises) and Lua's own C-stack
+      -- limit pass through as they are; everything else carries the prefix
+      if not case.raw then assert.matches("segwise%.", msg) end
+      assert.matches(case[3], msg)
+      -- every refusal is fast: absurd sizes are rejected before any work
+      assert.is_true(os.clock() - t0 < 2, "took too long: " .. case[1])
+    end)
+  end
+end
+
+describe("segwise bad input", function()
+  teardown(function() os.execute("rm -rf '" .. tmpdir .. "'") end)
+
+  describe("sw.curve.samples", function()
+    run_cases {
+      { "xs nil", function() sw.curve.samples(nil, { 1, 2 }) end, "xs must be a table" },
+      { "xs a string", function() sw.curve.samples("1,2", { 1, 2 }) end, "xs must be a table" },
+      { "ys nil", function() sw.curve.samples({ 1, 2 }, nil) end, "ys must be a table" },
+      { "NaN in xs", function() sw.curve.samples({ 0, NAN, 2 }, { 1, 2, 3 }) end, "xs%[2%]" },
+      { "Inf in ys", function() sw.curve.samples({ 0, 1, 2 }, { 1, 2, INF }) end, "ys%[3%]" },
+      { "-Inf in xs", function() sw.curve.samples({ -INF, 1, 2 }, { 1, 2, 3 }) end, "xs%[1%]" },
+      { "a text element", function() sw.curve.samples({ 0, 1, "two" }, { 1, 2, 3 }) end, "xs%[3%]" },
+      { "mismatched lengths", function() sw.curve.samples({ 0, 1, 2 }, { 1, 2 }) end, "3.*2" },
+      { "one element", function() sw.curve.samples({ 1 }, { 1 }) end, "at least 2" },
+      { "empty tables", function() sw.curve.samples({}, {}) end, "at least 2" },
+      { "unsorted without sort", function() sw.curve.samples({ 0, 2, 1 }, { 0, 1, 2 }) end, "x%[3%]" },
+      { "repeated x", function() sw.curve.samples({ 0, 1, 1, 2 }, { 0, 1, 2, 3 }) end, "x%[2%] and x%[3%]" },
+      { "options not a table", function() sw.curve.samples({ 0, 1 }, { 0, 1 }, "sort") end, "options must be a table" },
+      { "unknown option", function() sw.curve.samples({ 0, 1 }, { 0, 1 }, { sorted = true }) end, "unknown option 'sorted'" },
+      { "duplicates not a choice", function() sw.curve.samples({ 0, 1 }, { 0, 1 }, { duplicates = "max" }) end, "option duplicates" },
+    }
+  end)
+
+  describe("sw.curve laws and functions", function()
+    run_cases {
+      { "diode without is", function() sw.curve.diode { n = 1 } end, "is" },
+      { "diode negative is", function() sw.curve.diode { is = -1e-14 } end, "is must be" },
+      { "diode NaN ideality", function() sw.curve.diode { is = 1e-14, n = NAN } end, "n" },
+      { "diode negative rs", function() sw.curve.diode { is = 1e-14, rs = -1 } end, "rs" },
+      { "diode vt and temp", function() sw.curve.diode { is = 1e-14, vt = 0.025, temp = 300 } end, "vt or temp" },
+      { "diode x not v or i", function() sw.curve.diode { is = 1e-14, x = "q" } end, "option x" },
+      { "diode opts not a table", function() sw.curve.diode(1e-14) end, "options must be a table" },
+      { "power k = 0", function() sw.curve.power { k = 0, n = 2 } end, "k" },
+      { "power negative n", function() sw.curve.power { k = 1, n = -1 } end, "n must be" },
+      { "power n a string", function() sw.curve.power { k = 1, n = "2" } end, "option n" },
+      { "fn f not a function", function() sw.curve.fn(42, { lo = 0, hi = 1 }) end, "f must be a function" },
+      { "fn lo >= hi", function() sw.curve.fn(math.sin, { lo = 1, hi = 1 }) end, "lo" },
+      { "fn missing hi", function() sw.curve.fn(math.sin, { lo = 0 }) end, "hi" },
+      { "fn lo = -Inf", function() sw.curve.fn(math.sin, { lo = -INF, hi = 1 }) end, "lo" },
+      { "fn hi NaN", function() sw.curve.fn(math.sin, { lo = 0, hi = NAN }) end, "hi" },
+    }
+  end)
+
+  describe("curve evaluation and callbacks", function()
+    run_cases {
+      { "x outside the samples' domain", function() samples():eval(7) end, "7" },
+      { "x a string", function() samples():eval("one") end, "x must be" },
+      { "x NaN", function() samples():eval(NAN) end, "x" },
+      { "deriv outside the domain", function() samples():deriv(-1) end, "%-1" },
+      { "v(i) diode below -is", function() sw.curve.diode { is = 1e-12, x = "i" }:eval(-1) end, "%-1" },
+      { "callback raises", function()
+        sw.curve.fn(function() error("meter offline") end, { lo = 0, hi = 1 }):eval(0.5)
+      end, "meter offline", raw = true },
+      { "callback returns nil", function()
+        sw.curve.fn(function() return nil end, { lo = 0, hi = 1 }):eval(0.5)
+      end, "nil" },
+      { "callback returns a string", function()
+        sw.curve.fn(function() return "x" end, { lo = 0, hi = 1 }):eval(0.5)
+      end, "string" },
+      { "callback returns NaN", function()
+        sw.curve.fn(function() return NAN end, { lo = 0, hi = 1 }):eval(0.5)
+      end, "NaN" },
+      { "callback recursing without end", function()
+        local c
+        c = sw.curve.fn(function(x) return c(x) end, { lo = 0, hi = 1 })
+        c(0.5)
+      end, "overflow", raw = true },
+      { "curve used after free", function() freed(samples()):eval(1) end, "free" },
+      { "freed curve's domain", function() freed(diode()):domain() end, "free" },
+    }
+
+    it("a callback may call segwise re-entrantly", function()
+      local inner = sw.pwl { x = { 0, 1 }, y = { 0, 2 } }
+      local c = sw.curve.fn(function(x) return inner(x) + samples()(x) end, { lo = 0, hi = 1 })
+      -- inner(0.5) = 1, samples at 0.5 = 0.5 (linear between samples)
+      assert.is.near(1.5, c(0.5), 1e-15)
+    end)
+  end)
+
+  describe("sw.pwl", function()
+    run_cases {
+      { "not a table", function() sw.pwl(5) end, "options must be a table" },
+      { "x missing", function() sw.pwl { y = { 1, 2 } } end, "x and y" },
+      { "mismatched lengths", function() sw.pwl { x = { 0, 1, 2 }, y = { 0, 1 } } end, "3.*2" },
+      { "one point", function() sw.pwl { x = { 0 }, y = { 0 } } end, "at least 2" },
+      { "empty", function() sw.pwl { x = {}, y = {} } end, "at least 2" },
+      { "repeated knot", function() sw.pwl { x = { 0, 1, 1 }, y = { 0, 1, 2 } } end, "x%[3%]" },
+      { "unsorted knots", function() sw.pwl { x = { 0, 2, 1 }, y = { 0, 1, 2 } } end, "x%[3%]" },
+      { "NaN ordinate", function() sw.pwl { x = { 0, 1 }, y = { NAN, 1 } } end, "y%[1%]" },
+      { "-Inf knot", function() sw.pwl { x = { -INF, 1 }, y = { 0, 1 } } end, "x%[1%]" },
+      { "extend not a choice", function() sw.pwl { x = { 0, 1 }, y = { 0, 1 }, extend = "wrap" } end, "option extend" },
+      { "segments: empty list", function() sw.pwl.segments {} end, "at least 1" },
+      { "segments: not joined", function()
+        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 }, { lo = 2, hi = 3, slope = 1, intercept = 0 } }
+      end, "join" },
+      { "segments: lo >= hi", function() sw.pwl.segments { { lo = 1, hi = 1, slope = 1, intercept = 0 } } end, "1" },
+      { "segments: NaN slope", function() sw.pwl.segments { { lo = 0, hi = 1, slope = NAN, intercept = 0 } } end, "slope" },
+      { "segments: entry not a table", function() sw.pwl.segments { 5 } end, "segment 1" },
+    }
+  end)
+
+  describe("model methods", function()
+    run_cases {
+      { "eval of a string", function() model():eval("a") end, "x must be" },
+      { "eval of a table with a string", function() model():eval { 1, "x" } end, "%[2%]" },
+      { "eval outside under extend = error", function()
+        sw.pwl { x = { 0, 1 }, y = { 0, 1 }, extend = "error" }(5)
+      end, "5" },
+      { "seg(0)", function() model():seg(0) end, "index 0" },
+      { "seg(99)", function() model():seg(99) end, "index 99" },
+      { "thevenin(3) of a 2-segment model", function() model():thevenin(3) end, "index 3" },
+      { "norton of a flat segment", function() sw.pwl { x = { 0, 1 }, y = { 1, 1 } }:norton(1) end, "1" },
+      { "inverse of a non-monotone model", function() sw.pwl { x = { 0, 1, 2 }, y = { 0, 1, 0 } }:inverse() end, "monoton" },
+      { "inverse of a discontinuous model", function()
+        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 }, { lo = 1, hi = 2, slope = 1, intercept = 5 } }:inverse()
+      end, "continuous" },
+      { "canonical of a discontinuous model", function()
+        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 }, { lo = 1, hi = 2, slope = 1, intercept = 5 } }:canonical()
+      end, "continuous" },
+      { "compare with a non-curve", function() model():compare(5) end, "#2.*curve" },
+      { "compare lo >= hi", function() model():compare(samples(), { lo = 2, hi = 1 }) end, "lo" },
+      { "compare outside the curve's domain", function() model():compare(samples(), { lo = -5, hi = 1 }) end, "domain" },
+      { "compare n = 0", function() model():compare(diode(), { lo = 0, hi = 0.7, n = 0 }) end, "n" },
+      { "compare n = -5", function() model():compare(diode(), { lo = 0, hi = 0.7, n = -5 }) end, "n" },
+      { "compare n = 1e12 fails fast", function() model():compare(diode(), { lo = 0, hi = 0.7, n = 1e12 }) end, "n" },
+      { "compare unknown option", function() model():compare(samples(), { points = 5 }) end, "unknown option 'points'" },
+      { "compare with a freed curve", function() model():compare(freed(samples())) end, "free" },
+      { "model used after free", function() freed(model())(1) end, "free" },
+      { "nseg after free", function() freed(model()):nseg() end, "free" },
+      { "inverse after free", function() freed(model()):inverse() end, "free" },
+    }
+
+    it("free is idempotent and __close works", function()
+      local m = model()
+      m:free()
+      m:free()
+      do local c <close> = samples() end
+      assert.matches("freed", tostring(m))
+    end)
+  end)
+
+  if sw.fit then
+    describe("sw.fit", function()
+      local function fn_curve(f) return sw.curve.fn(f, { lo = 0, hi = 1 }) end
+      run_cases {
+        { "curve not a curve", function() sw.fit(model(), { segments = 2 }) end, "curve must be" },
+        { "segments = 0", function() sw.fit(samples(), { segments = 0 }) end, "segments" },
+        { "segments negative", function() sw.fit(samples(), { segments = -3 }) end, "segments" },
+        { "segments fractional", function() sw.fit(samples(), { segments = 2.5 }) end, "segments" },
+        { "segments = 1e12 fails fast", function() sw.fit(diode(), { lo = 0, hi = 0.7, segments = 1e12 }) end, "segments" },
+        { "segments more than samples", function() sw.fit(samples(), { segments = 10 }) end, "segments" },
+        { "tol = 0", function() sw.fit(samples(), { tol = 0 }) end, "tol" },
+        { "tol NaN", function() sw.fit(samples(), { tol = NAN }) end, "tol" },
+        { "segments and tol", function() sw.fit(samples(), { segments = 2, tol = 0.1 }) end, "segments or tol" },
+        { "lo >= hi", function() sw.fit(samples(), { lo = 2, hi = 2 }) end, "lo" },
+        { "lo = -Inf", function() sw.fit(samples(), { lo = -INF }) end, "lo" },
+        { "range outside the domain", function() sw.fit(samples(), { lo = -1, hi = 2 }) end, "domain" },
+        { "unbounded law without a range", function() sw.fit(diode(), { segments = 3 }) end, "lo and hi" },
+        { "criterion not a choice", function() sw.fit(samples(), { criterion = "best" }) end, "option criterion" },
+        { "knots scheme unknown", function() sw.fit(samples(), { knots = "random" }) end, "knots" },
+        { "knot list unsorted", function() sw.fit(samples(), { knots = { 0, 2, 1, 3 } }) end, "knots%[3%]" },
+        { "knot outside the range", function() sw.fit(samples(), { knots = { 0, 5 } }) end, "knots%[2%]" },
+        { "knot NaN", function() sw.fit(samples(), { knots = { 0, NAN, 3 } }) end, "knots%[2%]" },
+        { "grid = 1", function() sw.fit(diode(), { lo = 0, hi = 0.7, grid = 1 }) end, "grid" },
+        { "unknown option", function() sw.fit(samples(), { segs = 2 }) end, "unknown option 'segs'" },
+        { "freed curve", function() sw.fit(freed(samples()), { segments = 2 }) end, "free" },
+        { "callback raises", function() sw.fit(fn_curve(function() error("probe lost") end), { segments = 2 }) end, "probe lost", raw = true },
+        { "callback returns nil", function() sw.fit(fn_curve(function() end), { segments = 2 }) end, "nil" },
+        { "callback returns NaN", function() sw.fit(fn_curve(function() return NAN end), { segments = 2 }) end, "NaN" },
+      }
+
+      it("a callback may run a fit re-entrantly", function()
+        local inner = sw.fit(samples(), { segments = 3 })
+        local c = fn_curve(function(x)
+          local m = sw.fit(samples(), { segments = 3 })
+          return m(x * 3) - inner(x * 3)
+        end)
+        -- both fits see the same data, so the difference is exactly 0
+        local m = sw.fit(c, { segments = 2, grid = 17 })
+        assert.is.near(0, m(0.5), 1e-12)
+      end)
+    end)
+  end
+
+  if sw.curve.read then
+    describe("sw.curve.read and model files", function()
+      local good = file("good.csv", "I_A,V_V\n0.001,0.6\n0.002,0.63\n0.004,0.66\n")
+      run_cases {
+        { "path nil", function() sw.curve.read(nil) end, "path must be a string" },
+        { "missing file", function() sw.curve.read(tmpdir .. "/nope.csv") end, "nope%.csv" },
+        { "a directory", function() sw.curve.read(tmpdir) end, tmpdir:gsub("%p", "%%%0") },
+        { "empty file", function() sw.curve.read(file("empty.csv", "")) end, "empty%.csv" },
+        { "ragged row", function() sw.curve.read(file("ragged.csv", "x,y\n1,2\n3\n4,5\n"), { x = 1, y = 2 }) end, "ragged%.csv:3" },
+        { "text in a number column", function() sw.curve.read(file("text.csv", "x,y\n1,2\n3,abc\n")) end, "text%.csv:3" },
+        { "missing header name", function() sw.curve.read(good, { x = "I_A", y = "V_mV" }) end, "V_mV" },
+        { "binary junk", function() sw.curve.read(file("junk.bin", "\0\1\2\255\254,\128\n\0\0")) end, "junk%.bin" },
+        { "column 0", function() sw.curve.read(good, { x = 0, y = 2 }) end, "0" },
+        { "column 9 of 2", function() sw.curve.read(good, { x = 1, y = 9 }) end, "9" },
+        { "column a float", function() sw.curve.read(good, { x = 1.5 }) end, "x must be" },
+        { "unknown option", function() sw.curve.read(good, { column = 1 }) end, "unknown option 'column'" },
+        { "scale not a number", function() sw.curve.read(good, { scale = { x = "milli" } }) end, "option x" },
+        { "repeated x in a file", function() sw.curve.read(file("rep.csv", "1,2\n1,3\n2,4\n")) end, "rep%.csv" },
+        { "model file missing", function() sw.pwl.load(tmpdir .. "/none.model") end, "none%.model" },
+        { "model file malformed", function() sw.pwl.load(file("bad.model", "# segwise model\n0,1\nzz,2,3\n")) end, "bad%.model" },
+      }
+    end)
+  end
+
+  if sw.network then
+    describe("sw.network", function()
+      run_cases {
+        { "negative resistance", function() sw.network():resistor("R1", "a", "0", -5) end, "R1" },
+        { "zero resistance", function() sw.network():resistor("R1", "a", "0", 0) end, "R1" },
+        { "NaN source", function() sw.network():vsource("V1", "a", "0", NAN) end, "volts" },
+        { "name not a string", function() sw.network():resistor({}, "a", "0", 1) end, "name" },
+        { "node nil", function() sw.network():resistor("R1", nil, "0", 1) end, "node 1" },
+        { "duplicate name", function()
+          sw.network():resistor("R1", "a", "0", 1):resistor("R1", "a", "0", 2)
+        end, "R1" },
+        { "floating node", function()
+          local net = circuit()
+          net:resistor("R9", "x", "y", 10)
+          net:solve()
+        end, "x" },
+        { "voltage-source loop", function()
+          local net = circuit()
+          net:vsource("V2", "in", "0", 3)
+          net:solve()
+        end, "V2" },
+        { "current-source cut", function()
+          local net = circuit()
+          net:isource("I1", "0", "z", 1e-3)
+          net:solve()
+        end, "I1" },
+        { "set of an unknown name", function() circuit():set("R7", 5) end, "R7" },
+        { "set of a device", function() circuit():set("D1", 5) end, "D1" },
+        { "cccs with an unknown control", function()
+          local net = circuit()
+          net:cccs("F1", "a", "0", "Vx", 2)
+          net:solve()
+        end, "Vx" },
+        { "element with a non-model", function() circuit():element("D2", "a", "0", 5) end, "model" },
+        { "element with a freed model", function() circuit():element("D2", "a", "0", freed(model())) end, "free" },
+        { "solve with an unknown method", function() circuit():solve { method = "newton" } end, "option method" },
+        { "start names an unknown device", function() circuit():solve { start = { D9 = 1 } } end, "D9" },
+        { "start segment out of range", function() circuit():solve { start = { D1 = 99 } } end, "99" },
+        { "sweep of an unknown name", function() circuit():sweep("V9", { 1, 2 }) end, "V9" },
+        { "sweep values with NaN", function() circuit():sweep("V1", { 1, NAN }) end, "%[2%]" },
+        { "network used after free", function() local n = circuit(); n:free(); n:solve() end, "free" },
+      }
+
+      it("a network that failed to solve is fixed with set and solved again", function()
+        local net = circuit()
+        net:isource("I1", "0", "a", 1) -- 1 A into a: fine, the diode takes it
+        net:set("R1", 1000)
+        local ok = pcall(net.set, net, "R1", -1)
+        assert.is_false(ok)
+        local op = net:solve()
+        -- KCL at "in": the source current equals R1's current (common practice)
+        assert.is.near(0, op.i.V1 + op.i.R1, 1e-9)
+      end)
+    end)
+  end
+end)
