@@ -2,6 +2,7 @@
  * pass to count lines and refuse binary bytes, one pass to parse with strtod
  * straight on the buffer.  No Lua, no global state. */
 #include "textread.h"
+#include "textnum.h"
 
 #include <errno.h>
 #include <math.h>
@@ -196,50 +197,6 @@ static int field_number(const scan *s, const field *f, double *v)
   return e != t && *e == '\0';
 }
 
-/* Exact powers of ten for the fast path below. */
-static const double pow10_exact[23] = {
-  1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
-  1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
-
-/* strtod with Clinger's fast path: a decimal of at most 15 significant
- * digits and a power of ten up to 22 is one correctly rounded multiply or
- * divide, so the result is the same as strtod's.  Anything else (long
- * mantissas, big exponents, hex, inf, nan) goes to strtod. */
-static double parse_double(const char *p, char **end)
-{
-  const char *q = p;
-  unsigned long long m = 0;
-  int neg = 0, nd = 0, e10 = 0, any = 0;
-  double v;
-  if (*q == '-' || *q == '+') { neg = (*q == '-'); q++; }
-  for (; *q >= '0' && *q <= '9'; q++) {
-    any = 1;
-    if (m || *q != '0') { if (++nd > 15) return strtod(p, end); m = m * 10 + (unsigned)(*q - '0'); }
-  }
-  if (*q == '.') {
-    for (q++; *q >= '0' && *q <= '9'; q++) {
-      any = 1;
-      if (m || *q != '0') { if (++nd > 15) return strtod(p, end); m = m * 10 + (unsigned)(*q - '0'); }
-      e10--;
-    }
-  }
-  if (!any || *q == 'x' || *q == 'X') return strtod(p, end); /* hex too */
-  if (*q == 'e' || *q == 'E') {
-    const char *r = q + 1;
-    int eneg = 0, ev = 0;
-    if (*r == '-' || *r == '+') { eneg = (*r == '-'); r++; }
-    if (!(*r >= '0' && *r <= '9')) return strtod(p, end);
-    for (; *r >= '0' && *r <= '9'; r++) if (ev < 10000) ev = ev * 10 + (*r - '0');
-    e10 += eneg ? -ev : ev;
-    q = r;
-  }
-  if (e10 < -22 || e10 > 22) return strtod(p, end);
-  v = (double)m;
-  v = e10 < 0 ? v / pow10_exact[-e10] : v * pow10_exact[e10];
-  *end = (char *)q;
-  return neg ? -v : v;
-}
-
 static void layout_free(layout *lay)
 {
   free(lay->names);
@@ -426,7 +383,7 @@ static int parse_row(scan *s, layout *lay)
       double v;
       /* strtod skips newlines: an empty field must not reach it */
       if (is_eol(s, fs) || *fs == s->delim) return bad_number(s, lay, f, fs);
-      v = parse_double(fs, &e);
+      v = sw_text_strtod(fs, &e);
       q = e;
       if (e == fs) return bad_number(s, lay, f, fs);
       if (s->delim == ';' && *q == ',') { /* decimal comma */
