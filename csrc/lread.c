@@ -103,17 +103,19 @@ static void adopt(lsw_array *a, double *data, size_t n)
   a->n = n;
 }
 
-/* read_columns(path, xcol, ycol [, {scale = {x=, y=}, delimiter=, header=}])
- * -> xs, ys as arrays (x defaults to column 1, y to column 2). */
+/* read_columns(path, xcol, ycol [, {scale = {x=, y=}, delimiter=, header=}
+ * [, with_lines]]) -> xs, ys as arrays (x defaults to column 1, y to column
+ * 2), and with_lines, a third array of each row's file line. */
 static int l_read_columns(lua_State *L)
 {
   static const char *const allowed[] = {"scale", "delimiter", "header", NULL};
   const char *path = luaL_checkstring(L, 1);
   sw_text_col cols[2];
   sw_text_opts opts;
-  lsw_array *ax, *ay;
+  lsw_array *ax, *ay, *al;
   double *out[2];
-  size_t n;
+  size_t n, *lines = NULL;
+  int with_lines;
   sw_err err;
   check_column(L, 2, "read_columns", "x", 1, &cols[0]);
   check_column(L, 3, "read_columns", "y", 2, &cols[1]);
@@ -132,12 +134,26 @@ static int l_read_columns(lua_State *L)
     }
     lua_pop(L, 1);
   }
+  with_lines = lua_toboolean(L, 5);
   ax = push_target(L);
   ay = push_target(L);
-  if (sw_text_read(path, &opts, cols, 2, out, NULL, &n, &err)) return lsw_raise(L, "read_columns", &err);
+  al = with_lines ? push_target(L) : NULL;
+  if (sw_text_read(path, &opts, cols, 2, out, with_lines ? &lines : NULL, &n, &err))
+    return lsw_raise(L, "read_columns", &err);
   adopt(ax, out[0], n);
   adopt(ay, out[1], n);
-  return 2;
+  if (al) { /* line numbers as doubles */
+    double *d = sw_alloc(n, sizeof *d, &err);
+    size_t k;
+    if (!d) {
+      free(lines);
+      return lsw_raise(L, "read_columns", &err);
+    }
+    for (k = 0; k < n; k++) d[k] = (double)lines[k];
+    free(lines);
+    adopt(al, d, n);
+  }
+  return with_lines ? 3 : 2;
 }
 
 /* array_read(path [, column [, {scale=, delimiter=, header=}]]) -> array. */

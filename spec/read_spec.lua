@@ -158,14 +158,17 @@ describe("segwise.curve.read", function()
       assert.is.near(1.5, c(0.55), 1e-12)
     end)
 
-    it("with sort = false an unsorted file is an error naming the file", function()
-      local path = write("unsorted2.csv", "v,i\n0.7,3\n0.5,1\n")
-      raises("unsorted2.csv", sw.curve.read, path, { x = "v", y = "i", sort = false })
+    it("with sort = false an unsorted file is an error naming both lines", function()
+      local path = write("unsorted2.csv", "v,i\n0.7,3\n# note\n0.5,1\n")
+      raises("unsorted2.csv:4: x = 0.5 comes after x = 0.69999999999999996 on line 2",
+        sw.curve.read, path, { x = "v", y = "i", sort = false })
+      local dup = write("unsorted3.csv", "v,i\n0.5,3\n0.5,1\n")
+      raises("unsorted3.csv:3: x = 0.5 repeats line 2", sw.curve.read, dup, { x = "v", y = "i", sort = false })
     end)
 
-    it("repeated x is an error unless duplicates = 'mean'", function()
-      local path = write("dup.csv", "x,y\n1,2\n1,4\n2,6\n")
-      raises("dup.csv", sw.curve.read, path)
+    it("repeated x is an error naming both lines unless duplicates = 'mean'", function()
+      local path = write("dup.csv", "x,y\n1,2\n2,6\n1,4\n")
+      raises('dup.csv:4: x = 1 repeats line 2; pass duplicates = "mean"', sw.curve.read, path)
       local c = sw.curve.read(path, { duplicates = "mean" })
       assert.is.near(3, c(1), 1e-15) -- mean of 2 and 4
     end)
@@ -260,6 +263,7 @@ describe("segwise.curve.read", function()
       { "unknown scale key", function() return sw.curve.read(path, { scale = { z = 1 } }) end, "unknown option 'z'" },
       { "bad delimiter", function() return sw.curve.read(path, { delimiter = "|" }) end, "delimiter must be" },
       { "bad duplicates", function() return sw.curve.read(path, { duplicates = "max" }) end, "option duplicates must be one of" },
+      { "one row only", function() return sw.curve.read(write("one.csv", "x,y\n1,2\n")) end, "one.csv: " },
     }
     for _, case in ipairs(cases) do
       it(case[1], function() raises(case[3], case[2]) end)

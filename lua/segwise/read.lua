@@ -30,6 +30,37 @@ return function(sw, core)
     end
   end
 
+  -- After the samples were refused: the file lines of the first repeated or
+  -- out-of-order x, read again with line numbers (the error path only).
+  local function order_fault(path, opts, copts, sort)
+    local ok, xs, _, lines = pcall(core.read_columns, path, opts.x or 1, opts.y or 2, copts, true)
+    if not ok then return nil end
+    local n, fmt = #xs, "%s:%d: x = %.17g "
+    if not sort then
+      for i = 2, n do
+        local a, b = xs[i - 1], xs[i]
+        if b < a then
+          return (fmt .. "comes after x = %.17g on line %d; x must increase (or pass sort = true)")
+            :format(path, lines[i], b, a, lines[i - 1])
+        elseif b == a and opts.duplicates ~= "mean" then
+          return (fmt .. "repeats line %d; pass duplicates = \"mean\" to average repeats")
+            :format(path, lines[i], b, lines[i - 1])
+        end
+      end
+    elseif opts.duplicates ~= "mean" then
+      local seen = {}
+      for i = 1, n do
+        local v = xs[i]
+        if seen[v] then
+          return (fmt .. "repeats line %d; pass duplicates = \"mean\" to average repeats")
+            :format(path, lines[i], v, seen[v])
+        end
+        seen[v] = lines[i]
+      end
+    end
+    return nil
+  end
+
   -- sw.curve.read(path, {x=, y=, scale={x=, y=}, duplicates=, sort=,
   -- delimiter=, header=}): x and y are header names or 1-based column
   -- numbers (default 1 and 2); sort defaults to true for files.
@@ -43,17 +74,17 @@ return function(sw, core)
     if opts.scale ~= nil then
       check_opts("curve.read", opts.scale, { x = "number", y = "number" })
     end
-    local xs, ys = call("curve.read", core.read_columns, path, opts.x or 1, opts.y or 2,
-      { scale = opts.scale, delimiter = opts.delimiter, header = opts.header })
+    local copts = { scale = opts.scale, delimiter = opts.delimiter, header = opts.header }
+    local xs, ys = call("curve.read", core.read_columns, path, opts.x or 1, opts.y or 2, copts)
     local sort = opts.sort
     if sort == nil then sort = true end
     local ok, c = pcall(sw.curve.samples, xs, ys, { sort = sort, duplicates = opts.duplicates })
     xs:free()
     ys:free()
     if not ok then
-      -- name the file; the sample checks name the (sorted) point indices
-      local msg = tostring(c):gsub("^.-segwise%.curve%.samples: ", "")
-      error(("segwise.curve.read: %s: %s"):format(path, msg), 2)
+      local where = order_fault(path, opts, copts, sort)
+      local msg = where or (path .. ": " .. tostring(c):gsub("^.-segwise%.curve%.samples: ", ""))
+      error("segwise.curve.read: " .. msg, 2)
     end
     return c
   end
