@@ -19,7 +19,7 @@ local M = {
   table = tables.table, write = require "segwise.report.write", json = require "segwise.report.json",
 }
 
-local huge = math.huge
+local huge, abs = math.huge, math.abs
 local fmt = string.format
 local concat = table.concat
 local DASH = "\u{2014}"       -- em dash: "no value" in a cell
@@ -65,22 +65,90 @@ local function method_or_fail(obj, name, fname, what)
   end
 end
 
+-- Largest |y| of a model over its range: a PWL model takes its extremes
+-- at segment ends.
+local function model_ymax(model)
+  local ymax = 0
+  for k = 1, model:nseg() do
+    local sg = model:seg(k)
+    local b, a = sg.slope or sg[3], sg.intercept or sg[4]
+    for _, x in ipairs { sg.lo or sg[1], sg.hi or sg[2] } do
+      local y = abs(a + b * x)
+      if y == y and y ~= huge and y > ymax then ymax = y end
+    end
+  end
+  return ymax
+end
+
+--- Relative errors near a zero of the curve.  Rule (fit_table and
+-- compare_fits, text and markdown; CSV keeps the raw numbers):
+-- a relative error prints as a dash when
+--  1. it is undefined (nil or NaN: the curve reaches 0 and no floor is set), or
+--  2. no floor is in force, the fit was not made on relative error, and the
+--     denominator at the maximum is below rel_zero (default 1e-6) times the
+--     model's largest |y|.  That denominator, |y(x_rel)| = |err(x_rel)| /
+--     max_rel, is at most max_abs / max_rel, so the test is
+--     max_abs / max_rel < rel_zero * ymax: a figure larger than the absolute
+--     error over one part per million of full scale measures how close the
+--     curve comes to 0, not the fit.
+-- A floor (rel_floor, given to the report or used by the fit) is the
+-- user's own smallest denominator: its figures always print.
+M.REL_ZERO = 1e-6
+
+local function rel_shown(max_rel, max_abs, j)
+  if type(max_rel) ~= "number" or max_rel ~= max_rel then return nil, true end
+  if j.floored or j.rel_fit or max_rel == 0 then return max_rel end
+  if type(max_abs) == "number" and max_abs / max_rel < j.rel_zero * j.ymax then return nil, true end
+  return max_rel
+end
+
+local function check_positive(v, name, fname, allow_zero)
+  if v == nil then return end
+  if type(v) ~= "number" or v ~= v or v == huge or v < 0 or (v == 0 and not allow_zero) then
+    error(fmt("%s: %s must be a %s finite number (got %s)", fname, name,
+      allow_zero and "non-negative" or "positive", tostring(v)), 3)
+  end
+end
+
 --- Fit report: a summary of how the model was made and its errors, then one
 -- row per segment: range, slope, intercept, Thevenin e/r, Norton j/g (a
 -- dash where the segment is flat and has no Norton form), and the
 -- segment's max error and where.
+-- Error columns come from the model's fit_info(), or, when opts.curve is
+-- given, from model:compare(curve, {lo=, hi=, rel_floor=}) per segment.
+-- rel_floor is the smallest |y| used as the denominator of the relative
+-- error; a floor other than the fit's own needs opts.curve (the figures are
+-- recomputed against it).  Near-zero relative errors: see the rule above.
 -- @param model a PWL model (nseg, seg, thevenin, norton, fit_info, knots)
--- @tparam[opt] table opts {x = "A", y = "V", format =, out =, digits =}
+-- @tparam[opt] table opts {x = "A", y = "V", format =, out =, digits =,
+--   curve = the curve the model approximates, rel_floor = number > 0,
+--   rel_zero = 1e-6, cell_units = "auto"|"header"|"cells"}
 -- @treturn string
 function M.fit_table(model, opts)
   opts = opts or {}
   local F = "segwise.report.fit_table"
   for _, m in ipairs { "nseg", "seg", "thevenin", "norton" } do method_or_fail(model, m, F, "model") end
+  check_positive(opts.rel_floor, "rel_floor", F)
+  check_positive(opts.rel_zero, "rel_zero", F, true)
   local xu, yu = units_of(opts)
   local su, gu = ratio_unit(yu, xu), ratio_unit(xu, yu)
   local info
   if type(model.fit_info) == "function" then info = model:fit_info() end
+  if type(info) ~= "table" then info = nil end
+  local floor = opts.rel_floor or (info and info.rel_floor)
+  local curve = opts.curve
+  if curve ~= nil then method_or_fail(model, "compare", F, "model") end
+  if opts.rel_floor and curve == nil and not (info and info.rel_floor == opts.rel_floor) then
+    error(F .. ": rel_floor needs curve = the curve the model approximates (the relative errors are recomputed against it)", 2)
+  end
+  local function compare(lo, hi, what)
+    local ok, c = pcall(model.compare, model, curve, { lo = lo, hi = hi, rel_floor = floor })
+    if not ok then error(fmt("%s: %s: %s", F, what, tostring(c)), 3) end
+    if type(c) ~= "table" then error(fmt("%s: %s: compare returned no table", F, what), 3) end
+    return c
+  end
   local per = info and info.per_segment or {}
+  local has_err = (info and info.per_segment) or curve ~= nil
   local rows = {}
   for k = 1, model:nseg() do
     local s = model:seg(k)
@@ -90,9 +158,22 @@ function M.fit_table(model, opts)
     if ok then row.e, row.r = e, r end
     local okn, j, g = pcall(model.norton, model, k)
     if okn then row.j, row.g = j, g end
-    local p = per[k]
-    if p then row.max_abs, row.x_err, row.max_rel = p.max_abs, p.x, p.max_rel end
+    if curve ~= nil then
+      local c = compare(row.lo, row.hi, fmt("segment %d", k))
+      row.max_abs, row.x_err, row.max_rel = c.max_abs, c.x_abs, c.max_rel
+    else
+      local p = per[k]
+      if p then row.max_abs, row.x_err, row.max_rel = p.max_abs, p.x, p.max_rel end
+    end
     rows[k] = row
+  end
+  local judge = { floored = floor ~= nil and floor > 0, rel_fit = info ~= nil and info.error == "rel",
+    rel_zero = opts.rel_zero or M.REL_ZERO, ymax = model_ymax(model) }
+  local dashed = false
+  for _, row in ipairs(rows) do
+    local v, d = rel_shown(row.max_rel, row.max_abs, judge)
+    row.rel_shown = v
+    dashed = dashed or (d and row.max_abs ~= nil)
   end
   local cols = {
     { name = "seg", key = "k" },
@@ -105,17 +186,17 @@ function M.fit_table(model, opts)
     { name = "j", key = "j", unit = xu },
     { name = "g", key = "g", unit = gu },
   }
-  if info and info.per_segment then
+  if has_err then
     cols[#cols + 1] = { name = "max err", key = "max_abs", unit = yu }
     cols[#cols + 1] = { name = "at", key = "x_err", unit = xu }
-    cols[#cols + 1] = { name = "max rel", key = "max_rel", unit = "%", scale = 100 }
+    cols[#cols + 1] = { name = "max rel", key = "rel_shown", unit = "%", scale = 100 }
   end
   local format = opts.format or "text"
   local topts = { format = format, digits = opts.digits, units = opts.cell_units,
     empty = (format == "csv") and "" or DASH, full = opts.full }
   -- CSV keeps raw numbers; the percent column is then a fraction
   if format == "csv" then
-    cols[#cols] = cols[#cols] and cols[#cols].key == "max_rel"
+    cols[#cols] = cols[#cols] and cols[#cols].key == "rel_shown"
       and { name = "max rel (fraction)", key = "max_rel" } or cols[#cols]
   end
   local tbl = M.table(rows, cols, topts)
@@ -132,15 +213,25 @@ function M.fit_table(model, opts)
       head[#head + 1] = "knots: " .. concat(kn, ", ")
     end
   end
+  local sum = info
+  if curve ~= nil then
+    local lo, hi = rows[1].lo, rows[#rows].hi
+    sum = compare(lo, hi, "whole range")
+  end
   if info then
     head[#head + 1] = fmt("fit: %s, %s error%s", tostring(info.criterion or "?"),
       tostring(info.error or "?"),
       info.segments and fmt(", segments %s", tostring(info.segments)) or "")
+  end
+  if sum then
     local e = {}
-    if info.max_abs then e[#e + 1] = "max abs " .. human(info.max_abs, yu, d) .. " at " .. human(info.x_abs, xu, d) end
-    if info.max_rel then e[#e + 1] = "max rel " .. M.si_in(info.max_rel * 100, 0, d or 3) .. " % at " .. human(info.x_rel, xu, d) end
-    if info.rms then e[#e + 1] = "rms " .. human(info.rms, yu, d) end
-    if #e > 0 then head[#head + 1] = "error: " .. concat(e, ", ") end
+    if sum.max_abs then e[#e + 1] = "max abs " .. human(sum.max_abs, yu, d) .. " at " .. human(sum.x_abs, xu, d) end
+    local rel, dash = rel_shown(sum.max_rel, sum.max_abs, judge)
+    if rel then e[#e + 1] = "max rel " .. M.si_in(rel * 100, 0, d or 3) .. " % at " .. human(sum.x_rel, xu, d)
+    elseif dash and sum.max_abs then e[#e + 1] = "max rel " .. DASH; dashed = true end
+    if sum.rms then e[#e + 1] = "rms " .. human(sum.rms, yu, d) end
+    if floor and floor > 0 then e[#e + 1] = "rel floor " .. human(floor, yu, d) end
+    if #e > 0 then head[#head + 1] = (curve ~= nil and "error against the curve: " or "error: ") .. concat(e, ", ") end
   end
   if format == "markdown" then
     for i = 1, #head do head[i] = "- " .. md_escape(head[i]) end
@@ -149,6 +240,11 @@ function M.fit_table(model, opts)
   parts[2] = tbl
   if format ~= "markdown" then
     parts[3] = fmt("y = e + r*x (Thevenin), x = j + g*y (Norton); %s: flat segment, no Norton form\n", DASH)
+  end
+  if dashed then
+    local note = fmt("%smax rel %s: the curve is near 0 there (give rel_floor and curve)\n",
+      format == "markdown" and "- " or "", DASH)
+    if format == "markdown" then parts[#parts + 1] = note else parts[#parts] = parts[#parts] .. note end
   end
   return finish(parts, opts, F)
 end
@@ -253,9 +349,12 @@ end
 
 --- Several fits of one curve side by side: segments, max abs error and
 -- where, max relative error and where, rms error (from model:compare).
+-- The floor of the relative error is range.rel_floor (or rel_floor);
+-- without one, near-zero relative errors print as a dash (rule above).
 -- @tparam {{name=string, model=model},...} fits
 -- @param curve the curve every model is checked against
--- @tparam[opt] table opts {x =, y =, range = {lo=,hi=,n=} (passed to compare),
+-- @tparam[opt] table opts {x =, y =, range = {lo=,hi=,n=,rel_floor=} (passed to compare),
+--   rel_floor = number > 0 (same as range.rel_floor), rel_zero = 1e-6,
 --   format =, out =, digits =, sort = "max_abs"|"max_rel"|"rms"|nil}
 -- @treturn string
 function M.compare_fits(fits, curve, opts)
@@ -264,8 +363,22 @@ function M.compare_fits(fits, curve, opts)
   if type(fits) ~= "table" or #fits == 0 then
     error(F .. ": fits must be a non-empty list of {name=, model=}", 2)
   end
+  if opts.range ~= nil and type(opts.range) ~= "table" then
+    error(F .. ": range must be a table {lo=, hi=, n=, rel_floor=}", 2)
+  end
+  check_positive(opts.rel_floor, "rel_floor", F)
+  check_positive(opts.rel_zero, "rel_zero", F, true)
+  local range = opts.range
+  if opts.rel_floor then
+    -- a copy, so the caller's range table is left as it was
+    range = {}
+    for k, v in pairs(opts.range or {}) do range[k] = v end
+    range.rel_floor = opts.rel_floor
+  end
+  local floor = range and range.rel_floor
   local xu, yu = units_of(opts)
   local rows = {}
+  local csv = (opts.format or "text") == "csv"
   for i, f in ipairs(fits) do
     if type(f) ~= "table" or f.model == nil then
       error(fmt("%s: fits[%d] must be {name=, model=}", F, i), 2)
@@ -273,18 +386,24 @@ function M.compare_fits(fits, curve, opts)
     local name = f.name or ("fit " .. i)
     method_or_fail(f.model, "compare", F, fmt("fits[%d] ('%s')", i, name))
     local ok, c
-    if opts.range then ok, c = pcall(f.model.compare, f.model, curve, opts.range)
+    if range then ok, c = pcall(f.model.compare, f.model, curve, range)
     else ok, c = pcall(f.model.compare, f.model, curve) end
     if not ok then error(fmt("%s: fits[%d] ('%s'): %s", F, i, name, tostring(c)), 2) end
+    local info
+    if type(f.model.fit_info) == "function" then info = f.model:fit_info() end
+    local judge = { floored = type(floor) == "number" and floor > 0,
+      rel_fit = type(info) == "table" and info.error == "rel",
+      rel_zero = opts.rel_zero or M.REL_ZERO, ymax = model_ymax(f.model) }
+    local rel = c.max_rel
+    if not csv then rel = rel_shown(c.max_rel, c.max_abs, judge) end
     rows[i] = { name = name, nseg = f.model:nseg(), max_abs = c.max_abs, x_abs = c.x_abs,
-      max_rel = c.max_rel, x_rel = c.x_rel, rms = c.rms }
+      max_rel = rel, x_rel = rel and c.x_rel, rms = c.rms }
   end
   if opts.sort then
     local key = opts.sort
     table.sort(rows, function(a, b) return (a[key] or huge) < (b[key] or huge) end)
   end
   local format = opts.format or "text"
-  local csv = format == "csv"
   local cols = {
     { name = "fit", key = "name" },
     { name = "segments", key = "nseg" },

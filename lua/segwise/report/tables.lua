@@ -101,14 +101,39 @@ local function apply_fmt(col, v, r)
   return s
 end
 
+-- Smallest and largest finite non-zero magnitude in vals (nil when none).
+local function magnitude_range(vals, n)
+  local lo, hi
+  for r = 1, n do
+    local v = vals[r]
+    if type(v) == "number" and v == v and v ~= 0 and abs(v) ~= huge then
+      local a = abs(v)
+      if not lo or a < lo then lo = a end
+      if not hi or a > hi then hi = a end
+    end
+  end
+  return lo, hi
+end
+
+-- Columns whose magnitudes span more than this many decades get one
+-- prefix per cell (see human_cells).
+M.SPAN_DECADES = 4
+
 -- Builds the header and cell strings for the human formats (text, markdown).
 -- Rule for units: a column with `unit` and no `fmt` prints every value as a
 -- mantissa in ONE SI prefix for the whole column, chosen from the largest
 -- magnitude, and the header carries it: "I (mA)".  With `fmt`, the header is
 -- "I (A)" and values are in the base unit.  opts.units = "cells" instead
 -- prints each value with its own prefix and unit ("4.31 mA"), header "I".
+-- Wide columns: with opts.units = "auto" (the default), a prefixed column
+-- whose finite non-zero magnitudes span more than opts.span decades
+-- (default 4: largest / smallest > 10^4) falls back to the per-cell style
+-- for that column alone, since one shared prefix would print its small
+-- cells as "0.000128 k..." or its large ones as "60100 m...".
+-- opts.units = "header" always shares one prefix.
 local function human_cells(rows, cols, opts)
   local digits = opts.digits or 3
+  local span = opts.span or M.SPAN_DECADES
   local header, cells, aligns = {}, {}, {}
   for r = 1, #rows do cells[r] = {} end
   for j, col in ipairs(cols) do
@@ -120,19 +145,20 @@ local function human_cells(rows, cols, opts)
       if v ~= nil and type(v) ~= "number" then numeric = false end
     end
     local d = col.digits or digits
+    local prefixed = col.unit and not col.fmt and col.si ~= false and col.unit ~= "%"
+    local per_cell = opts.units == "cells"
+    if prefixed and not per_cell and opts.units ~= "header" then
+      local lo, hi = magnitude_range(vals, #rows)
+      if lo and hi / lo > 10 ^ span then per_cell = true end
+    end
     local e3
-    if col.unit and not col.fmt and opts.units ~= "cells" and (col.si == false or col.unit == "%") then
+    if col.unit and not col.fmt and not per_cell and not prefixed then
       e3 = 0
-    elseif col.unit and not col.fmt and opts.units ~= "cells" then
-      local maxabs
-      for r = 1, #rows do
-        local v = vals[r]
-        if type(v) == "number" and v == v and abs(v) ~= huge and v ~= 0
-           and (not maxabs or abs(v) > maxabs) then maxabs = abs(v) end
-      end
+    elseif col.unit and not col.fmt and not per_cell then
+      local _, maxabs = magnitude_range(vals, #rows)
       e3 = maxabs and si.si_step(maxabs, d) or 0
     end
-    if col.unit and col.unit ~= "" and (opts.units ~= "cells" or col.fmt) then
+    if col.unit and col.unit ~= "" and (not per_cell or col.fmt) then
       local pre = (e3 and PREFIX[e3]) or ""
       header[j] = fmt("%s (%s%s)", col.name, pre, col.unit)
     elseif col.unit and col.unit == "" and e3 and e3 ~= 0 then
@@ -147,9 +173,9 @@ local function human_cells(rows, cols, opts)
       elseif col.fmt then
         s = apply_fmt(col, v, r)
       elseif type(v) == "number" then
-        if col.unit and opts.units == "cells" and col.si ~= false and col.unit ~= "%" then
+        if col.unit and per_cell and prefixed then
           s = si.si(v, col.unit, d)
-        elseif col.unit and opts.units == "cells" then
+        elseif col.unit and per_cell then
           s = si.si_in(v, 0, d) .. " " .. col.unit
         elseif col.unit then s = si.si_in(v, e3, d)
         else s = plain_number(v, math.max(d, 4)) end
@@ -273,7 +299,8 @@ local RENDER = { text = render_text, csv = render_csv, markdown = render_markdow
 -- @tparam {string|table,...} columns names, or {name=, key=, unit=, fmt=, fn=, align=, digits=, scale=,
 --   si = false (no prefix: one plain unit)}; a dotted key such as "i.D1" reads row.i.D1
 -- @tparam[opt] table opts {format = "text"|"csv"|"markdown", out = path or handle,
---   digits = 3, units = "header"|"cells", full = false (CSV %.17g), numfmt = "%.6g",
+--   digits = 3, units = "auto"|"header"|"cells" (see human_cells), span = 4 (decades, for "auto"),
+--   full = false (CSV %.17g), numfmt = "%.6g",
 --   title = string, eol = "\n" (CSV), empty = "" (text for nil cells)}
 -- @treturn string the table
 function M.table(rows, columns, opts)
@@ -290,6 +317,12 @@ function M.table(rows, columns, opts)
     error("segwise.report.table: columns must be a non-empty list", 2)
   end
   if type(opts) ~= "table" then error("segwise.report.table: opts must be a table", 2) end
+  if opts.units ~= nil and opts.units ~= "auto" and opts.units ~= "header" and opts.units ~= "cells" then
+    error("segwise.report.table: units must be 'auto', 'header' or 'cells' (got " .. tostring(opts.units) .. ")", 2)
+  end
+  if opts.span ~= nil and not (type(opts.span) == "number" and opts.span >= 0 and opts.span < huge) then
+    error("segwise.report.table: span must be a number of decades >= 0 (got " .. tostring(opts.span) .. ")", 2)
+  end
   local cols = {}
   for i, c in ipairs(columns) do cols[i] = norm_column(c, i) end
   local format = opts.format or "text"
