@@ -360,6 +360,70 @@ describe("segwise.report", function()
     end)
   end)
 
+  describe("table, wide columns", function()
+    -- Wide columns (rule in segwise.report.tables, human_cells): a prefixed
+    -- column whose non-zero magnitudes span more than 4 decades prints each
+    -- cell with its own prefix; otherwise one prefix in the header.  The
+    -- expected strings follow the SI prefixes (BIPM SI Brochure, table 7).
+    describe("one prefix per column, or per cell when the column spans > 4 decades", function()
+      local cases = {
+        -- values, expected header, expected cells
+        { "2 decades", { 0.001, 0.1 }, "g (mS)", { "1", "100" } },
+        { "zeros do not count", { 0, 0.001, 0.1 }, "g (mS)", { "0", "1", "100" } },
+        { "exactly 4 decades", { 1, 10000 }, "g (kS)", { "0.001", "10" } },
+        { "4.1 decades", { 1, 12600 }, "g", { "1 S", "12.6 kS" } },
+        { "6 decades", { 1e-6, 1 }, "g", { "1 " .. MU .. "S", "1 S" } },
+        { "6 decades, signs mixed", { -1e-6, 0.5 }, "g", { "-1 " .. MU .. "S", "500 mS" } },
+        { "NaN and inf do not count", { 0 / 0, 1 / 0, 0.002, 0.02 }, "g (mS)", { "NaN", "inf", "2", "20" } },
+        -- the Norton g column of a 15-segment diode model: 60.1 kOhm .. 128 mOhm
+        { "a diode's g column", { 60100, 538, 0.128 }, "g", { "60.1 k" .. OHM, "538 " .. OHM, "128 m" .. OHM } },
+      }
+      for _, c in ipairs(cases) do
+        it(c[1], function()
+          local rows = {}
+          for r, v in ipairs(c[2]) do rows[r] = { g = v } end
+          local unit = c[1] == "a diode's g column" and OHM or "S"
+          local hdr = c[3]:gsub("S%)$", unit .. ")")
+          for _, format in ipairs { "text", "markdown" } do
+            local l = lines_of(report.table(rows, { { name = "g", unit = unit } }, { format = format }))
+            local head = format == "markdown" and l[1]:match("^| *(.-) *|$") or l[1]:match("^%s*(.-)%s*$")
+            assert.are.equal(hdr, head)
+            for r, want in ipairs(c[4]) do
+              local cell = format == "markdown" and l[r + 2]:match("^| *(.-) *|$") or l[r + 2]:match("^%s*(.-)%s*$")
+              assert.are.equal(want, cell, c[1] .. " row " .. r .. " (" .. format .. ")")
+            end
+          end
+        end)
+      end
+
+      it("units = 'header' keeps one prefix; span moves the threshold", function()
+        local rows = { { g = 1e-6 }, { g = 1 } }
+        local l = lines_of(report.table(rows, { { name = "g", unit = "S" } }, { units = "header" }))
+        assert.are.equal("g (S)", l[1]:match("^%s*(.-)%s*$"))
+        assert.are.equal("0.000001", l[3]:match("^%s*(.-)%s*$"))
+        l = lines_of(report.table(rows, { { name = "g", unit = "S" } }, { span = 7 }))
+        assert.are.equal("g (S)", l[1]:match("^%s*(.-)%s*$"))
+        l = lines_of(report.table({ { g = 0.001 }, { g = 0.1 } }, { { name = "g", unit = "S" } }, { span = 1 }))
+        assert.are.equal("1 mS", l[3]:match("^%s*(.-)%s*$"))
+      end)
+
+      it("fmt, percent and si = false columns never switch; other columns keep their own mode", function()
+        local rows = { { a = 1e-6, b = 1e-6, c = 1e-6, d = 1e-3 }, { a = 1, b = 1, c = 1, d = 0.1 } }
+        local l = lines_of(report.table(rows, { { name = "a", unit = "V", fmt = "%.2g" }, { name = "b", unit = "%" },
+          { name = "c", unit = "W", si = false }, { name = "d", unit = "A" } }))
+        assert.is_truthy(l[1]:match("^a %(V%) +b %(%%%) +c %(W%) +d %(mA%)$"), l[1])
+        assert.is_truthy(l[3]:match("^1e%-06 +0%.000001 +0%.000001 +1$"), l[3])
+      end)
+
+      it("rejects an unknown units mode and a bad span", function()
+        assert.has_error(function() report.table({ { g = 1 } }, { "g" }, { units = "each" }) end,
+          "segwise.report.table: units must be 'auto', 'header' or 'cells' (got each)")
+        assert.has_error(function() report.table({ { g = 1 } }, { "g" }, { span = -1 }) end,
+          "segwise.report.table: span must be a number of decades >= 0 (got -1)")
+      end)
+    end)
+  end)
+
   describe("json", function()
     it("encodes arrays, objects with sorted keys, escapes, NaN as null", function()
       assert.are.equal('{"a":1,"b":[1,2.5,null],"c":"x\\"\\n\\u0001","d":[],"e":{"x":true}}\n',
@@ -475,6 +539,119 @@ describe("segwise.report", function()
       assert.are.equal(3, #t)
       assert.is.near(-1, tonumber(t[2][4]), 1e-12)
       assert.is.near(1, tonumber(t[3][4]), 1e-12)
+    end)
+  end)
+
+  -- Near-zero relative errors (rule in segwise.report, above fit_table): a
+  -- max rel cell prints as a dash when undefined, or, with no floor in force
+  -- on a fit not made on relative error, when max_abs / max_rel (a bound on
+  -- the denominator |y| at the maximum) is below rel_zero (1e-6) times the
+  -- model's largest |y|.
+  describe("fit_table, relative errors near a zero of the curve", function()
+    -- one segment y = x on [0, 1]: largest |y| is 1
+    local line = { { 0, 1, 1, 0 } }
+    local function last_cell(s)
+      local row = s:match("\n( +1 [^\n]*)")
+      return row and row:match("(%S+)$")
+    end
+    local cases = {
+      -- name, max_abs, max_rel, fit error, fit rel_floor, rel_zero, expected cell (%)
+      { "an ordinary figure", 1e-3, 0.01, "abs", nil, nil, "1" },
+      { "undefined (NaN)", 1e-3, 0 / 0, "abs", nil, nil, DASH },
+      { "absent", 1e-3, nil, "abs", nil, nil, DASH },
+      { "denominator at most 1e-7 of full scale", 1e-3, 1e4, "abs", nil, nil, DASH },
+      { "denominator at most 1.1e-6 of full scale", 1e-3, 900, "abs", nil, nil, "90000" },
+      { "rel_zero = 1e-9 moves the threshold", 1e-3, 1e4, "abs", nil, 1e-9, "1000000" },
+      { "the fit's own floor is kept", 1e-9, 1e3, "abs", 1e-12, nil, "100000" },
+      { "a fit made on relative error is kept", 1e-9, 1e3, "rel", nil, nil, "100000" },
+      { "zero error", 0, 0, "abs", nil, nil, "0" },
+    }
+    for _, c in ipairs(cases) do
+      it(c[1], function()
+        local inf = { criterion = "minimax", error = c[4], rel_floor = c[5], max_abs = c[2], x_abs = 0.5,
+          max_rel = c[3], x_rel = 0.5, per_segment = { { max_abs = c[2], x = 0.5, max_rel = c[3] } } }
+        local s = report.fit_table(fake_model(line, inf), { x = "V", y = "A", rel_zero = c[6] })
+        assert.are.equal(c[7], last_cell(s), s)
+        local dashed = c[7] == DASH
+        assert.are.equal(dashed, s:find("max rel " .. DASH .. "[,\n]") ~= nil)            -- summary line
+        assert.are.equal(dashed, s:find("the curve is near 0 there", 1, true) ~= nil)     -- footnote
+        -- CSV keeps the raw fraction
+        local t = parse_csv(report.fit_table(fake_model(line, inf), { x = "V", y = "A", format = "csv" }))
+        if c[3] == nil then assert.are.equal("", t[2][12])
+        elseif c[3] ~= c[3] then assert.are.equal("NaN", t[2][12])
+        else assert.is.near(c[3], tonumber(t[2][12]), 1e-6 * c[3]) end   -- %.6g printed
+      end)
+    end
+
+    it("rejects a bad rel_floor or rel_zero, and a new floor without the curve", function()
+      local m = fake_model(segs, info)
+      assert.has_error(function() report.fit_table(m, { rel_floor = -1 }) end,
+        "segwise.report.fit_table: rel_floor must be a positive finite number (got -1)")
+      assert.has_error(function() report.fit_table(m, { rel_floor = 0 / 0 }) end,
+        "segwise.report.fit_table: rel_floor must be a positive finite number (got " .. tostring(0 / 0) .. ")")
+      assert.has_error(function() report.fit_table(m, { rel_zero = "x" }) end,
+        "segwise.report.fit_table: rel_zero must be a non-negative finite number (got x)")
+      assert.has_error(function() report.fit_table(m, { rel_floor = 1e-3 }) end,
+        "segwise.report.fit_table: rel_floor needs curve = the curve the model approximates " ..
+        "(the relative errors are recomputed against it)")
+    end)
+
+    -- Closed forms, worked by hand: the chord y = x of the curve y = x^3 on
+    -- [-1, 1] (knot at 0).  Absolute error x - x^3 peaks at x = 1/sqrt(3):
+    -- 2/(3 sqrt 3).  With floor F the relative error is (x - x^3)/F below
+    -- |x| = F^(1/3) (increasing there) and 1/x^2 - 1 above it (decreasing),
+    -- so its maximum is F^(-2/3) - 1 at |x| = F^(1/3).  Without a floor the
+    -- curve is 0 at x = 0: undefined.
+    it("rel_floor with the curve: per segment errors recomputed (real segwise)", function()
+      local ok, sw = pcall(require, "segwise")
+      if not ok or type(sw) ~= "table" or not sw.pwl or not sw.curve then
+        pending("segwise C module not available in this build")
+        return
+      end
+      local cube = sw.curve.fn(function(x) return x ^ 3 end, { lo = -1, hi = 1 })
+      local m = sw.pwl { x = { -1, 0, 1 }, y = { -1, 0, 1 } }
+      local F = 0.1
+      local t = parse_csv(report.fit_table(m, { x = "V", y = "A", curve = cube, rel_floor = F, format = "csv" }))
+      assert.are.equal(3, #t)
+      for r = 2, 3 do
+        assert.is.near(2 / (3 * math.sqrt(3)), tonumber(t[r][10]), 1e-5)   -- %.6g printed
+        assert.is.near(F ^ (-2 / 3) - 1, tonumber(t[r][12]), 1e-5)
+      end
+      local s = report.fit_table(m, { x = "V", y = "A", curve = cube, rel_floor = F })
+      assert.is_truthy(s:find("max rel 364 % at -464 mV", 1, true), s)   -- 3.6416, F^(1/3) = 0.4642
+      assert.is_truthy(s:find("rel floor 100 mA", 1, true), s)
+      s = report.fit_table(m, { x = "V", y = "A", curve = cube })
+      assert.are.equal(DASH, last_cell(s), s)
+      -- compare_fits: the same figure through its floor option, a dash without
+      local c = report.compare_fits({ { name = "chord", model = m } }, cube, { x = "V", y = "A", range = { rel_floor = F } })
+      assert.is_truthy(c:match("\nchord +2 +385 +%-577 +364 +%-464 +276"), c)
+      c = report.compare_fits({ { name = "chord", model = m } }, cube, { x = "V", y = "A", rel_floor = F })
+      assert.is_truthy(c:match("\nchord +2 +385 +%-577 +364 +%-464 +276"), c)
+      c = report.compare_fits({ { name = "chord", model = m } }, cube, { x = "V", y = "A" })
+      assert.is_truthy(c:match("\nchord +2 +385 +%-577 +" .. DASH .. " +" .. DASH .. " +276"), c)
+    end)
+
+    -- A curve that nearly reaches 0: y = x^3 + 1e-8 on [0, 1] against the
+    -- line y = x + 0.01.  At x = 0 the relative error is 0.01 / 1e-8 = 1e6
+    -- (by hand): finite, but it measures the curve's closeness to 0.
+    it("a finite but near-zero figure prints as a dash unless a floor is given (real segwise)", function()
+      local ok, sw = pcall(require, "segwise")
+      if not ok or type(sw) ~= "table" or not sw.pwl or not sw.curve then
+        pending("segwise C module not available in this build")
+        return
+      end
+      local lift = sw.curve.fn(function(x) return x ^ 3 + 1e-8 end, { lo = 0, hi = 1 })
+      local m = sw.pwl { x = { 0, 1 }, y = { 0.01, 1.01 } }
+      local raw = m:compare(lift).max_rel
+      assert.is_true(raw >= 1e6 * (1 - 1e-9))     -- at least the value at x = 0
+      assert.are.equal(DASH, last_cell(report.fit_table(m, { x = "V", y = "A", curve = lift })))
+      local s = report.fit_table(m, { x = "V", y = "A", curve = lift, rel_floor = 0.01 })
+      -- with a 10 mA floor: at x = 0 the error is 10 mA, ratio 1; the (x + 0.01 - x^3 - 1e-8)/0.01
+      -- branch peaks where 1 - 3x^2 = 0 only above the floor crossing, so the figure is finite and printed
+      assert.are_not.equal(DASH, last_cell(s), s)
+      assert.is_true(tonumber(last_cell(s)) >= 100, s)
+      assert.is_truthy(report.compare_fits({ { name = "line", model = m } }, lift, { x = "V", y = "A" })
+        :match("\nline +1 +%d+ +%d+ +" .. DASH))
     end)
   end)
 
