@@ -32,6 +32,15 @@ local function circuit()
   return net
 end
 
+-- The same with V1 = -50 V and a model bounded at its ends (extend = "error").
+local function bounded()
+  local net = sw.network()
+  net:vsource("V1", "in", "0", -50)
+  net:resistor("R1", "in", "a", 1000)
+  net:element("D1", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 }, extend = "error" })
+  return net
+end
+
 local function run_cases(cases)
   for _, case in ipairs(cases) do
     it(case[1], function()
@@ -297,6 +306,12 @@ describe("segwise bad input", function()
         { "start segment out of range", function() circuit():solve { start = { D1 = 99 } } end, "99" },
         { "sweep of an unknown name", function() circuit():sweep("V9", { 1, 2 }) end, "V9" },
         { "sweep values with NaN", function() circuit():sweep("V1", { 1, NAN }) end, "%[2%]" },
+        -- regression (fuzzer, net harness): the assumed-state iteration once
+        -- stepped a device past the last segment of a bounded model
+        { "assumed state beyond a bounded model", function() bounded():solve { method = "assumed" } end, "D1 needs v = %-50" },
+        { "load line beyond a bounded model", function() bounded():solve() end, "D1" },
+        { "lcp beyond a bounded model", function() bounded():solve { method = "lcp" } end, "D1" },
+        { "enumerate beyond a bounded model", function() bounded():solve { method = "enumerate" } end, "no consistent state" },
         { "network used after free", function() local n = circuit(); n:free(); n:solve() end, "free" },
       }
 
