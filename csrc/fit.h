@@ -104,16 +104,19 @@ void fit_tube_free(fit_tube *w);
 /* Lines with start value in [alo, ahi] at x[p] and slope in [smin, smax]
  * through the bands (half-width e*s) of samples p..qmax: returns the last
  * sample q they all fit; rlo/rhi (when given) get the range of values at
- * each sample up to q.  *ok = 0 when even the samples at x[p] fail. */
+ * each sample up to q, and stop (when given) may end the run there.
+ * *ok = 0 when even the samples at x[p] fail. */
+typedef int (*fit_stop_fn)(void *ctx, size_t i, double lo, double hi);
 size_t fit_tube_run(const fit_data *d, double e, size_t p, size_t qmax, double alo, double ahi,
-                    double smin, double smax, fit_tube *w, int *ok, double *rlo, double *rhi);
+                    double smin, double smax, fit_tube *w, int *ok, double *rlo, double *rhi,
+                    fit_stop_fn stop, void *sctx);
 double fit_tube_start_for(const fit_tube *w, double h, double target);
 void fit_slope_bounds(const fit_cons *k, int first, int lastseg, double *smin, double *smax);
 /* Continuous fewest-segments search over reachable sets (fit_reach.c):
  * *count segments (SIZE_MAX when none within maxseg); knots and their
  * values (room for maxseg + 1) when given. */
-int fit_reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, size_t *count,
-              double *kx, double *ky, sw_err *err);
+int fit_reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, const double *extra,
+              size_t nextra, size_t *count, double *kx, double *ky, sw_err *err);
 int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg,
                       int continuous, const fit_cons *k, sw_pwl *out,
                       double *e_out, size_t *iters, sw_err *err);

@@ -16,7 +16,7 @@
 #include <string.h>
 
 #define MAX_CANDIDATES 400
-#define PIECES 8
+#define PIECES 4
 
 typedef struct piece {
   double lo, hi;
@@ -32,35 +32,67 @@ typedef struct reach_ws {
   piece *pc;       /* PIECES per candidate */
   int *np;
   double *rlo, *rhi;
+  size_t *cand_of; /* candidate at each sample, SIZE_MAX elsewhere */
   fit_tube *w;
 } reach_ws;
 
+/* The expansion in progress, seen by the run's stop test. */
+typedef struct expand_ctx {
+  reach_ws *r;
+  size_t j, level, fin;
+  int t, grew;
+} expand_ctx;
+
 static void reach_free(reach_ws *r)
 {
-  free(r->ci); free(r->pc); free(r->np); free(r->rlo); free(r->rhi);
+  free(r->ci); free(r->pc); free(r->np); free(r->rlo); free(r->rhi); free(r->cand_of);
   fit_tube_free(r->w);
   memset(r, 0, sizeof *r);
 }
 
-static int reach_init(reach_ws *r, const fit_data *d, sw_err *err)
+static int cmp_size(const void *a, const void *b)
 {
-  size_t i, groups = 0, g = 0, *last;
+  size_t p = *(const size_t *)a, q = *(const size_t *)b;
+  return (p > q) - (p < q);
+}
+
+/* Candidates: an even subsample of the distinct abscissae plus the extra
+ * knots (e.g. a greedy pass's), each as the last sample at its x. */
+static int reach_init(reach_ws *r, const fit_data *d, const double *extra, size_t nextra, sw_err *err)
+{
+  size_t i, groups = 0, g = 0, *last, M0, M;
   memset(r, 0, sizeof *r);
   last = sw_alloc(d->n, sizeof *last, err);
   if (!last) return SW_ENOMEM;
   for (i = 0; i < d->n; i++)
     if (i + 1 == d->n || d->x[i + 1] > d->x[i]) last[groups++] = i;
-  r->M = groups < MAX_CANDIDATES ? groups : MAX_CANDIDATES;
+  M0 = groups < MAX_CANDIDATES ? groups : MAX_CANDIDATES;
+  r->M = M0 + nextra;
   r->ci = sw_alloc(r->M, sizeof *r->ci, err);
   r->pc = sw_alloc(r->M * PIECES, sizeof *r->pc, err);
   r->np = sw_alloc(r->M, sizeof *r->np, err);
   r->rlo = sw_alloc(d->n, sizeof *r->rlo, err);
   r->rhi = sw_alloc(d->n, sizeof *r->rhi, err);
+  r->cand_of = sw_alloc(d->n, sizeof *r->cand_of, err);
   r->w = fit_tube_new(d->n, err);
-  if (!r->ci || !r->pc || !r->np || !r->rlo || !r->rhi || !r->w) { free(last); reach_free(r); return SW_ENOMEM; }
-  for (g = 0; g < r->M; g++)
-    r->ci[g] = last[(size_t)((double)g * (double)(groups - 1) / (double)(r->M - 1) + 0.5)];
+  if (!r->ci || !r->pc || !r->np || !r->rlo || !r->rhi || !r->cand_of || !r->w) {
+    free(last);
+    reach_free(r);
+    return SW_ENOMEM;
+  }
+  for (g = 0; g < M0; g++)
+    r->ci[g] = last[(size_t)((double)g * (double)(groups - 1) / (double)(M0 - 1) + 0.5)];
+  for (g = 0; g < nextra; g++) {
+    size_t u = fit_upper(d, extra[g]);
+    r->ci[M0 + g] = u > 0 ? u - 1 : 0;
+  }
+  qsort(r->ci, r->M, sizeof *r->ci, cmp_size);
+  for (g = 0, M = 0; g < r->M; g++)
+    if (M == 0 || r->ci[g] > r->ci[M - 1]) r->ci[M++] = r->ci[g];
+  r->M = M;
   r->ci[0] = 0; /* the start: a run from sample 0 takes every sample at x[0] */
+  for (i = 0; i < d->n; i++) r->cand_of[i] = SIZE_MAX;
+  for (g = 0; g < M; g++) r->cand_of[r->ci[g]] = g;
   free(last);
   return SW_OK;
 }
@@ -77,6 +109,26 @@ static void add_piece(reach_ws *r, size_t j, double lo, double hi, size_t from, 
   P[r->np[j]++] = (piece){lo, hi, from, fromp, level, 0};
 }
 
+/* Records the run's values at a candidate as a piece there, and ends the
+ * run when a piece of an earlier level already holds them: every line
+ * going on from here is then a new segment from that piece, no longer. */
+static int expand_stop(void *p, size_t i, double lo, double hi)
+{
+  expand_ctx *c = p;
+  reach_ws *r = c->r;
+  size_t g = r->cand_of[i];
+  piece *P;
+  int t, before;
+  if (g == SIZE_MAX || g <= c->j || g >= c->fin) return 0;
+  before = r->np[g];
+  add_piece(r, g, lo, hi, c->j, c->t, c->level);
+  c->grew |= r->np[g] != before;
+  P = r->pc + g * PIECES;
+  for (t = 0; t < r->np[g]; t++)
+    if (P[t].level < c->level && P[t].lo <= lo && P[t].hi >= hi) return 1;
+  return 0;
+}
+
 static int last_bounds(const fit_cons *k, int first, double *smin, double *smax)
 {
   double a, b;
@@ -85,46 +137,49 @@ static int last_bounds(const fit_cons *k, int first, double *smin, double *smax)
   return *smin != a || *smax != b;
 }
 
-int fit_reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, size_t *count,
-              double *kx, double *ky, sw_err *err)
+int fit_reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, const double *extra,
+              size_t nextra, size_t *count, double *kx, double *ky, sw_err *err)
 {
   reach_ws r;
   size_t level, j, M, fin;
   int st;
   *count = SIZE_MAX;
-  if ((st = reach_init(&r, d, err))) return st;
+  if ((st = reach_init(&r, d, extra, nextra, err))) return st;
   M = r.M;
   fin = M - 1;
   r.np[0] = 1;
   r.pc[0] = (piece){-INFINITY, INFINITY, SIZE_MAX, 0, 0, 0};
   for (level = 1; level <= maxseg && *count == SIZE_MAX; level++) {
-    int grew = 0;
+    expand_ctx ec;
+    ec.r = &r;
+    ec.level = level;
+    ec.fin = fin;
+    ec.grew = 0;
     for (j = 0; j < fin; j++) {
       int t;
       for (t = 0; t < r.np[j]; t++) {
         piece *P = r.pc + j * PIECES + t;
         double smin, smax;
-        size_t q, g;
+        size_t q;
         int ok, first = P->from == SIZE_MAX;
         if (P->expanded || P->level != level - 1) continue;
         P->expanded = 1;
         fit_slope_bounds(k, first, 0, &smin, &smax);
-        q = fit_tube_run(d, e, r.ci[j], d->n - 1, P->lo, P->hi, smin, smax, r.w, &ok, r.rlo, r.rhi);
+        ec.j = j;
+        ec.t = t;
+        q = fit_tube_run(d, e, r.ci[j], d->n - 1, P->lo, P->hi, smin, smax, r.w, &ok, r.rlo, r.rhi,
+                         expand_stop, &ec);
         if (!ok) continue;
-        for (g = j + 1; g < fin && r.ci[g] <= q; g++) {
-          int before = r.np[g];
-          add_piece(&r, g, r.rlo[r.ci[g]], r.rhi[r.ci[g]], j, t, level);
-          grew |= r.np[g] != before;
-        }
         if (last_bounds(k, first, &smin, &smax))
-          q = fit_tube_run(d, e, r.ci[j], d->n - 1, P->lo, P->hi, smin, smax, r.w, &ok, r.rlo, r.rhi);
+          q = fit_tube_run(d, e, r.ci[j], d->n - 1, P->lo, P->hi, smin, smax, r.w, &ok, r.rlo, r.rhi,
+                           NULL, NULL);
         if (ok && q == d->n - 1 && r.ci[fin] == d->n - 1) {
           add_piece(&r, fin, r.rlo[q], r.rhi[q], j, t, level);
           if (r.np[fin]) *count = level;
         }
       }
     }
-    if (!grew && *count == SIZE_MAX) break;
+    if (!ec.grew && *count == SIZE_MAX) break;
   }
   if (*count != SIZE_MAX && kx) {
     /* walk back from the end: each segment's start value on its polygon */
@@ -140,7 +195,7 @@ int fit_reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, siz
       int ok, first = Q->from == SIZE_MAX;
       if (at == fin) last_bounds(k, first, &smin, &smax);
       else fit_slope_bounds(k, first, 0, &smin, &smax);
-      fit_tube_run(d, e, r.ci[i], r.ci[at], Q->lo, Q->hi, smin, smax, r.w, &ok, NULL, NULL);
+      fit_tube_run(d, e, r.ci[i], r.ci[at], Q->lo, Q->hi, smin, smax, r.w, &ok, NULL, NULL, NULL, NULL);
       a = fit_tube_start_for(r.w, d->x[r.ci[at]] - d->x[r.ci[i]], target);
       seg--;
       kx[seg] = d->x[r.ci[i]];

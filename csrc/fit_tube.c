@@ -244,7 +244,8 @@ static void value_range(const poly *P, double D, double *lo, double *hi)
  * the bands of samples p..qmax.  Returns the last index q all of p..q fit,
  * with ws->P their polygon; *ok = 0 when even the samples at x[p] do not. */
 size_t fit_tube_run(const fit_data *d, double e, size_t p, size_t qmax, double alo, double ahi,
-                    double smin, double smax, fit_tube *w, int *ok, double *rlo, double *rhi)
+                    double smin, double smax, fit_tube *w, int *ok, double *rlo, double *rhi,
+                    fit_stop_fn stop, void *sctx)
 {
   double X0 = d->x[p], l, u, D, pa[4], ps[4];
   size_t i = p, last, hu, hl, keep;
@@ -287,11 +288,12 @@ size_t fit_tube_run(const fit_data *d, double e, size_t p, size_t qmax, double a
   }
   hu = ring_climb(R, R->head, 1, D);
   hl = ring_climb(R, R->head, -1, -D);
+  last = i;
   if (rlo) {
     rlo[i] = R->a[hl] + R->s[hl] * D;
     rhi[i] = R->a[hu] + R->s[hu] * D;
+    if (stop && stop(sctx, i, rlo[i], rhi[i])) { ring_export(R, &w->P); return last; }
   }
-  last = i;
   for (i = i + 1; i <= qmax; i++) {
     double vmax, vmin;
     D = d->x[i] - X0;
@@ -310,11 +312,12 @@ size_t fit_tube_run(const fit_data *d, double e, size_t p, size_t qmax, double a
     if (!ring_cut(R, hl, -1, -D, -l, &keep)) break;
     hl = keep;
     if (R->dead[hu]) hu = keep;
+    last = i;
     if (rlo) {
       rlo[i] = vmin > l ? vmin : l;
       rhi[i] = vmax < u ? vmax : u;
+      if (stop && stop(sctx, i, rlo[i], rhi[i])) break;
     }
-    last = i;
   }
   ring_export(R, &w->P);
   return last;
@@ -455,7 +458,7 @@ static size_t greedy(const fit_data *d, double e, int continuous, const fit_cons
     double smin, smax;
     int ok;
     fit_slope_bounds(k, m == 0, 0, &smin, &smax);
-    q = fit_tube_run(d, e, p, d->n - 1, alo, ahi, smin, smax, w, &ok, NULL, NULL);
+    q = fit_tube_run(d, e, p, d->n - 1, alo, ahi, smin, smax, w, &ok, NULL, NULL, NULL, NULL);
     if (!ok || !(d->x[q] > d->x[p])) return SIZE_MAX;
     m++;
     if (R && (*st = recs_push(R, p, q, &w->P, err))) return SIZE_MAX;
@@ -582,6 +585,44 @@ static int convex_data(const fit_data *d)
   return 1;
 }
 
+/* Knots of a continuous greedy pass at level e (end slope ignored), used as
+ * extra candidates of the reachable-set search; *xs owned by the caller. */
+static int greedy_candidates(const fit_data *d, double e, const fit_cons *k, tube_ws *w,
+                             double **xs, size_t *n, sw_err *err)
+{
+  rec_list R;
+  fit_cons kk;
+  size_t j, m;
+  int st = SW_OK;
+  memset(&R, 0, sizeof R);
+  *xs = NULL;
+  *n = 0;
+  if (k) { kk = *k; kk.has_last = 0; }
+  m = greedy(d, e, 1, k ? &kk : NULL, d->n, w, &R, &st, err);
+  if (!st && m != SIZE_MAX && R.n) {
+    *xs = sw_alloc(R.n + 1, sizeof **xs, err);
+    if (!*xs) st = SW_ENOMEM;
+    else {
+      for (j = 0; j < R.n; j++) (*xs)[j] = d->x[R.r[j].p];
+      (*xs)[R.n] = d->x[R.r[R.n - 1].q];
+      *n = R.n + 1;
+    }
+  }
+  recs_free(&R);
+  return st;
+}
+
+static int reach_with_greedy(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
+                             tube_ws *w, size_t *m, double *kx, double *ky, sw_err *err)
+{
+  double *xs;
+  size_t nx;
+  int st = greedy_candidates(d, e, k, w, &xs, &nx, err);
+  if (!st) st = fit_reach(d, e, k, maxseg, xs, nx, m, kx, ky, err);
+  free(xs);
+  return st;
+}
+
 /* Continuous model through knots kx with values ky. */
 static int knots_model(const double *kx, const double *ky, size_t m, sw_pwl *out, sw_err *err)
 {
@@ -606,7 +647,10 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
   if (continuous && (!convex_data(d) || (k && k->has_last))) {
     double *kx = sw_alloc(d->n + 1, sizeof *kx, err), *ky = sw_alloc(d->n + 1, sizeof *ky, err);
     size_t m;
-    st = (!kx || !ky) ? SW_ENOMEM : fit_reach(d, e, k, d->n, &m, kx, ky, err);
+    tube_ws w;
+    st = (!kx || !ky) ? SW_ENOMEM : ws_init(&w, d->n, err);
+    if (!st) st = reach_with_greedy(d, e, k, d->n, &w, &m, kx, ky, err);
+    ws_free(&w);
     if (!st && m == SIZE_MAX)
       st = sw_err_set(err, SW_ENOSOL, "no continuous model meets the tolerance %g under the "
                       "constraints (through points, slopes, monotone) at the data", e);
@@ -632,7 +676,7 @@ static int count_at(const fit_data *d, double e, int continuous, const fit_cons 
 {
   int st = SW_OK;
   if (continuous && (!convex_data(d) || (k && k->has_last))) {
-    st = fit_reach(d, e, k, maxseg, m, kx, ky, err);
+    st = reach_with_greedy(d, e, k, maxseg, w, m, kx, ky, err);
     if (*m == SIZE_MAX) *m = maxseg + 1;
     return st;
   }
@@ -660,21 +704,64 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   ky = sw_alloc(d->n + 1, sizeof *ky, err);
   if (!kx || !ky) { st = SW_ENOMEM; goto done; }
   if ((st = ws_init(&w, d->n, err))) goto done;
-  for (tries = 0; tries < 200; tries++) {
-    if ((st = count_at(d, ehi, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
-    if (m <= nseg) break;
-    elo = ehi;
-    ehi *= 2;
+  if (continuous && (!convex_data(d) || (k && k->has_last))) {
+    /* reachable sets cost more than a greedy pass: bracket their optimum
+     * between the discontinuous optimum (a continuous model is also a
+     * discontinuous one) and the continuous greedy's level, then bisect
+     * coarsely; the fixed-knot minimax that follows settles the level */
+    double eg = ehi, gl = 0;
+    int use_greedy = !(k && k->has_last);
+    for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-9 * ehi; it++) {
+      double mid = 0.5 * (elo + ehi);
+      if ((st = count_at(d, mid, 0, NULL, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if (m <= nseg) ehi = mid; else elo = mid;
+    }
+    *iters += it;
+    ehi = elo;
+    if (use_greedy) {
+      for (tries = 0; tries < 200; tries++) {
+        m = greedy(d, eg, 1, k, nseg, &w, NULL, &st, err);
+        if (st) goto done;
+        if (m <= nseg) break;
+        gl = eg;
+        eg *= 2;
+      }
+      for (it = 0; tries < 200 && it < BISECT_STEPS && eg - gl > 1e-9 * eg; it++) {
+        double mid = 0.5 * (gl + eg);
+        m = greedy(d, mid, 1, k, nseg, &w, NULL, &st, err);
+        if (st) goto done;
+        if (m <= nseg) eg = mid; else gl = mid;
+      }
+      if (tries < 200) ehi = eg;
+    }
+    for (tries = 0; tries < 200; tries++) {
+      if ((st = count_at(d, ehi, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if (m <= nseg) break;
+      elo = ehi;
+      ehi *= 1.25;
+    }
+    for (it = 0; tries < 200 && it < BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
+      double mid = 0.5 * (elo + ehi);
+      if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if (m <= nseg) ehi = mid; else elo = mid;
+    }
+  } else {
+    for (tries = 0; tries < 200; tries++) {
+      if ((st = count_at(d, ehi, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if (m <= nseg) break;
+      elo = ehi;
+      ehi *= 2;
+    }
+    for (it = 0; tries < 200 && it < BISECT_STEPS && ehi - elo > 1e-10 * ehi; it++) {
+      double mid = 0.5 * (elo + ehi);
+      if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if (m <= nseg) ehi = mid; else elo = mid;
+    }
   }
   if (tries == 200) {
     st = sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
                     "be met with %zu segments", nseg);
     goto done;
-  }
-  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-12 * ehi; it++) {
-    double mid = 0.5 * (elo + ehi);
-    if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
-    if (m <= nseg) ehi = mid; else elo = mid;
   }
   *iters += it;
   if ((st = count_at(d, ehi, continuous, k, nseg, &w, &R, kx, ky, &m, err))) goto done;
@@ -752,7 +839,7 @@ static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi
     size_t q;
     fit_slope_bounds(k, j == 0, j == nseg - 1, &smin, &smax);
     if (smin > smax) return SW_OK;
-    q = fit_tube_run(d, e, pi[j], qi[j], alo, ahi, smin, smax, w, &ok, NULL, NULL);
+    q = fit_tube_run(d, e, pi[j], qi[j], alo, ahi, smin, smax, w, &ok, NULL, NULL, NULL, NULL);
     if (!ok || q < qi[j]) return SW_OK;
     if (R && (st = recs_push(R, pi[j], qi[j], &w->P, err))) return st;
     value_range(&w->P, d->x[qi[j]] - d->x[pi[j]], &alo, &ahi);
@@ -778,7 +865,7 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
   if (tries == 200)
     return sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
                       "be met with these knots");
-  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-14 * ehi; it++) {
+  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-12 * ehi; it++) {
     double mid = 0.5 * (elo + ehi);
     if ((st = chain(d, mid, pi, qi, nseg, kp, w, NULL, &feas, err))) return st;
     if (feas) ehi = mid; else elo = mid;
@@ -898,7 +985,7 @@ int fit_interp_count(const fit_data *d, size_t nseg, sw_pwl *out, double *e_out,
   int st;
   if (!idx) return SW_ENOMEM;
   while (chord_greedy(d, ehi, nseg, NULL) > nseg) { elo = ehi; ehi *= 2; }
-  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-13 * ehi; it++) {
+  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-10 * ehi; it++) {
     double mid = 0.5 * (elo + ehi);
     if (chord_greedy(d, mid, nseg, NULL) <= nseg) ehi = mid; else elo = mid;
   }

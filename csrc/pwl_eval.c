@@ -9,7 +9,8 @@
  *   - for points in random order, a guess from the point's position that is
  *     then corrected to the exact segment: the guess is direct when the
  *     knots are uniform, and read from a small bucket table on the stack
- *     otherwise.  The correction compares with the knots themselves, so
+ *     otherwise (a binary search inside the bucket when it holds many
+ *     knots).  The correction compares with the knots themselves, so
  *     rounding in the guess never changes the answer, only its cost.
  * Nothing is allocated. */
 #include "pwl.h"
@@ -25,7 +26,7 @@
  * Any value is safe (the guess is corrected); this one keeps the correction
  * at a step or none. */
 #define UNIFORM_TOL 1e-9
-/* More forward steps than this per bucket: walk with a loop instead. */
+/* More forward steps than this per bucket: a binary search instead. */
 #define MAX_STEPS 4
 
 /* How a point's position guesses its segment. */
@@ -163,22 +164,36 @@ static int eval_guessed(const sw_pwl *m, const guess *g, const double *x, double
   return SW_OK;
 }
 
-/* Points in any order when buckets hold many knots (very uneven knots):
- * walk from the bucket's first segment. */
-static int eval_walk(const sw_pwl *m, const guess *g, const double *x, double *y,
-                     size_t i, size_t n, sw_err *err)
+/* Last k in [lo, hi] with x >= xk[k] (lo when none): a binary search. */
+static inline size_t search(const double *xk, size_t lo, size_t hi, double x)
+{
+  while (hi > lo) {
+    size_t mid = lo + (hi - lo + 1) / 2;
+    if (x >= xk[mid]) lo = mid; else hi = mid - 1;
+  }
+  return lo;
+}
+
+/* Points in any order when buckets hold many knots (large models with
+ * uneven knots): a binary search between the bucket's first and last
+ * segments, then the exact correction. */
+static int eval_search(const sw_pwl *m, const guess *g, const double *x, double *y,
+                       size_t i, size_t n, sw_err *err)
 {
   const double *xk = m->x;
-  size_t nseg = m->nseg;
-  double lo = xk[0], hi = xk[nseg];
+  const size_t nseg = m->nseg, last = g->nb - 1;
+  const double lo = xk[0], hi = xk[nseg];
   for (; i < n; i++) {
     double xi = x[i];
+    size_t b, k;
     if (!(xi >= lo && xi <= hi)) {
       int st = eval_outside(m, xi, &y[i], i, err);
       if (st) return st;
       continue;
     }
-    y[i] = line_at(m, settle(xk, nseg, g->start[guess_bucket(g, xi)], xi), xi);
+    b = guess_bucket(g, xi);
+    k = search(xk, g->start[b], b < last ? g->start[b + 1] : nseg - 1, xi);
+    y[i] = line_at(m, settle(xk, nseg, k, xi), xi);
   }
   return SW_OK;
 }
@@ -221,6 +236,6 @@ int sw_pwl_eval_many(const sw_pwl *m, const double *x, double *y, size_t n, sw_e
   if (i == n) return SW_OK;
   if (m->nseg <= 4) return eval_small(m, x, y, i, n, err);
   guess_init(m, &g);
-  if (g.steps > MAX_STEPS) return eval_walk(m, &g, x, y, i, n, err);
+  if (g.steps > MAX_STEPS) return eval_search(m, &g, x, y, i, n, err);
   return eval_guessed(m, &g, x, y, i, n, err);
 }
