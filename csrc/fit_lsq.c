@@ -16,6 +16,7 @@
 
 #define DENSE_LIMIT 3000
 #define DP_CANDIDATES 600
+#define SEARCH_SAMPLES 4000
 
 static double weight(const fit_data *d, size_t i)
 {
@@ -389,11 +390,30 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
 {
   double *c, *K2, best, cur;
   size_t j, sweep, it;
+  fit_data sub;
+  size_t stride;
   int st = dp_knots(d, lo, hi, nseg, knots, iters, err);
   if (st || !continuous || nseg < 2) return st;
   c = sw_alloc(nseg + 1, sizeof *c, err);
   K2 = sw_alloc(nseg + 1, sizeof *K2, err);
+  memset(&sub, 0, sizeof sub);
   if (!c || !K2) { free(c); free(K2); return SW_ENOMEM; }
+  /* the knot search runs on every stride-th sample (weights scaled), the
+   * final fit on all of them */
+  stride = d->n / SEARCH_SAMPLES + 1;
+  if (stride > 1) {
+    size_t i, m = 0;
+    sub.x = sw_alloc(d->n / stride + 2, sizeof(double), err);
+    sub.y = sw_alloc(d->n / stride + 2, sizeof(double), err);
+    sub.s = sw_alloc(d->n / stride + 2, sizeof(double), err);
+    sub.w = sw_alloc(d->n / stride + 2, sizeof(double), err);
+    if (!sub.x || !sub.y || !sub.s || !sub.w) { fit_data_free(&sub); free(c); free(K2); return SW_ENOMEM; }
+    for (i = 0; i < d->n; i += stride, m++) {
+      sub.x[m] = d->x[i]; sub.y[m] = d->y[i]; sub.s[m] = d->s[i]; sub.w[m] = d->w[i] * (double)stride;
+    }
+    sub.n = m;
+    d = &sub;
+  }
   best = cont_sse(d, knots, nseg, c);
   if (start) {
     double s2 = cont_sse(d, start, nseg, c);
@@ -424,5 +444,6 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
   }
   free(c);
   free(K2);
+  fit_data_free(&sub);
   return SW_OK;
 }
