@@ -76,9 +76,11 @@ describe("segwise.fit", function()
       for _, crit in ipairs { "minimax", "lsq", "interp", "chord", "tangent" } do
         for _, scheme in ipairs(schemes) do
           for _, measure in ipairs { "abs", "rel" } do
-            it(("%s, %s, knots %s, error %s"):format(cv.name, crit, scheme, measure), function()
+           for _, cont in ipairs { true, false } do
+            it(("%s, %s, knots %s, error %s, continuous = %s"):format(cv.name, crit, scheme, measure,
+              tostring(cont)), function()
               local c = cv.make()
-              local opts = { lo = cv.lo, hi = cv.hi, criterion = crit, error = measure }
+              local opts = { lo = cv.lo, hi = cv.hi, criterion = crit, error = measure, continuous = cont }
               if scheme == "list" then
                 opts.knots = { cv.lo, cv.lo + 0.6 * (cv.hi - cv.lo), cv.lo + 0.9 * (cv.hi - cv.lo), cv.hi }
               else
@@ -99,6 +101,7 @@ describe("segwise.fit", function()
               local cmp = m:compare(c, { lo = cv.lo, hi = cv.hi, n = 2001 })
               assert.is.near(cmp.max_abs, info.max_abs, 1e-6 * cmp.max_abs + 1e-300)
             end)
+           end
           end
         end
       end
