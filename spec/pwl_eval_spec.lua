@@ -4,7 +4,8 @@
 -- under every extension rule, and on discontinuous models (right-hand rule).
 -- The batch path takes different routes by input (a merge for sorted input,
 -- a direct guess for uniform knots, a bucket table otherwise, a counting
--- search for few segments, a walk for very uneven knots); the cases below
+-- search for few segments, a binary search inside buckets holding many
+-- knots: very uneven knots or large models); the cases below
 -- reach each of them.
 local sw = require "segwise"
 
@@ -130,6 +131,15 @@ describe("segwise.pwl", function()
             end
           end
         end
+      end
+    end)
+
+    it("agrees bit for bit on a large model (more segments than bucket slots)", function()
+      for _, sorted in ipairs { false, true } do
+        local x = make_knots(12000, "uneven")
+        local m = continuous_model(x, "line")
+        local pts = make_points(x, 5000, true, sorted)
+        assert.is_nil(first_mismatch(m, pts, m:eval(pts)))
       end
     end)
 

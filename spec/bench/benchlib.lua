@@ -187,10 +187,13 @@ function B.markdown(date, machine)
       r.seconds and fmt_time(r.seconds) or "-", r.extra))
   end
   add("")
-  add("Ratios (peer time / segwise time; above 1 means segwise is faster):")
+  add("Ratios, peer / segwise, above 1 means segwise is better: time, or peak memory for memory_*;")
+  add("for fit_tol_* the target time over segwise's time:")
   add("")
   for _, r in ipairs(B.ratios) do add(("    bench %s ratio %.3g"):format(r.name, r.ratio)) end
   if #B.notes > 0 then
+    add("")
+    add("Targets and notes:")
     add("")
     for _, n in ipairs(B.notes) do add("- " .. n) end
   end

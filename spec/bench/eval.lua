@@ -95,7 +95,10 @@ return function(B)
       B.ratio(tag .. "_vs_gsl", med.gsl, med.segwise)
       if med.numpy then
         B.row("evaluation", case, n, "numpy.interp", med.numpy)
-        B.ratio(tag .. "_vs_numpy", med.numpy, med.segwise)
+        local x = B.ratio(tag .. "_vs_numpy", med.numpy, med.segwise)
+        local goal = order == "random" and 2 or 1
+        B.note(("evaluation %s points, %s: %.2fx numpy.interp (target >= %dx): %s")
+          :format(n == 1e6 and "1e6" or "1e7", order, x, goal, x >= goal and "met" or "missed"))
       end
       if med.lua then
         B.row("evaluation", case, n, "plain Lua loop", med.lua)

@@ -20,7 +20,7 @@ local ok, err = xpcall(function()
   for _, s in ipairs(sections) do
     if chosen[s] then
       local t0 = os.time()
-      require(s == "eval" and "eval" or s)(B)
+      require(s)(B)
       io.stderr:write(("bench: section %s took %d s\n"):format(s, os.time() - t0))
     end
   end
@@ -35,10 +35,11 @@ local machine = B.machine()
 local _, gslv = B.sh("pkg-config --modversion gsl")
 machine.gsl = gslv:gsub("%s+$", "")
 local date = os.date("!%Y-%m-%d %H:%M UTC")
+B.note(("whole run: %d s; reproduce with `make bench` (installs python3-numpy and python3-scipy if missing)")
+  :format(os.time() - started))
 local md = B.markdown(date, machine)
 print()
 io.write(md)
-B.note(("whole run: %d s"):format(os.time() - started))
 if #arg == 0 then
   local f = assert(io.open("spec/bench/RESULTS.md", "w"))
   f:write(md)
