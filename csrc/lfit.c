@@ -105,6 +105,7 @@ static int l_fit(lua_State *L)
   if (has_tol && !(o.tol > 0)) return luaL_error(L, "segwise.fit: tol (%g) must be positive", o.tol);
   if (opt_number(L, "segments", &v)) {
     if (!(v >= 1) || v != floor(v)) return luaL_error(L, "segwise.fit: segments (%g) must be an integer >= 1", v);
+    if (v > 100000) return luaL_error(L, "segwise.fit: segments (%g) is too large (at most 100000)", v);
     o.segments = (size_t)v;
   }
   if (has_tol) o.segments = 0;

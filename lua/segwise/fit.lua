@@ -3,6 +3,7 @@
 -- core.fit (csrc/fit*.c).  The model keeps how it was made: m:fit_info().
 local util = require "segwise.util"
 
+local MAX_SEGMENTS, MAX_GRID = 100000, 10000000
 local CRITERIA = { "minimax", "lsq", "interp", "tangent", "chord" }
 local SCHEMES = { "uniform", "geometric", "curvature", "optimal" }
 
@@ -53,7 +54,8 @@ return function(sw, core)
     for _, k in ipairs { "lo", "hi", "tol", "rel_floor", "at", "slope_first", "slope_last", "segments" } do
       finite(k, o[k])
     end
-    local dlo, dhi = curve:domain()
+    local okd, dlo, dhi = pcall(curve.domain, curve)
+    if not okd then fail("curve: %s", tostring(dlo):gsub("^.-: ", "")) end
     o.lo = o.lo or dlo
     o.hi = o.hi or dhi
     if o.lo == -math.huge or o.hi == math.huge then
@@ -68,6 +70,10 @@ return function(sw, core)
     if o.segments ~= nil and (o.segments < 1 or o.segments ~= math.floor(o.segments)) then
       fail("segments (%g) must be an integer of at least 1", o.segments)
     end
+    if o.segments ~= nil and o.segments > MAX_SEGMENTS then
+      fail("segments (%g) is too large (at most %d)", o.segments, MAX_SEGMENTS)
+    end
+    if o.grid ~= nil and o.grid > MAX_GRID then fail("grid (%g) is too large (at most %d)", o.grid, MAX_GRID) end
     if o.rel_floor ~= nil and not (o.rel_floor > 0) then fail("rel_floor (%g) must be positive", o.rel_floor) end
     if o.grid ~= nil and (o.grid < 3 or o.grid ~= math.floor(o.grid)) then
       fail("grid (%g) must be an integer of at least 3", o.grid)
