@@ -7,8 +7,9 @@
  *    at most 19 digits and a power of ten up to 1e27 are exact there; one
  *    operation is off by at most half a long-double unit, so rounding that
  *    to double is right unless it sits within one such unit of a halfway
- *    point between doubles.  Those rare cases, and long doubles of any
- *    other width, go to strtod. */
+ *    point between doubles.  Those rare cases, long doubles of any other
+ *    width, and machines whose long double arithmetic turns out narrower
+ *    than it says (checked at run time), go to strtod. */
 #include "textnum.h"
 
 #include <float.h>
@@ -43,7 +44,18 @@ static int extended(unsigned long long m, int e10, double *out)
 }
 #endif
 
-double sw_text_strtod(const char *p, char **end)
+int sw_text_extended_ok(void)
+{
+#if LDBL_MANT_DIG == 64
+  volatile long double one = 1.0L, tiny = LDBL_EPSILON, big = 9007199254740993.0L;
+  volatile long double sum = one + tiny, diff = big - 9007199254740992.0L;
+  return sum != one && diff == one;
+#else
+  return 0;
+#endif
+}
+
+double sw_text_strtod(const char *p, char **end, int extended_ok)
 {
   const char *q = p;
   unsigned long long m = 0;
@@ -71,13 +83,16 @@ double sw_text_strtod(const char *p, char **end)
     e10 += eneg ? -ev : ev;
     q = r;
   }
-  if (nd <= 15 && e10 >= -22 && e10 <= 22) {
+  /* Clinger's path needs plain double arithmetic (no wider evaluation) */
+  if (FLT_EVAL_METHOD == 0 && nd <= 15 && e10 >= -22 && e10 <= 22) {
     v = (double)m;
     v = e10 < 0 ? v / pow10_d[-e10] : v * pow10_d[e10];
   } else {
 #if LDBL_MANT_DIG == 64
-    if (m == 0 || e10 < -27 || e10 > 27 || !extended(m, e10, &v)) return strtod(p, end);
+    if (!extended_ok || m == 0 || e10 < -27 || e10 > 27 || !extended(m, e10, &v))
+      return strtod(p, end);
 #else
+    (void)extended_ok;
     return strtod(p, end);
 #endif
   }

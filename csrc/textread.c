@@ -22,6 +22,7 @@ typedef struct scan {
   const char *line_start;
   size_t line;             /* 1-based */
   char delim;              /* ',', ';', '\t', or ' ' for whitespace runs */
+  int extended_ok;         /* sw_text_extended_ok(), asked once */
   sw_err *err;
 } scan;
 
@@ -383,7 +384,7 @@ static int parse_row(scan *s, layout *lay)
       double v;
       /* strtod skips newlines: an empty field must not reach it */
       if (is_eol(s, fs) || *fs == s->delim) return bad_number(s, lay, f, fs);
-      v = sw_text_strtod(fs, &e);
+      v = sw_text_strtod(fs, &e, s->extended_ok);
       q = e;
       if (e == fs) return bad_number(s, lay, f, fs);
       if (s->delim == ';' && *q == ',') { /* decimal comma */
@@ -486,6 +487,7 @@ int sw_text_parse(const char *buf, size_t len, const char *name,
   s.line = 1;
   s.delim = opts->delim ? opts->delim : ',';
   s.err = err;
+  s.extended_ok = sw_text_extended_ok();
 
   if (len == 0) return fail_at(&s, s.p, "the file is empty");
   st = check_text(&s, buf, len, &est);
