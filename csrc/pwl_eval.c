@@ -12,11 +12,17 @@
  *     otherwise (a binary search inside the bucket when it holds many
  *     knots).  The correction compares with the knots themselves, so
  *     rounding in the guess never changes the answer, only its cost.
- * Nothing is allocated. */
+ * Nothing is allocated; a large result gets huge-page advice on Linux. */
+#if defined(__linux__) && !defined(_DEFAULT_SOURCE)
+#define _DEFAULT_SOURCE /* madvise's MADV_HUGEPAGE under -std=c99 */
+#endif
 #include "pwl.h"
 
 #include <math.h>
 #include <stdint.h>
+#if defined(__linux__)
+#include <sys/mman.h>
+#endif
 
 /* Below this many points the set-up is not worth it. */
 #define FEW_POINTS 16
@@ -101,6 +107,26 @@ static inline size_t guess_bucket(const guess *g, double x)
 {
   double t = (x - g->x0) * g->scale;
   return t < (double)g->nb ? (size_t)t : g->nb - 1; /* t >= 0 inside; NaN to the end */
+}
+
+/* A large result written for the first time costs a page fault per 4 KiB
+ * page; on Linux, advising huge pages for the 2 MiB-aligned inside of the
+ * result makes that one fault per 2 MiB (several times faster for 1e7
+ * points).  Only above 32 MiB, the size from which the C library maps every
+ * block afresh: smaller blocks are usually reused heap pages, already
+ * faulted in, where the advice only costs.  Advice only: whatever the kernel
+ * answers, nothing else changes. */
+static void advise_huge_pages(double *y, size_t n)
+{
+#if defined(__linux__) && defined(MADV_HUGEPAGE)
+  const uintptr_t huge = (uintptr_t)2 << 20;
+  uintptr_t lo = ((uintptr_t)y + huge - 1) & ~(huge - 1);
+  uintptr_t hi = ((uintptr_t)(y + n)) & ~(huge - 1);
+  if (n >= ((size_t)32 << 20) / sizeof *y && hi > lo) (void)madvise((void *)lo, hi - lo, MADV_HUGEPAGE);
+#else
+  (void)y;
+  (void)n;
+#endif
 }
 
 /* Points outside the knots and NaN: exactly the scalar path. */
@@ -232,6 +258,7 @@ int sw_pwl_eval_many(const sw_pwl *m, const double *x, double *y, size_t n, sw_e
       if ((st = eval_outside(m, x[i], &y[i], i, err))) return st;
     return SW_OK;
   }
+  advise_huge_pages(y, n);
   if ((st = eval_merge(m, x, y, n, &i, err))) return st;
   if (i == n) return SW_OK;
   if (m->nseg <= 4) return eval_small(m, x, y, i, n, err);

@@ -143,6 +143,23 @@ describe("segwise.pwl", function()
       end
     end)
 
+    it("agrees on a result above 32 MiB (the huge-page advice path)", function()
+      local x = make_knots(64, "uneven")
+      local m = continuous_model(x, "hold")
+      local n, lo, w = 4400000, x[1] - 1, x[#x] - x[1] + 2
+      local a = sw.array(n)
+      for i = 1, n do a[i] = lo + w * math.random() end
+      local y = m:eval(a)
+      assert.are.equal(n, #y)
+      for _ = 1, 3000 do
+        local i = math.random(n)
+        assert.is_true(same(m(a[i]), y[i]), "index " .. i)
+      end
+      assert.is_true(same(m(a[n]), y[n]))
+      y:free()
+      a:free()
+    end)
+
     it("takes arrays and returns the same bits as from a table", function()
       for _, kind in ipairs(kinds) do
         local x = make_knots(64, kind)
