@@ -179,6 +179,27 @@ describe("segwise.pwl", function()
       end
     end)
 
+    it("writes into a given array, also in place over the input, with the same bits", function()
+      for _, kind in ipairs(kinds) do
+        local x = make_knots(64, kind)
+        local m = continuous_model(x, "line")
+        for _, sorted in ipairs { false, true } do
+          local pts = make_points(x, 1000, true, sorted)
+          local want = m:eval(pts)
+          local out = sw.array(#pts + 3)
+          assert.are.equal(out, m:eval(sw.array(pts), out))
+          local a = sw.array(pts)
+          assert.are.equal(a, m:eval(a, a)) -- in place: each x[i] is read before y[i] is written
+          for i = 1, #pts do
+            if not (same(want[i], out[i]) and same(want[i], a[i])) then
+              error(("%s sorted=%s: into an array or in place differs at %d"):format(kind, tostring(sorted), i))
+            end
+          end
+          assert.are.equal(0, out[#pts + 1]) -- beyond the input: untouched
+        end
+      end
+    end)
+
     it("switches from the sorted walk to random access at the first step back", function()
       local x = make_knots(40, "uneven")
       local m = continuous_model(x, "line")

@@ -54,6 +54,7 @@ return function(B)
       local check = tonumber(out:match("check (%S+)"))
       assert(ok and check == B.fingerprint(pts), "peer data differ from the Lua data: " .. out)
       local want -- the segwise result's fingerprint, which every peer must match
+      local out
       local sides = {
         { label = "segwise", run = function()
           local t = os.clock()
@@ -62,6 +63,12 @@ return function(B)
           want = want or B.fingerprint(y)
           y:free()
           return t
+        end },
+        { label = "segwise_out", run = function() -- into an existing array: no new pages
+          out = out or sw.array(n)
+          local t = os.clock()
+          m:eval(pts, out)
+          return os.clock() - t
         end },
         { label = "gsl", run = function()
           local t, c = B.peer(("%s interp %s %s"):format(B.gsl, knots, file))
@@ -91,6 +98,8 @@ return function(B)
       local tag = ("eval_%s_%s"):format(n == 1e6 and "1e6" or "1e7", order)
       B.row("evaluation", case, n, "segwise m:eval(array)", med.segwise,
         ("%.0f M points/s"):format(n / med.segwise / 1e6))
+      B.row("evaluation", case, n, "segwise m:eval(array, out)", med.segwise_out,
+        ("%.0f M points/s, into an existing array"):format(n / med.segwise_out / 1e6))
       B.row("evaluation", case, n, "GSL gsl_interp linear + accel", med.gsl)
       B.ratio(tag .. "_vs_gsl", med.gsl, med.segwise)
       if med.numpy then
@@ -104,7 +113,9 @@ return function(B)
         B.row("evaluation", case, n, "plain Lua loop", med.lua)
         B.ratio(tag .. "_vs_lua", med.lua, med.segwise)
       end
+      assert(agree(B.fingerprint(out), want), "m:eval(x, out) differs from m:eval(x)")
       pts:free()
+      out:free()
       tab, tout = nil, nil
       collectgarbage()
     end

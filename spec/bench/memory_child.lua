@@ -1,7 +1,9 @@
 -- Child process of the memory comparison: fills an array of N points, then
 -- evaluates the benchmark's model on it, and prints the peak resident set
 -- (VmHWM) at three moments: after loading segwise, after filling the input,
--- after the evaluation.  Usage: lua5.4 spec/bench/memory_child.lua N
+-- after the evaluation.  MODE "fresh": m:eval(x) returns a new array;
+-- "inplace": m:eval(x, x) overwrites the input.
+-- Usage: lua5.4 spec/bench/memory_child.lua N MODE
 package.path = "./spec/bench/?.lua;" .. package.path
 local sw = require "segwise"
 local B = require "benchlib"
@@ -25,7 +27,7 @@ local base = hwm()
 local x = B.points(n, 99, "random", 0, 0.75)
 collectgarbage()
 local filled = hwm()
-local y = m:eval(x)
+local y = arg[2] == "inplace" and m:eval(x, x) or m:eval(x)
 local peak = hwm()
 assert(#y == n)
 print(("base %d filled %d peak %d"):format(base, filled, peak))
