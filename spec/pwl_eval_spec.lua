@@ -58,8 +58,9 @@ local function jumping_model(x, extend)
 end
 
 -- Points: every knot, the knot ends, points inside, and (when outside is
--- true) points beyond both ends; shuffled unless sorted.
-local function make_points(x, count, outside, sorted)
+-- true) points beyond both ends, and the infinities when infinite is true
+-- (tables only: arrays hold finite numbers); shuffled unless sorted.
+local function make_points(x, count, outside, sorted, infinite)
   local lo, hi, pts = x[1], x[#x], {}
   for k = 1, #x do pts[#pts + 1] = x[k] end
   for _ = 1, count do pts[#pts + 1] = lo + (hi - lo) * math.random() end
@@ -69,6 +70,7 @@ local function make_points(x, count, outside, sorted)
       pts[#pts + 1] = lo - w * math.random()
       pts[#pts + 1] = hi + w * math.random()
     end
+    if infinite then pts[#pts + 1], pts[#pts + 2] = -math.huge, math.huge end
   end
   if sorted then
     table.sort(pts)
@@ -96,7 +98,7 @@ describe("segwise.pwl", function()
             for _, sorted in ipairs { false, true } do
               local x = make_knots(nseg, kind)
               local m = continuous_model(x, extend)
-              local pts = make_points(x, 400, extend ~= "error", sorted)
+              local pts = make_points(x, 400, extend ~= "error", sorted, true)
               local ys = m:eval(pts)
               local i, want, got = first_mismatch(m, pts, ys)
               assert.is_nil(i, ("%s knots, %d segments, extend %s, sorted %s: point %s (x = %.17g) gave %.17g, scalar %.17g")
@@ -115,7 +117,7 @@ describe("segwise.pwl", function()
           for _, sorted in ipairs { false, true } do
             local x = make_knots(nseg, kind)
             local m = jumping_model(x, "hold")
-            local pts = make_points(x, 300, true, sorted)
+            local pts = make_points(x, 300, true, sorted, true)
             local ys = m:eval(pts)
             assert.is_nil(first_mismatch(m, pts, ys), kind .. " " .. nseg)
             -- The rule itself, checked from the segments' own lines: at an
