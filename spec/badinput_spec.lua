@@ -331,6 +331,59 @@ describe("segwise bad input", function()
     end)
   end
 
+  describe("callbacks that free what is in use", function()
+    -- These once crashed the host (found while writing this matrix), so each
+    -- runs in a child interpreter: a crash fails the case, not the suite.
+    -- The child prints the pcall result and exits 0 when nothing crashed.
+    local lua = os.getenv("LUA") or "lua5.4"
+    local function isolated(code)
+      local path = file("child.lua", "local sw = require 'segwise'\n" .. code)
+      local env = ("LUA_PATH=%q LUA_CPATH=%q "):format(package.path, package.cpath)
+      local p = assert(io.popen(env .. lua .. " " .. path .. " 2>&1; echo \"exit=$?\""))
+      local out = p:read("a")
+      p:close()
+      return out
+    end
+    local cases = {
+      { "a compare callback frees the model being compared", [[
+        local m = sw.pwl { x = { 0, 0.5, 1 }, y = { 0, 1, 2 } }
+        local c = sw.curve.fn(function(x) m:free(); return x end, { lo = 0, hi = 1 })
+        print(pcall(m.compare, m, c, { n = 50 }))]], "model" },
+      { "a fit callback frees its own curve", [[
+        local c
+        c = sw.curve.fn(function(x) c:free(); return x * x end, { lo = 0, hi = 1 })
+        print(pcall(sw.fit, c, { segments = 3 }))]], "free" },
+      { "an eval callback frees its own curve", [[
+        local c
+        c = sw.curve.fn(function(x) c:free(); return x end, { lo = 0, hi = 1 })
+        print(pcall(c.eval, c, 0.5))
+        print(pcall(c.eval, c, 0.5))]], "free" },
+    }
+    if sw.network then
+      cases[#cases + 1] = { "an exact-curve callback frees the network being solved", [[
+        local net = sw.network()
+        net:vsource("V1", "in", "0", 5)
+        net:resistor("R1", "in", "a", 1000)
+        local ex = sw.curve.fn(function(v) net:free(); return 1e-3 * v end, { lo = -1, hi = 1 })
+        net:element("D1", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } }, { exact = ex })
+        print(pcall(net.solve, net, { exact = true }))]], "free" }
+    end
+    for _, case in ipairs(cases) do
+      it(case[1], function()
+        local out = isolated(case[2])
+        -- no crash: the child got to the end and exited normally
+        assert.matches("exit=0", out, 1, true)
+        assert.is_nil(out:find("ERROR: AddressSanitizer", 1, true), out)
+        assert.is_nil(out:find("runtime error", 1, true), out)
+        -- and the first call was refused with a message naming the object
+        local first = out:match("^([^\n]*)")
+        assert.matches("^false", first)
+        assert.matches("segwise%.", first)
+        assert.matches(case[3], first)
+      end)
+    end
+  end)
+
   describe("nothing lost", function()
     -- A writer that cannot finish must leave the old file as it was.  The
     -- "<path>.tmp" a writer uses is taken by a directory, so the write fails
