@@ -85,7 +85,7 @@ asan: deps
 	@$(MAKE) --no-print-directory BUILDDIR=$(ASAN_DIR) OPT="-O1 -g -fno-omit-frame-pointer" \
 	  EXTRA_CFLAGS="-fsanitize=address,undefined -fno-sanitize-recover=undefined" \
 	  EXTRA_LDFLAGS="-fsanitize=address,undefined" all
-	@LD_PRELOAD="$(ASAN_LIB) $(UBSAN_LIB)" ASAN_OPTIONS=detect_leaks=1:abort_on_error=0:exitcode=23 \
+	@LD_PRELOAD="$(ASAN_LIB) $(UBSAN_LIB)" ASAN_OPTIONS=detect_leaks=1:abort_on_error=0:exitcode=23:allocator_may_return_null=1 \
 	  LSAN_OPTIONS=suppressions=$(CURDIR)/spec/lsan.supp:print_suppressions=0 \
 	  UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
 	  $(LUA) spec/run.lua $(LUA) $$(command -v busted) --cpath='./$(ASAN_DIR)/?.so' $(SPEC)

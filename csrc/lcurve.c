@@ -8,8 +8,8 @@
 lsw_curve *lsw_checkcurve(lua_State *L, int idx)
 {
   lsw_curve *c = luaL_testudata(L, idx, LSW_CURVE_MT);
-  if (!c) luaL_error(L, "bad argument #%d (a segwise curve expected, got %s)", idx, luaL_typename(L, idx));
-  if (c->freed) luaL_error(L, "bad argument #%d (curve used after free())", idx);
+  if (!c) lsw_error(L, "argument #%d must be a segwise curve (got %s)", idx, luaL_typename(L, idx));
+  if (c->freed) lsw_error(L, "curve used after free() (argument #%d)", idx);
   return c;
 }
 
@@ -33,7 +33,7 @@ static int trampoline(void *p, double x, double *y)
   if (ctx->failed) return 1;
   if (!lua_checkstack(L, 4)) {
     ctx->failed = 1;
-    lua_pushliteral(L, "segwise: Lua stack overflow in a curve function");
+    lua_pushliteral(L, "segwise.curve.fn: Lua stack overflow in a curve function");
     lua_replace(L, ctx->erridx);
     return 1;
   }
@@ -47,8 +47,9 @@ static int trampoline(void *p, double x, double *y)
   *y = lua_tonumberx(L, -1, &isnum);
   if (!isnum || !isfinite(*y)) {
     ctx->failed = 1;
-    if (isnum) lua_pushfstring(L, "segwise: curve function returned %f at x = %f", *y, x);
-    else lua_pushfstring(L, "segwise: curve function returned %s (a number expected) at x = %f", luaL_typename(L, -1), x);
+    if (isnum) lua_pushfstring(L, "segwise.curve.fn: the curve function returned %s at x = %f",
+                               isnan(*y) ? "NaN" : *y > 0 ? "inf" : "-inf", x);
+    else lua_pushfstring(L, "segwise.curve.fn: the curve function returned %s (a number expected) at x = %f", luaL_typename(L, -1), x);
     lua_replace(L, ctx->erridx);
     lua_pop(L, 1);
     return 1;
@@ -64,6 +65,8 @@ void lsw_curve_bind(lua_State *L, int idx, sw_curve *copy, lsw_callctx *ctx)
   *copy = c->c;
   memset(ctx, 0, sizeof *ctx);
   ctx->L = L;
+  ctx->owner = c;
+  c->busy++;
   lua_getiuservalue(L, idx, 1);
   ctx->fidx = lua_gettop(L);
   lua_pushnil(L);
@@ -76,6 +79,8 @@ void lsw_curve_bind(lua_State *L, int idx, sw_curve *copy, lsw_callctx *ctx)
 
 void lsw_curve_done(lua_State *L, lsw_callctx *ctx)
 {
+  if (ctx->owner && ctx->owner->busy > 0) ctx->owner->busy--;
+  ctx->owner = NULL;
   if (ctx->failed) {
     lua_pushvalue(L, ctx->erridx);
     lua_error(L);
@@ -83,7 +88,7 @@ void lsw_curve_done(lua_State *L, lsw_callctx *ctx)
   lua_settop(L, ctx->fidx - 1);
 }
 
-static int curve_release(lua_State *L)
+static int curve_gc(lua_State *L)
 {
   lsw_curve *c = luaL_checkudata(L, 1, LSW_CURVE_MT);
   if (!c->freed) {
@@ -91,6 +96,14 @@ static int curve_release(lua_State *L)
     c->freed = 1;
   }
   return 0;
+}
+
+/* :free() and __close: refused while a computation uses the curve. */
+static int curve_release(lua_State *L)
+{
+  lsw_curve *c = luaL_checkudata(L, 1, LSW_CURVE_MT);
+  if (c->busy > 0 && !c->freed) return lsw_refuse_busy(L, "curve");
+  return curve_gc(L);
 }
 
 static double opt_range(lua_State *L, int idx, double dflt, const char *name)
@@ -306,7 +319,7 @@ static const luaL_Reg curve_methods[] = {
 };
 
 static const luaL_Reg curve_meta[] = {
-  {"__gc", curve_release}, {"__close", curve_release}, {"__tostring", l_tostring},
+  {"__gc", curve_gc}, {"__close", curve_release}, {"__tostring", l_tostring},
   {"__call", l_call}, {NULL, NULL}
 };
 

@@ -15,6 +15,7 @@
 typedef struct lsw_net {
   sw_net net;
   int freed;
+  int busy;  /* > 0 while Newton calls back into Lua (exact curves) */
 } lsw_net;
 
 /* Everything a solve may allocate, freed by __gc. */
@@ -59,7 +60,7 @@ static lsw_net *check_net(lua_State *L, int idx)
   return n;
 }
 
-static int net_release(lua_State *L)
+static int net_gc(lua_State *L)
 {
   lsw_net *n = luaL_checkudata(L, 1, LSW_NET_MT);
   if (!n->freed) {
@@ -67,6 +68,14 @@ static int net_release(lua_State *L)
     n->freed = 1;
   }
   return 0;
+}
+
+/* :free() and __close: refused while a solve calls back into Lua. */
+static int net_release(lua_State *L)
+{
+  lsw_net *n = luaL_checkudata(L, 1, LSW_NET_MT);
+  if (n->busy > 0 && !n->freed) return lsw_refuse_busy(L, "network");
+  return net_gc(L);
 }
 
 /* core.net_new(): user value 1 holds the models, 2 the exact curves, both
@@ -263,7 +272,9 @@ static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_i
     lsw_curve_bind(L, -1, &copies[k], &ctx[k]);
     ptr[k] = &copies[k];
   }
+  n->busy++;
   rc = sw_net_exact(&n->net, ptr, op, max_iter > 0 ? (size_t)max_iter : 0, &err);
+  n->busy--;
   for (k = m; k-- > 0;) if (ptr[k]) { lsw_curve_done(L, &ctx[k]); lua_pop(L, 1); }
   lua_settop(L, top - 4);
   if (rc) lsw_raise(L, "network:solve", &err);
@@ -530,7 +541,7 @@ void lsw_open_net(lua_State *L)
   if (luaL_newmetatable(L, LSW_NET_MT)) {
     luaL_newlib(L, net_methods);
     lua_setfield(L, -2, "__index");
-    lua_pushcfunction(L, net_release); lua_setfield(L, -2, "__gc");
+    lua_pushcfunction(L, net_gc); lua_setfield(L, -2, "__gc");
     lua_pushcfunction(L, net_release); lua_setfield(L, -2, "__close");
   }
   lua_pop(L, 1);

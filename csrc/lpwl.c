@@ -10,8 +10,8 @@ static const char *const extend_names[] = {"line", "hold", "error", NULL};
 lsw_model *lsw_checkmodel(lua_State *L, int idx)
 {
   lsw_model *m = luaL_testudata(L, idx, LSW_MODEL_MT);
-  if (!m) luaL_error(L, "bad argument #%d (a segwise model expected, got %s)", idx, luaL_typename(L, idx));
-  if (m->freed) luaL_error(L, "bad argument #%d (model used after free())", idx);
+  if (!m) lsw_error(L, "argument #%d must be a segwise model (got %s)", idx, luaL_typename(L, idx));
+  if (m->freed) lsw_error(L, "model used after free() (argument #%d)", idx);
   return m;
 }
 
@@ -23,7 +23,7 @@ lsw_model *lsw_newmodel(lua_State *L)
   return m;
 }
 
-static int model_release(lua_State *L)
+static int model_gc(lua_State *L)
 {
   lsw_model *m = luaL_checkudata(L, 1, LSW_MODEL_MT);
   if (!m->freed) {
@@ -31,6 +31,14 @@ static int model_release(lua_State *L)
     m->freed = 1;
   }
   return 0;
+}
+
+/* :free() and __close: refused while a computation uses the model. */
+static int model_release(lua_State *L)
+{
+  lsw_model *m = luaL_checkudata(L, 1, LSW_MODEL_MT);
+  if (m->busy > 0 && !m->freed) return lsw_refuse_busy(L, "model");
+  return model_gc(L);
 }
 
 static sw_extend check_extend(lua_State *L, int idx)
@@ -169,7 +177,7 @@ static size_t check_seg(lua_State *L, lsw_model *m, int idx)
 {
   lua_Integer k = luaL_checkinteger(L, idx);
   if (k < 1 || (lua_Unsigned)k > m->m.nseg)
-    luaL_error(L, "bad argument #%d (segment index %d is outside 1..%d)", idx - 1, (int)k, (int)m->m.nseg);
+    lsw_error(L, "segment index %d is outside 1..%d", (int)k, (int)m->m.nseg);
   return (size_t)(k - 1);
 }
 
@@ -258,7 +266,7 @@ static double opt_field(lua_State *L, int idx, const char *key, double dflt)
   if (lua_isnoneornil(L, idx)) return dflt;
   if (lua_getfield(L, idx, key) == LUA_TNIL) { lua_pop(L, 1); return dflt; }
   v = lua_tonumberx(L, -1, &isnum);
-  if (!isnum || !isfinite(v)) luaL_error(L, "segwise.model:compare: option %s must be a finite number", key);
+  if (!isnum || !isfinite(v)) lsw_error(L, "option %s must be a finite number", key);
   lua_pop(L, 1);
   return v;
 }
@@ -274,7 +282,17 @@ static int l_compare(lua_State *L)
   lsw_callctx ctx;
   sw_err err;
   int st;
-  if (!lua_isnoneornil(L, 3)) luaL_checktype(L, 3, LUA_TTABLE);
+  if (!lua_isnoneornil(L, 3)) {
+    static const char *const known[] = {"lo", "hi", "n", "rel_floor", NULL};
+    if (!lua_istable(L, 3)) return lsw_error(L, "options must be a table (got %s)", luaL_typename(L, 3));
+    lua_pushnil(L);
+    while (lua_next(L, 3)) {
+      int k, ok = 0;
+      lua_pop(L, 1);
+      for (k = 0; known[k]; k++) ok |= lua_type(L, -1) == LUA_TSTRING && strcmp(lua_tostring(L, -1), known[k]) == 0;
+      if (!ok) return lsw_error(L, "unknown option '%s' (known: lo, hi, n, rel_floor)", luaL_tolstring(L, -1, NULL));
+    }
+  }
   lo = c->c.lo > m->m.x[0] ? c->c.lo : m->m.x[0];
   hi = c->c.hi < m->m.x[m->m.nseg] ? c->c.hi : m->m.x[m->m.nseg];
   lo = opt_field(L, 3, "lo", lo);
@@ -284,7 +302,9 @@ static int l_compare(lua_State *L)
   if (n < 2 || n > 1e8) return luaL_error(L, "segwise.model:compare: n = %f must be between 2 and 1e8", n);
   lua_settop(L, 3);
   lsw_curve_bind(L, 2, &copy, &ctx);
+  m->busy++;
   st = sw_pwl_compare(&m->m, &copy, lo, hi, (size_t)n, floor, &out, &err);
+  m->busy--;
   lsw_curve_done(L, &ctx);
   if (st) return lsw_raise(L, "model:compare", &err);
   lua_createtable(L, 0, 8);
@@ -364,7 +384,7 @@ static const luaL_Reg model_methods[] = {
 };
 
 static const luaL_Reg model_meta[] = {
-  {"__gc", model_release}, {"__close", model_release}, {"__tostring", l_tostring},
+  {"__gc", model_gc}, {"__close", model_release}, {"__tostring", l_tostring},
   {"__call", l_eval}, {"__len", l_len}, {NULL, NULL}
 };
 

@@ -30,12 +30,14 @@ lsw_array *lsw_newarray(lua_State *L, size_t n);
 typedef struct lsw_curve {
   sw_curve c;
   int freed;
+  int busy;  /* > 0 while a computation may call back into Lua with it */
 } lsw_curve;
 
 /* Model userdata.  User value 1 holds the fit-info table (or nil). */
 typedef struct lsw_model {
   sw_pwl m;
   int freed;
+  int busy;  /* > 0 while a computation that calls back into Lua reads it */
 } lsw_model;
 
 /* Per-call context of a fn curve's trampoline: the calling state, the stack
@@ -45,7 +47,14 @@ typedef struct lsw_callctx {
   int fidx;      /* absolute stack index of the function */
   int failed;    /* 1 when a call raised or returned a non-number */
   int erridx;    /* absolute stack index of a reserved slot for the error */
+  lsw_curve *owner; /* marked busy between bind and done */
 } lsw_callctx;
+
+/* Raises a formatted error prefixed with the public name of the running
+ * function ("segwise.model:eval: ", "segwise.curve.samples: "), found from
+ * the call information; a message that already starts with "segwise." is
+ * left as it is. */
+int lsw_error(lua_State *L, const char *fmt, ...);
 
 /* Raises err as a Lua error prefixed with "segwise.<fname>: ". */
 int lsw_raise(lua_State *L, const char *fname, const sw_err *err);
@@ -72,6 +81,11 @@ lsw_model *lsw_newmodel(lua_State *L);
  * the callback's saved error if any, then pops what lsw_curve_bind pushed. */
 void lsw_curve_bind(lua_State *L, int idx, sw_curve *copy, lsw_callctx *ctx);
 void lsw_curve_done(lua_State *L, lsw_callctx *ctx);
+
+/* Explicit :free() of an object in use by a computation calling back into
+ * Lua is refused (a callback must not pull memory from under the core);
+ * __gc cannot happen then, since the object is on the stack. */
+int lsw_refuse_busy(lua_State *L, const char *what);
 
 /* Per-file openers: each adds its functions to the module table at -1. */
 void lsw_open_curve(lua_State *L);

@@ -199,7 +199,7 @@ describe("segwise.pwl.load and model:save", function()
       raises("segwise.model:save: unknown option 'unit'", m.save, m, dir .. "/u.csv", { unit = "A" })
       raises("x_unit must be a string", m.save, m, dir .. "/u.csv", { x_unit = 5 })
       raises("y unit contains a control character", m.save, m, dir .. "/u.csv", { y_unit = "V\nx,1,2" })
-      raises("bad argument #1", m.save, {}, dir .. "/u.csv")
+      raises("argument #1 must be a segwise model", m.save, {}, dir .. "/u.csv")
     end)
 
     it("refuses a freed model", function()
