@@ -14,6 +14,7 @@ return function(B)
   local m = sw.fit(c, { lo = 0, hi = 0.75, tol = FIT_TOL })
   local values = {}
   for k = 1, N do values[k] = 0.5 + 9.5 * (k - 1) / (N - 1) end
+  local values_array = sw.array(values) -- sweeps take arrays: no table on the way in
   for _, size in ipairs { 10, 20, 50 } do
     local net = sw.network()
     net:vsource("E", "n0", "0", 1)
@@ -29,7 +30,7 @@ return function(B)
     local med = B.rounds_of {
       { label = "segwise", run = function()
         local t = os.clock()
-        local rows = net:sweep("E", values)
+        local rows = net:sweep("E", values_array)
         t = os.clock() - t
         if not currents then
           currents, updates = {}, 0

@@ -20,6 +20,7 @@ return function(B)
   net:element("D", "b", "0", m, { x = "v" })
   local values = {}
   for k = 1, N do values[k] = 0.5 + 9.5 * (k - 1) / (N - 1) end
+  local values_array = sw.array(values) -- sweeps take arrays: no table on the way in
   local params = { R, IS, NVT, XTOL }
   for k = 1, N do params[4 + k] = values[k] end
   local pfile, gout, pout = B.path("sweep_params.bin"), B.path("sweep_gsl.bin"), B.path("sweep_py.bin")
@@ -28,7 +29,7 @@ return function(B)
   local sides = {
     { label = "segwise", run = function()
       local t = os.clock()
-      local rows = net:sweep("E", values)
+      local rows = net:sweep("E", values_array)
       t = os.clock() - t
       if not currents then
         currents = {}
