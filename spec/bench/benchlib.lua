@@ -21,11 +21,14 @@ function B.setup()
   B.dir = dir:gsub("%s+$", "")
   -- The C peer, built here with the same compiler the module uses.
   local peer = B.dir .. "/peer_gsl"
-  local okc, msg = sh(("cc -std=c99 -O2 -o %s spec/bench/peer_gsl.c $(pkg-config --cflags --libs gsl) -lm"):format(peer))
+  local okc, msg = sh(("${CC:-cc} -std=c99 -O2 -o %s spec/bench/peer_gsl.c "
+    .. "$(pkg-config --cflags --libs gsl 2>/dev/null || echo -lgsl -lgslcblas) -lm"):format(peer))
   assert(okc, "building spec/bench/peer_gsl.c failed:\n" .. msg)
   B.gsl = peer
   -- Debian's python3 (a python3 earlier on PATH may lack numpy).
-  local py = io.open("/usr/bin/python3") and "/usr/bin/python3" or "python3"
+  local fh = io.open("/usr/bin/python3")
+  local py = fh and "/usr/bin/python3" or "python3"
+  if fh then fh:close() end
   local okp, ver = sh(py .. " -c 'import numpy, scipy; print(numpy.__version__, scipy.__version__)'")
   if okp then
     B.python, B.numpy_version = py, ver:gsub("%s+$", "")
