@@ -112,11 +112,12 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
     size_t worst = 0;
     double worst_rel = -1;
     *iterations = it;
-    if (solve_ports(net, &lr, state, v, i, trace != NULL, err)) {
+    if ((rc = solve_ports(net, &lr, state, v, i, trace != NULL, err))) {
+      if (rc == SW_ENOMEM) break; /* out of memory is not a singular state */
       sw_net_state_text(net, state, text, sizeof text);
       if (trace) {
         for (k = 0; k < m; k++) v[k] = i[k] = x[k] = ex[k] = NAN;
-        trace_push(trace, m, state, v, i, x, ex, SW_TRACE_SINGULAR, err);
+        if (trace_push(trace, m, state, v, i, x, ex, SW_TRACE_SINGULAR, err)) { rc = SW_ENOMEM; break; }
       }
       rc = sw_err_set(err, SW_ENOSOL, "assumed state: the equations are singular with states %s after %zu attempts", text, it);
       break;
@@ -149,7 +150,7 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
       int to = state[worst] + (ex[worst] > 0 ? 1 : -1);
       if (to < 0 || (size_t)to >= net->dev[worst].nseg) {
         const sw_net_dev *d = &net->dev[worst];
-        if (trace) trace_push(trace, m, state, v, i, x, ex, event, err);
+        if (trace && trace_push(trace, m, state, v, i, x, ex, event, err)) { rc = SW_ENOMEM; break; }
         rc = sw_err_set(err, SW_ENOSOL, "assumed state: no consistent state: %s needs %s = %g, beyond the end of its model's range [%g, %g] (extend = \"error\")",
                         net->el[d->el].name, d->x_is_i ? "i" : "v", x[worst], d->seg[0].lo, d->seg[d->nseg - 1].hi);
         break;

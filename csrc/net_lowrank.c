@@ -41,6 +41,7 @@ static void state_row(const sw_net *net, size_t j, int s, double *row, double *r
   *rhs = g->c - g->a * net->vp[j] - g->b * net->ip[j];
 }
 
+/* 1: factorised; 0: singular at this state; -1: out of memory. */
 static int refactor(const sw_net *net, sw_net_lr *lr, const int *state)
 {
   size_t m = lr->m, j, c;
@@ -49,7 +50,7 @@ static int refactor(const sw_net *net, sw_net_lr *lr, const int *state)
   gsl_matrix_view inv = gsl_matrix_view_array(lr->Minv, m, m);
   int sgn, ok = 0;
   double big = 0, rhs;
-  if (!M || !p) goto done;
+  if (!M || !p) { ok = -1; goto done; }
   for (j = 0; j < m; j++) {
     state_row(net, j, state[j], lr->work, &rhs);
     for (c = 0; c < m; c++) {
@@ -64,7 +65,7 @@ static int refactor(const sw_net *net, sw_net_lr *lr, const int *state)
   ok = 1;
 done:
   gsl_matrix_free(M); gsl_permutation_free(p);
-  lr->valid = ok;
+  lr->valid = ok > 0;
   lr->refactors++;
   return ok;
 }
@@ -77,8 +78,9 @@ int sw_net_lr_ports(const sw_net *net, sw_net_lr *lr, const int *state,
   if (m == 0) return SW_OK;
   if (lr->valid) for (j = 0; j < m; j++) if (state[j] != lr->base[j]) lr->idx[k++] = j;
   if (!lr->valid || 2 * k > m) {
-    if (!refactor(net, lr, state))
-      return sw_err_set(err, SW_ENUMERIC, "the circuit equations of this state are singular");
+    int rf = refactor(net, lr, state);
+    if (rf < 0) return sw_err_set(err, SW_ENOMEM, "out of memory factorising the circuit equations");
+    if (rf == 0) return sw_err_set(err, SW_ENUMERIC, "the circuit equations of this state are singular");
     k = 0;
   }
   z0 = lr->work; z = z0 + m; rhs = z + m; row = rhs + m; t = row + m;
@@ -119,8 +121,9 @@ int sw_net_lr_ports(const sw_net *net, sw_net_lr *lr, const int *state,
     for (r = 0; r < k && !bad; r++) if (!(fabs(S[r * k + r]) > 1e-8)) bad = 1;
     gsl_permutation_free(p);
     if (bad) {                    /* ill conditioned: start a new base here */
-      if (!refactor(net, lr, state))
-        return sw_err_set(err, SW_ENUMERIC, "the circuit equations of this state are singular");
+      int rf = refactor(net, lr, state);
+      if (rf < 0) return sw_err_set(err, SW_ENOMEM, "out of memory factorising the circuit equations");
+      if (rf == 0) return sw_err_set(err, SW_ENUMERIC, "the circuit equations of this state are singular");
       return sw_net_lr_ports(net, lr, state, v, i, err);
     }
     for (r = 0; r < m; r++)
