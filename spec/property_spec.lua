@@ -61,6 +61,83 @@ describe("segwise properties", function()
     end)
   end)
 
+  describe("evaluation", function()
+    it("batch evaluation equals point-by-point evaluation (100 models, seed 17)", function()
+      local r = rng(17)
+      for case = 1, 100 do
+        local n = math.random(1, 40)
+        local m, xs = random_model(r, n, 0)
+        local extend = ({ "line", "hold" })[case % 2 + 1]
+        local _, ys = m:knots()
+        m = sw.pwl { x = xs, y = ys, extend = extend }
+        local pts = {}
+        for k = 1, 300 do
+          -- inside, outside and exactly on the knots
+          pts[k] = (k % 7 == 0) and xs[math.random(1, #xs)] or r(xs[1] - 2, xs[#xs] + 2)
+        end
+        local batch = m:eval(pts)
+        local arr = m:eval(sw.array(pts))
+        for k = 1, #pts do
+          local one = m(pts[k])
+          assert.are.equal(one, batch[k])
+          assert.are.equal(one, arr[k])
+        end
+      end
+    end)
+  end)
+
+  describe("files", function()
+    local function tmp() return os.tmpname() end
+
+    it("a saved model loads back bit for bit (60 models, seed 19)", function()
+      local r = rng(19)
+      for case = 1, 60 do
+        local m, xs, ys = random_model(r, math.random(1, 15), 0)
+        if case % 3 == 0 then -- awkward magnitudes: tiny and huge steps
+          for k = 1, #xs do xs[k] = xs[k] * 1e-9; ys[k] = ys[k] * 1e12 end
+          m = sw.pwl { x = xs, y = ys }
+        end
+        local path = tmp()
+        m:save(path)
+        local back = sw.pwl.load(path)
+        os.remove(path)
+        local bx, by = back:knots()
+        assert.are.equal(#xs, #bx)
+        for k = 1, #xs do
+          assert.are.equal(xs[k], bx[k])
+          assert.are.equal(ys[k], by[k])
+        end
+      end
+    end)
+
+    if sw.curve.read then
+      it("numbers written with %.17g read back exactly (seed 23)", function()
+        local r = rng(23)
+        local path = tmp()
+        local f = assert(io.open(path, "w"))
+        f:write("x,y\n")
+        local xs, ys, x = {}, {}, 0
+        for k = 1, 500 do
+          x = x + r(1e-6, 1)
+          xs[k] = x
+          -- mantissas and exponents all over the double range
+          ys[k] = r(-1, 1) * 10 ^ math.random(-300, 300)
+          f:write(("%.17g,%.17g\n"):format(xs[k], ys[k]))
+        end
+        f:close()
+        local c = sw.curve.read(path, { x = "x", y = "y" })
+        local ax = sw.array.read(path, "y")
+        os.remove(path)
+        local px, py = c:points()
+        for k = 1, #xs do
+          assert.are.equal(xs[k], px[k])
+          assert.are.equal(ys[k], py[k])
+          assert.are.equal(ys[k], ax[k])
+        end
+      end)
+    end
+  end)
+
   describe("canonical form", function()
     it("a + b*x + sum c_i*|x - beta_i| reproduces the model (200 models, seed 3)", function()
       local r = rng(3)
@@ -198,6 +275,25 @@ describe("segwise properties", function()
         -- rising devices with a resistor tree always have a solution: most
         -- of the attempts must succeed for the check to mean anything
         assert.is_true(solved > 300, "only " .. solved .. " of 450 solves succeeded")
+      end)
+
+      it("a sweep gives the points that separate solves give (seed 29)", function()
+        local r = rng(29)
+        for _ = 1, 30 do
+          local net = random_circuit(r)
+          local values = {}
+          for k = 1, 5 do values[k] = r(-10, 10) end
+          local rows = net:sweep("V1", values)
+          for k, v in ipairs(values) do
+            net:set("V1", v)
+            local op = net:solve()
+            -- rising devices and positive resistors: one operating point, so
+            -- the warm-started sweep must land on it too
+            for name, i in pairs(op.i) do
+              assert.is.near(i, rows[k].i[name], 1e-9 * (1e-6 + math.abs(i)))
+            end
+          end
+        end
       end)
 
       it("a sweep gives a Kirchhoff-consistent point for every value (seed 9)", function()
