@@ -17,7 +17,8 @@ FUZZ_LIB     := $(FUZZ_DIR)/libswcore.a
 FUZZ_NAMES   := curve pwl \
                 $(if $(filter csrc/textread.c,$(FUZZ_CORE)),text) \
                 $(if $(filter csrc/fit.c,$(FUZZ_CORE)),fit) \
-                $(if $(filter csrc/net.c,$(FUZZ_CORE)),net)
+                $(if $(filter csrc/net.c,$(FUZZ_CORE)),net) \
+                $(if $(filter csrc/pwl_io.c,$(FUZZ_CORE)),model)
 FUZZ_BINS    := $(patsubst %,$(FUZZ_DIR)/fuzz_%,$(FUZZ_NAMES))
 
 .PHONY: fuzz fuzz-build fuzz-deps ctest
