@@ -137,6 +137,20 @@ describe("segwise bad input", function()
     end)
   end)
 
+  if sw.array then
+    describe("sw.array", function()
+      run_cases {
+        { "size 1e12 fails fast", function() sw.array(1e12) end, "size 1000000000000" },
+        { "negative size", function() sw.array(-1) end, "size %-1" },
+        { "fractional size", function() sw.array(0.5) end, "size 0%.5" },
+        { "a text element", function() sw.array { 1, "x" } end, "%[2%]" },
+        { "index out of range", function() local a = sw.array(3); a[5] = 1 end, "index 5" },
+        { "a text value", function() local a = sw.array(3); a[1] = "x" end, "%[1%]" },
+        { "used after free", function() local a = sw.array(3); a:free(); return a[1] end, "free" },
+      }
+    end)
+  end
+
   describe("sw.pwl", function()
     run_cases {
       { "not a table", function() sw.pwl(5) end, "options must be a table" },
@@ -249,6 +263,8 @@ describe("segwise bad input", function()
         { "path nil", function() sw.curve.read(nil) end, "path must be a string" },
         { "missing file", function() sw.curve.read(tmpdir .. "/nope.csv") end, "nope%.csv" },
         { "a directory", function() sw.curve.read(tmpdir) end, tmpdir:gsub("%p", "%%%0") },
+        { "a path through a plain file", function() sw.curve.read(good .. "/x.csv") end, "x%.csv" },
+        { "array.read of a missing file", function() sw.array.read(tmpdir .. "/gone.csv", 1) end, "gone%.csv" },
         { "empty file", function() sw.curve.read(file("empty.csv", "")) end, "empty%.csv" },
         { "ragged row", function() sw.curve.read(file("ragged.csv", "x,y\n1,2\n3\n4,5\n"), { x = 1, y = 2 }) end, "ragged%.csv:3" },
         { "text in a number column", function() sw.curve.read(file("text.csv", "x,y\n1,2\n3,abc\n")) end, "text%.csv:3" },
