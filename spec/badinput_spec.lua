@@ -347,9 +347,9 @@ describe("segwise bad input", function()
     end)
   end
 
-  describe("callbacks that free what is in use", function()
-    -- These once crashed the host (found while writing this matrix), so each
-    -- runs in a child interpreter: a crash fails the case, not the suite.
+  describe("inputs that once crashed the host", function()
+    -- Callbacks that free what is in use, and fuzzer finds: each runs in a
+    -- child interpreter, so a crash fails the case, not the suite.
     -- The child prints the pcall result and exits 0 when nothing crashed.
     local lua = os.getenv("LUA") or "lua5.4"
     local function isolated(code)
@@ -383,6 +383,12 @@ describe("segwise bad input", function()
         local ex = sw.curve.fn(function(v) net:free(); return 1e-3 * v end, { lo = -1, hi = 1 })
         net:element("D1", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } }, { exact = ex })
         print(pcall(net.solve, net, { exact = true }))]], "free" }
+      -- regression (fuzzer, net harness): a segment line whose intercept
+      -- overflows was reported after its storage was freed
+      cases[#cases + 1] = { "a device whose segment line overflows", [[
+        local net = sw.network()
+        net:vsource("V1", "a", "0", 1)
+        print(pcall(net.element, net, "D1", "a", "0", sw.pwl { x = { 1e300, 1.5e300 }, y = { 0, 1e308 } }))]], "D1" }
     end
     for _, case in ipairs(cases) do
       it(case[1], function()
