@@ -532,8 +532,15 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
 {
   const sw_fit_opts *o = J->o;
   double tol = o->tol, e_int = tol, e;
-  size_t lo, hi, nmax;
+  size_t lo, hi, nmax, i;
   int st, tries;
+  for (i = 0; i < o->nthrough; i++) { /* a point off the band cannot be met */
+    double f;
+    if ((st = sw_curve_eval(J->c, o->through_x[i], &f, err))) return st;
+    if (fabs(o->through_y[i] - f) > tol * scale_of(f, o->rel, o->rel_floor))
+      return sw_err_set(err, SW_ENOSOL, "through[%zu] = (%g, %g) lies farther than tol = %g from "
+                        "the curve (%g there)", i + 1, o->through_x[i], o->through_y[i], tol, f);
+  }
   if (o->knots == SW_KNOTS_OPTIMAL && o->criterion != SW_FIT_LSQ) {
     for (tries = 0; tries < TOL_RETRIES; tries++) {
       if (o->criterion == SW_FIT_MINIMAX) {
@@ -559,7 +566,8 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
       sw_pwl_free(out);
       e_int *= 0.98 * tol / e; /* the grid missed a peak: tighten and redo */
     }
-    return sw_err_set(err, SW_ENUMERIC, "could not meet tol = %g on the curve itself", tol);
+    return sw_err_set(err, SW_ENUMERIC, "could not meet tol = %g on the curve itself between its "
+                      "samples; give a denser grid (or rel_floor for relative error)", tol);
   }
   /* search the count: doubling, then bisection */
   nmax = J->d.n > 1 ? J->d.n - 1 : 1;
