@@ -234,6 +234,24 @@ describe("segwise.fit", function()
       assert.is.near(1.5, m:seg(3).slope, 1e-9)
     end)
 
+    it("holds an end slope in discontinuous optimal fits, both ends only on fixed knots", function()
+      local m = sw.fit(bumpy(), { continuous = false, segments = 4, slope_last = 2 })
+      assert.is.near(2, m:seg(4).slope, 1e-9)
+      local m2 = sw.fit(bumpy(), { continuous = false, segments = 4, slope_first = 0 })
+      assert.is.near(0, m2:seg(1).slope, 1e-9)
+      assert.matches("slope_first and slope_last together are not supported yet",
+        errmsg(sw.fit, bumpy(), { continuous = false, segments = 4, slope_first = 0, slope_last = 2 }))
+      local m3 = sw.fit(bumpy(), { continuous = false, knots = "uniform", segments = 4, slope_first = 0,
+        slope_last = 2 })
+      assert.is.near(0, m3:seg(1).slope, 1e-9)
+      assert.is.near(2, m3:seg(4).slope, 1e-9)
+    end)
+
+    it("refuses a through point farther than tol from the curve", function()
+      assert.matches("through%[1%] = %(0.5, 3%) lies farther than tol = 0.1 from the curve",
+        errmsg(sw.fit, bumpy(), { tol = 0.1, through = { { 0.5, 3 } } }))
+    end)
+
     it("meets a tolerance under a through point", function()
       local m = sw.fit(bumpy(), { tol = 0.06, through = { { 0, 0 } } })
       assert.is.near(0, m(0), 1e-9)
