@@ -97,8 +97,34 @@ int fit_data_insert(fit_data *d, const sw_curve *c, const double *xs, size_t m,
 /* Largest |m - y| / s over the samples with s > 0. */
 double fit_data_maxerr(const fit_data *d, const sw_pwl *m);
 
-/* Tube methods (fit_tube.c). */
-typedef struct fit_tube fit_tube;
+/* The feasible-line polygon (fit_poly.c). */
+typedef struct fit_poly {
+  size_t n;
+  double *a, *s;
+} fit_poly;
+
+/* The live polygon: a circular doubly-linked ring of vertices, so that a
+ * cut replaces a chain of vertices in time proportional to the chain
+ * (smooth convex data put a vertex per sample on the boundary). */
+typedef struct fit_ring {
+  size_t n, used, nfree, head;
+  double *a, *s;
+  size_t *nx, *pv, *freel;
+  unsigned char *dead;
+} fit_ring;
+
+typedef struct fit_tube {
+  size_t cap;
+  fit_ring R;
+  fit_poly P;   /* the ring exported after a run */
+} fit_tube;
+
+int fit_tube_init(fit_tube *w, size_t n, sw_err *err);
+void fit_tube_clear(fit_tube *w);
+/* A level every constant line at the data's centre meets (bisection start). */
+double fit_start_level(const fit_data *d);
+
+/* Tube methods (fit_tube.c, fit_interp.c). */
 fit_tube *fit_tube_new(size_t n, sw_err *err);
 void fit_tube_free(fit_tube *w);
 /* Lines with start value in [alo, ahi] at x[p] and slope in [smin, smax]

@@ -1,11 +1,10 @@
 /* Minimax fits as tube problems.  For an error level e every sample i gives
- * a band y[i] +- e*s[i]; the lines a + s*(x - x0) that stay inside the bands
- * of a run of samples form a convex polygon in the (a, s) plane, cut down
- * one half-plane at a time (O'Rourke's on-line line fitting).  On top of
- * that one primitive:
+ * a band y[i] +- e*s[i]; the lines that stay inside the bands of a run of
+ * samples form a convex polygon (fit_poly.c).  On top of that primitive:
  *   - fewest segments within e: greedy farthest reach, segments sharing
- *     their end samples (optimal for discontinuous models; for continuous
- *     models the reachable start interval is carried over each knot);
+ *     their end samples (optimal for discontinuous models); continuous
+ *     models carry the reachable start interval over each knot (optimal
+ *     for convex or concave data) or use the reachable sets of fit_reach.c;
  *   - fixed knots: the feasible start intervals are propagated knot to knot,
  *     which decides feasibility exactly; bisection on e gives the minimax;
  *   - a given segment count: bisection on e over the fewest-segments count.
@@ -17,26 +16,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-typedef struct poly {
-  size_t n;
-  double *a, *s;
-} poly;
-
-/* The live polygon: a circular doubly-linked ring of vertices, so that a
- * cut replaces a chain of vertices in time proportional to the chain
- * (smooth convex data put a vertex per sample on the boundary). */
-typedef struct ring {
-  size_t n, used, nfree, head;
-  double *a, *s;
-  size_t *nx, *pv, *freel;
-  unsigned char *dead;
-} ring;
-
-struct fit_tube {
-  size_t cap;
-  ring R;
-  poly P;        /* the ring exported after a run */
-};
+typedef fit_poly poly;
 typedef fit_tube tube_ws;
 
 /* Recorded segment of a greedy or chained pass: samples p..q and the
@@ -53,139 +33,6 @@ typedef struct rec_list {
 } rec_list;
 
 #define BISECT_STEPS 64
-
-static int ws_init(tube_ws *w, size_t n, sw_err *err)
-{
-  memset(w, 0, sizeof *w);
-  w->cap = 2 * n + 16;
-  w->P.a = sw_alloc(w->cap, sizeof(double), err);
-  w->P.s = sw_alloc(w->cap, sizeof(double), err);
-  w->R.a = sw_alloc(w->cap, sizeof(double), err);
-  w->R.s = sw_alloc(w->cap, sizeof(double), err);
-  w->R.nx = sw_alloc(w->cap, sizeof(size_t), err);
-  w->R.pv = sw_alloc(w->cap, sizeof(size_t), err);
-  w->R.freel = sw_alloc(w->cap, sizeof(size_t), err);
-  w->R.dead = sw_alloc(w->cap, 1, err);
-  if (!w->P.a || !w->P.s || !w->R.a || !w->R.s || !w->R.nx || !w->R.pv || !w->R.freel || !w->R.dead)
-    return SW_ENOMEM;
-  return SW_OK;
-}
-
-static void ws_free(tube_ws *w)
-{
-  free(w->P.a); free(w->P.s);
-  free(w->R.a); free(w->R.s); free(w->R.nx); free(w->R.pv); free(w->R.freel); free(w->R.dead);
-  memset(w, 0, sizeof *w);
-}
-
-static size_t ring_node(ring *R, double a, double s)
-{
-  size_t i = R->nfree ? R->freel[--R->nfree] : R->used++;
-  R->dead[i] = 0;
-  R->a[i] = a;
-  R->s[i] = s;
-  return i;
-}
-
-static void ring_set(ring *R, const double *a, const double *s, size_t n)
-{
-  size_t k, first = 0, prev = 0;
-  R->n = n;
-  R->used = R->nfree = 0;
-  for (k = 0; k < n; k++) {
-    size_t i = ring_node(R, a[k], s[k]);
-    if (k == 0) first = i;
-    else { R->nx[prev] = i; R->pv[i] = prev; }
-    prev = i;
-  }
-  R->nx[prev] = first;
-  R->pv[first] = prev;
-  R->head = first;
-}
-
-static void ring_export(const ring *R, poly *P)
-{
-  size_t k, i = R->head;
-  for (k = 0; k < R->n; k++, i = R->nx[i]) {
-    P->a[k] = R->a[i];
-    P->s[k] = R->s[i];
-  }
-  P->n = R->n;
-}
-
-#define HV(R, i, al, be) ((al) * (R)->a[i] + (be) * (R)->s[i])
-
-/* Vertex maximising al*a + be*s, climbing from i (the ring is convex, so
- * the climb ends at the maximum). */
-static size_t ring_climb(const ring *R, size_t i, double al, double be)
-{
-  double fi = HV(R, i, al, be);
-  size_t k;
-  for (k = 0; k < 2 * R->n + 2; k++) {
-    double fn = HV(R, R->nx[i], al, be), fp = HV(R, R->pv[i], al, be);
-    if (fn > fi) { i = R->nx[i]; fi = fn; }
-    else if (fp > fi) { i = R->pv[i]; fi = fp; }
-    else break;
-  }
-  return i;
-}
-
-static int outside(const ring *R, size_t i, double al, double be, double ga)
-{
-  double f = HV(R, i, al, be) - ga;
-  return f > 1e-12 * (fabs(al * R->a[i]) + fabs(be * R->s[i]) + fabs(ga));
-}
-
-/* Cuts away al*a + be*s > ga, given the maximising vertex top.  Returns 0
- * (ring unchanged) when nothing would remain; *keep gets a live vertex. */
-static int ring_cut(ring *R, size_t top, double al, double be, double ga, size_t *keep)
-{
-  size_t j, k, v0, v1, pin, pout, A, B, cnt = 1;
-  double fa, fb, t;
-  *keep = top;
-  if (!outside(R, top, al, be, ga)) return 1;
-  for (j = R->nx[top]; outside(R, j, al, be, ga); j = R->nx[j]) {
-    if (j == top) return 0;
-    cnt++;
-  }
-  if (j == top) return 0;
-  pout = j;
-  v1 = R->pv[j];
-  for (k = R->pv[top]; outside(R, k, al, be, ga); k = R->pv[k]) cnt++;
-  pin = k;
-  v0 = R->nx[k];
-  if (cnt > R->n) return 0;
-  /* A on edge pin -> v0, B on edge v1 -> pout */
-  fa = HV(R, pin, al, be) - ga;
-  fb = HV(R, v0, al, be) - ga;
-  t = fa != fb ? fa / (fa - fb) : 0;
-  if (t < 0) t = 0; else if (t > 1) t = 1;
-  {
-    double aA = R->a[pin] + t * (R->a[v0] - R->a[pin]), sA = R->s[pin] + t * (R->s[v0] - R->s[pin]);
-    double aB, sB;
-    fa = HV(R, v1, al, be) - ga;
-    fb = HV(R, pout, al, be) - ga;
-    t = fa != fb ? fa / (fa - fb) : 0;
-    if (t < 0) t = 0; else if (t > 1) t = 1;
-    aB = R->a[v1] + t * (R->a[pout] - R->a[v1]);
-    sB = R->s[v1] + t * (R->s[pout] - R->s[v1]);
-    /* free the chain v0..v1 */
-    for (j = v0;; j = R->nx[j]) {
-      R->freel[R->nfree++] = j;
-      R->dead[j] = 1;
-      if (j == v1) break;
-    }
-    A = ring_node(R, aA, sA);
-    B = ring_node(R, aB, sB);
-  }
-  R->nx[pin] = A; R->pv[A] = pin;
-  R->nx[A] = B; R->pv[B] = A;
-  R->nx[B] = pout; R->pv[pout] = B;
-  R->n = R->n - cnt + 2;
-  R->head = pin;
-  *keep = A;
-  return 1;
-}
 
 static void recs_free(rec_list *r)
 {
@@ -238,141 +85,6 @@ static void value_range(const poly *P, double D, double *lo, double *hi)
     if (v < *lo) *lo = v;
     if (v > *hi) *hi = v;
   }
-}
-
-/* Lines a + s*(x - x[p]) with a in [alo, ahi] and s in [smin, smax] through
- * the bands of samples p..qmax.  Returns the last index q all of p..q fit,
- * with ws->P their polygon; *ok = 0 when even the samples at x[p] do not. */
-size_t fit_tube_run(const fit_data *d, double e, size_t p, size_t qmax, double alo, double ahi,
-                    double smin, double smax, fit_tube *w, int *ok, double *rlo, double *rhi,
-                    fit_stop_fn stop, void *sctx)
-{
-  double X0 = d->x[p], l, u, D, pa[4], ps[4];
-  size_t i = p, last, hu, hl, keep;
-  ring *R = &w->R;
-  *ok = 0;
-  while (i <= qmax && d->x[i] == X0) {
-    l = d->y[i] - e * d->s[i];
-    u = d->y[i] + e * d->s[i];
-    if (l > alo) alo = l;
-    if (u < ahi) ahi = u;
-    i++;
-  }
-  if (alo > ahi) {
-    if (alo - ahi > 1e-12 * (fabs(alo) + fabs(ahi))) return p;
-    alo = ahi = 0.5 * (alo + ahi);
-  }
-  *ok = 1;
-  last = i - 1;
-  w->P.n = 2;
-  w->P.a[0] = alo; w->P.s[0] = 0;
-  w->P.a[1] = ahi; w->P.s[1] = 0;
-  if (i > qmax) return last;
-  D = d->x[i] - X0;
-  l = d->y[i] - e * d->s[i];
-  u = d->y[i] + e * d->s[i];
-  pa[0] = alo; ps[0] = (l - alo) / D;
-  pa[1] = ahi; ps[1] = (l - ahi) / D;
-  pa[2] = ahi; ps[2] = (u - ahi) / D;
-  pa[3] = alo; ps[3] = (u - alo) / D;
-  ring_set(R, pa, ps, 4);
-  ring_export(R, &w->P);
-  hu = hl = R->head;
-  if (sw_isfinite(smin)) {
-    size_t top = ring_climb(R, R->head, 0, -1);
-    if (!ring_cut(R, top, 0, -1, -smin, &keep)) return last;
-  }
-  if (sw_isfinite(smax)) {
-    size_t top = ring_climb(R, R->head, 0, 1);
-    if (!ring_cut(R, top, 0, 1, smax, &keep)) return last;
-  }
-  hu = ring_climb(R, R->head, 1, D);
-  hl = ring_climb(R, R->head, -1, -D);
-  last = i;
-  if (rlo) {
-    rlo[i] = R->a[hl] + R->s[hl] * D;
-    rhi[i] = R->a[hu] + R->s[hu] * D;
-    if (stop && stop(sctx, i, rlo[i], rhi[i])) { ring_export(R, &w->P); return last; }
-  }
-  for (i = i + 1; i <= qmax; i++) {
-    double vmax, vmin;
-    D = d->x[i] - X0;
-    l = d->y[i] - e * d->s[i];
-    u = d->y[i] + e * d->s[i];
-    hu = ring_climb(R, hu, 1, D);
-    hl = ring_climb(R, hl, -1, -D);
-    vmax = R->a[hu] + R->s[hu] * D;
-    vmin = R->a[hl] + R->s[hl] * D;
-    /* the band must meet the polygon's range of values at x[i] */
-    if (vmax < l - 1e-12 * (fabs(l) + fabs(vmax)) || vmin > u + 1e-12 * (fabs(u) + fabs(vmin))) break;
-    if (!ring_cut(R, hu, 1, D, u, &keep)) break;
-    hu = keep;
-    if (R->dead[hl]) hl = keep;
-    hl = ring_climb(R, hl, -1, -D);
-    if (!ring_cut(R, hl, -1, -D, -l, &keep)) break;
-    hl = keep;
-    if (R->dead[hu]) hu = keep;
-    last = i;
-    if (rlo) {
-      rlo[i] = vmin > l ? vmin : l;
-      rhi[i] = vmax < u ? vmax : u;
-      if (stop && stop(sctx, i, rlo[i], rhi[i])) break;
-    }
-  }
-  ring_export(R, &w->P);
-  return last;
-}
-
-void fit_slope_bounds(const fit_cons *k, int first, int lastseg, double *smin, double *smax)
-{
-  *smin = -INFINITY;
-  *smax = INFINITY;
-  if (k && k->dir > 0) *smin = 0;
-  if (k && k->dir < 0) *smax = 0;
-  if (k && first && k->has_first) *smin = *smax = k->slope_first;
-  if (k && lastseg && k->has_last) {
-    if (first && k->has_first && k->slope_first != k->slope_last) { *smin = 1; *smax = 0; return; }
-    *smin = *smax = k->slope_last;
-  }
-}
-
-fit_tube *fit_tube_new(size_t n, sw_err *err)
-{
-  fit_tube *w = sw_alloc(1, sizeof *w, err);
-  if (!w) return NULL;
-  if (ws_init(w, n, err)) { ws_free(w); free(w); return NULL; }
-  return w;
-}
-
-void fit_tube_free(fit_tube *w)
-{
-  if (!w) return;
-  ws_free(w);
-  free(w);
-}
-
-/* Start value of a line of the last run's polygon whose value at distance
- * h from the start is target (the middle of the chord the line cuts). */
-double fit_tube_start_for(const fit_tube *w, double h, double target)
-{
-  const poly *P = &w->P;
-  size_t i, n = P->n, best = 0;
-  double amin = INFINITY, amax = -INFINITY, bd = INFINITY;
-  for (i = 0; i < n; i++) {
-    size_t j = (i + 1) % n;
-    double fi = P->a[i] + P->s[i] * h - target, fj = P->a[j] + P->s[j] * h - target;
-    if (fabs(fi) < bd) { bd = fabs(fi); best = i; }
-    if (fi == 0) {
-      if (P->a[i] < amin) amin = P->a[i];
-      if (P->a[i] > amax) amax = P->a[i];
-    } else if ((fi < 0) != (fj < 0) && fj != 0) {
-      double t = fi / (fi - fj), av = P->a[i] + t * (P->a[j] - P->a[i]);
-      if (av < amin) amin = av;
-      if (av > amax) amax = av;
-    }
-  }
-  if (amin <= amax) return 0.5 * (amin + amax);
-  return n ? P->a[best] : target;
 }
 
 static void centroid(const double *a, const double *s, size_t n, double *ac, double *sc)
@@ -469,8 +181,8 @@ static size_t greedy(const fit_data *d, double e, int continuous, const fit_cons
   }
 }
 
-/* Deviation bound: a constant line at the weighted centre is within it. */
-static double start_level(const fit_data *d)
+/* Deviation bound: a constant line at the centre is within it. */
+double fit_start_level(const fit_data *d)
 {
   size_t i;
   double ymin = INFINITY, ymax = -INFINITY, e = 0;
@@ -554,14 +266,14 @@ static int tol_direct(const fit_data *d, double e, int continuous, const fit_con
   size_t m;
   int st;
   memset(&R, 0, sizeof R);
-  if ((st = ws_init(&w, d->n, err))) { ws_free(&w); return st; }
+  if ((st = fit_tube_init(&w, d->n, err))) { fit_tube_clear(&w); return st; }
   m = greedy(d, e, continuous, k, SIZE_MAX, &w, &R, &st, err);
   if (!st && m == SIZE_MAX)
     st = sw_err_set(err, SW_ENOSOL, "no model meets the tolerance %g under the constraints "
                     "(through points, slopes, monotone) at the data", e);
   if (!st) st = build_model(d, &R, continuous, out, err);
   recs_free(&R);
-  ws_free(&w);
+  fit_tube_clear(&w);
   return st;
 }
 
@@ -648,9 +360,9 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
     double *kx = sw_alloc(d->n + 1, sizeof *kx, err), *ky = sw_alloc(d->n + 1, sizeof *ky, err);
     size_t m;
     tube_ws w;
-    st = (!kx || !ky) ? SW_ENOMEM : ws_init(&w, d->n, err);
+    st = (!kx || !ky) ? SW_ENOMEM : fit_tube_init(&w, d->n, err);
     if (!st) st = reach_with_greedy(d, e, k, d->n, &w, &m, kx, ky, err);
-    ws_free(&w);
+    fit_tube_clear(&w);
     if (!st && m == SIZE_MAX)
       st = sw_err_set(err, SW_ENOSOL, "no continuous model meets the tolerance %g under the "
                       "constraints (through points, slopes, monotone) at the data", e);
@@ -696,14 +408,14 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
 {
   tube_ws w;
   rec_list R;
-  double elo = 0, ehi = start_level(d), *kx = NULL, *ky = NULL;
+  double elo = 0, ehi = fit_start_level(d), *kx = NULL, *ky = NULL;
   size_t m, it, j, *idx = NULL;
   int st, tries;
   memset(&R, 0, sizeof R);
   kx = sw_alloc(d->n + 1, sizeof *kx, err);
   ky = sw_alloc(d->n + 1, sizeof *ky, err);
   if (!kx || !ky) { st = SW_ENOMEM; goto done; }
-  if ((st = ws_init(&w, d->n, err))) goto done;
+  if ((st = fit_tube_init(&w, d->n, err))) goto done;
   if (continuous && (!convex_data(d) || (k && k->has_last))) {
     /* reachable sets cost more than a greedy pass: bracket their optimum
      * between the discontinuous optimum (a continuous model is also a
@@ -789,7 +501,7 @@ done:
   free(kx);
   free(ky);
   recs_free(&R);
-  ws_free(&w);
+  fit_tube_clear(&w);
   return st;
 }
 
@@ -853,7 +565,7 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
                         const fit_cons *kp, tube_ws *w, rec_list *R,
                         double *e_out, size_t *iters, sw_err *err)
 {
-  double elo = 0, ehi = start_level(d);
+  double elo = 0, ehi = fit_start_level(d);
   int feas, st, tries;
   size_t it;
   for (tries = 0; tries < 200; tries++) {
@@ -896,7 +608,7 @@ int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg, int c
       goto done;
     }
   }
-  if ((st = ws_init(&w, d->n, err))) goto done;
+  if ((st = fit_tube_init(&w, d->n, err))) goto done;
   *e_out = 0;
   if (continuous) {
     if ((st = bisect_chain(d, pi, qi, nseg, k, &w, &R, e_out, iters, err))) goto done;
@@ -918,91 +630,6 @@ done:
   free(qi);
   recs_free(&R);
   recs_free(&one);
-  ws_free(&w);
-  return st;
-}
-
-/* ---- Interpolation through the samples (chords between knots) ---------- */
-
-/* Greedy farthest chord at level e; knots (sample indices) into idx when
- * given.  Returns the count, stopping once above maxseg. */
-static size_t chord_greedy(const fit_data *d, double e, size_t maxseg, size_t *idx)
-{
-  size_t p = 0, m = 0;
-  if (idx) idx[0] = 0;
-  while (p < d->n - 1) {
-    double slo = -INFINITY, shi = INFINITY;
-    size_t i, q = p + 1;
-    for (i = p + 1; i < d->n; i++) {
-      double D = d->x[i] - d->x[p], c = (d->y[i] - d->y[p]) / D;
-      double tl, tu;
-      if (c >= slo - 1e-12 * fabs(c) && c <= shi + 1e-12 * fabs(c)) q = i;
-      tl = (d->y[i] - e * d->s[i] - d->y[p]) / D;
-      tu = (d->y[i] + e * d->s[i] - d->y[p]) / D;
-      if (tl > slo) slo = tl;
-      if (tu < shi) shi = tu;
-      if (slo > shi) break;
-    }
-    m++;
-    if (idx && m <= maxseg) idx[m] = q;
-    if (m > maxseg) return m;
-    p = q;
-  }
-  return m;
-}
-
-static int chord_model(const fit_data *d, const size_t *idx, size_t m, sw_pwl *out, sw_err *err)
-{
-  size_t j;
-  int st = sw_pwl_alloc(out, m, err);
-  if (st) return st;
-  for (j = 0; j <= m; j++) out->x[j] = d->x[idx[j]];
-  for (j = 0; j < m; j++) {
-    out->ya[j] = d->y[idx[j]];
-    out->yb[j] = d->y[idx[j + 1]];
-  }
-  if ((st = sw_pwl_finish(out, err))) sw_pwl_free(out);
-  return st;
-}
-
-int fit_interp_tol(const fit_data *d, double e, sw_pwl *out, sw_err *err)
-{
-  size_t m = chord_greedy(d, e, SIZE_MAX, NULL), *idx;
-  int st;
-  idx = sw_alloc(m + 1, sizeof *idx, err);
-  if (!idx) return SW_ENOMEM;
-  chord_greedy(d, e, m, idx);
-  st = chord_model(d, idx, m, out, err);
-  free(idx);
-  return st;
-}
-
-int fit_interp_count(const fit_data *d, size_t nseg, sw_pwl *out, double *e_out,
-                     size_t *iters, sw_err *err)
-{
-  double elo = 0, ehi = start_level(d) * 2;
-  size_t it, m, j, *idx = sw_alloc(nseg + 1, sizeof *idx, err);
-  int st;
-  if (!idx) return SW_ENOMEM;
-  while (chord_greedy(d, ehi, nseg, NULL) > nseg) { elo = ehi; ehi *= 2; }
-  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-10 * ehi; it++) {
-    double mid = 0.5 * (elo + ehi);
-    if (chord_greedy(d, mid, nseg, NULL) <= nseg) ehi = mid; else elo = mid;
-  }
-  *iters += it;
-  m = chord_greedy(d, ehi, nseg, idx);
-  while (m < nseg) { /* more knots than needed: split the widest run */
-    size_t best = 0, span = 0, mid;
-    for (j = 0; j < m; j++)
-      if (idx[j + 1] - idx[j] > span) { span = idx[j + 1] - idx[j]; best = j; }
-    if (span < 2) { free(idx); return sw_err_set(err, SW_EINVAL, "too few samples for %zu segments", nseg); }
-    mid = idx[best] + span / 2;
-    memmove(idx + best + 2, idx + best + 1, (m - best) * sizeof *idx);
-    idx[best + 1] = mid;
-    m++;
-  }
-  st = chord_model(d, idx, m, out, err);
-  free(idx);
-  if (!st) *e_out = fit_data_maxerr(d, out);
+  fit_tube_clear(&w);
   return st;
 }
