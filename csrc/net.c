@@ -164,8 +164,11 @@ static int build_segments(sw_net_dev *d, const char *name, sw_err *err)
     /* y = slope*x + icpt  ->  y - slope*x = icpt, in (v, i) terms */
     double ax = -g->slope, ay = 1, nrm = sqrt(1 + g->slope * g->slope);
     if (!sw_isfinite(g->slope) || !sw_isfinite(g->icpt)) {
+      int label = g->label; /* g lives in the block freed next */
+      double slope = g->slope, icpt = g->icpt;
       free(d->seg); d->seg = NULL;
-      return sw_err_set(err, SW_EINVAL, "device %s: segment %d is not finite", name, g->label);
+      return sw_err_set(err, SW_EINVAL, "device %s: segment %d's line is not finite (slope %g, intercept %g)",
+                        name, label, slope, icpt);
     }
     if (d->x_is_i) { g->a = ay / nrm; g->b = ax / nrm; }
     else { g->a = ax / nrm; g->b = ay / nrm; }
