@@ -423,7 +423,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
      * coarsely; the fixed-knot minimax that follows settles the level */
     double eg = ehi, gl = 0;
     int use_greedy = !(k && k->has_last);
-    for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-9 * ehi; it++) {
+    for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-6 * ehi; it++) {
       double mid = 0.5 * (elo + ehi);
       if ((st = count_at(d, mid, 0, NULL, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = mid; else elo = mid;
@@ -438,7 +438,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
         gl = eg;
         eg *= 2;
       }
-      for (it = 0; tries < 200 && it < BISECT_STEPS && eg - gl > 1e-9 * eg; it++) {
+      for (it = 0; tries < 200 && it < BISECT_STEPS && eg - gl > 1e-6 * eg; it++) {
         double mid = 0.5 * (gl + eg);
         m = greedy(d, mid, 1, k, nseg, &w, NULL, &st, err);
         if (st) goto done;
@@ -464,7 +464,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
       elo = ehi;
       ehi *= 2;
     }
-    for (it = 0; tries < 200 && it < BISECT_STEPS && ehi - elo > 1e-10 * ehi; it++) {
+    for (it = 0; tries < 200 && it < BISECT_STEPS && ehi - elo > 1e-7 * ehi; it++) {
       double mid = 0.5 * (elo + ehi);
       if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = mid; else elo = mid;
@@ -577,7 +577,7 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
   if (tries == 200)
     return sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
                       "be met with these knots");
-  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-12 * ehi; it++) {
+  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-11 * ehi; it++) {
     double mid = 0.5 * (elo + ehi);
     if ((st = chain(d, mid, pi, qi, nseg, kp, w, NULL, &feas, err))) return st;
     if (feas) ehi = mid; else elo = mid;
