@@ -345,7 +345,7 @@ static int knots_for(fit_job *J, size_t n, double *K, sw_err *err)
     memcpy(K, o->knot_list, (n + 1) * sizeof *K);
     return SW_OK;
   case SW_KNOTS_GEOMETRIC:
-    return fit_knots_geometric(o->lo, o->hi, n, K, err);
+    return fit_knots_geometric(o->lo, o->hi, o->offset, n, K, err);
   case SW_KNOTS_CURVATURE:
   case SW_KNOTS_OPTIMAL:
     return fit_knots_curvature(J->c, &J->d, o->lo, o->hi, n,

@@ -47,6 +47,7 @@ typedef struct sw_fit_opts {
   double slope_first, slope_last;
   int monotone;             /* 1: model slopes follow the curve's direction */
   size_t grid;              /* samples of an analytic curve; 0: default */
+  double offset;            /* geometric knots: spacing grows from this x */
 } sw_fit_opts;
 
 typedef struct sw_fit_info {
@@ -166,7 +167,7 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg,
 
 /* Knot schemes (fit_knots.c): nseg + 1 knots from lo to hi. */
 int fit_knots_uniform(double lo, double hi, size_t nseg, double *k, sw_err *err);
-int fit_knots_geometric(double lo, double hi, size_t nseg, double *k, sw_err *err);
+int fit_knots_geometric(double lo, double hi, double offset, size_t nseg, double *k, sw_err *err);
 int fit_knots_curvature(const sw_curve *c, const fit_data *d, double lo,
                         double hi, size_t nseg, double power, double *k,
                         sw_err *err);

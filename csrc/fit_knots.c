@@ -17,15 +17,21 @@ int fit_knots_uniform(double lo, double hi, size_t nseg, double *k, sw_err *err)
   return SW_OK;
 }
 
-int fit_knots_geometric(double lo, double hi, size_t nseg, double *k, sw_err *err)
+/* Spacing grows by a constant ratio away from offset (the knots of
+ * x - offset form a geometric sequence). */
+int fit_knots_geometric(double lo, double hi, double offset, size_t nseg, double *k, sw_err *err)
 {
   size_t i;
-  if (!(lo > 0 && hi > 0) && !(lo < 0 && hi < 0))
-    return sw_err_set(err, SW_EINVAL, "geometric knots need a range that does not contain 0 "
-                      "(lo = %g, hi = %g)", lo, hi);
-  for (i = 0; i <= nseg; i++) k[i] = lo * pow(hi / lo, (double)i / (double)nseg);
+  double a = lo - offset, b = hi - offset;
+  if (!(a > 0 && b > 0) && !(a < 0 && b < 0))
+    return sw_err_set(err, SW_EINVAL, "geometric knots need a range that does not contain the "
+                      "offset %g (lo = %g, hi = %g); give offset outside the range", offset, lo, hi);
+  for (i = 0; i <= nseg; i++) k[i] = offset + a * pow(b / a, (double)i / (double)nseg);
   k[0] = lo;
   k[nseg] = hi;
+  for (i = 1; i < nseg; i++)
+    if (!(k[i] > k[i - 1]))
+      return sw_err_set(err, SW_EINVAL, "geometric knots collapse (too many segments for the range)");
   return SW_OK;
 }
 

@@ -117,6 +117,7 @@ static int l_fit(lua_State *L)
   o.has_slope_first = opt_number(L, "slope_first", &o.slope_first);
   o.has_slope_last = opt_number(L, "slope_last", &o.slope_last);
   o.monotone = opt_bool(L, "monotone", 0);
+  opt_number(L, "offset", &o.offset);
   if (opt_number(L, "grid", &v)) {
     if (!(v >= 3 && v <= 1e7)) return luaL_error(L, "segwise.fit: grid (%g) must be between 3 and 1e7", v);
     o.grid = (size_t)v;

@@ -341,9 +341,17 @@ describe("segwise.fit", function()
       assert.matches("unbounded; give lo and hi", errmsg(sw.fit, power(), {}))
     end)
 
-    it("rejects geometric knots on a range that holds 0", function()
-      assert.matches("geometric knots need a range that does not contain 0",
+    it("rejects geometric knots on a range that holds 0 unless an offset moves it", function()
+      assert.matches("geometric knots need a range that does not contain the offset 0",
         errmsg(sw.fit, power(), { lo = -1, hi = 1, knots = "geometric" }))
+      local m = sw.fit(power(), { lo = -1, hi = 1, knots = "geometric", offset = -1.5, segments = 3 })
+      local kx = m:knots()
+      -- spacing grows by a constant ratio from the offset: (x - offset) geometric
+      local r1, r2 = (kx[2] + 1.5) / (kx[1] + 1.5), (kx[3] + 1.5) / (kx[2] + 1.5)
+      assert.is.near(r1, r2, 1e-12)
+      assert.is.near(5, r1 ^ 3, 1e-12)  -- (1 + 1.5) / (-1 + 1.5) = 5
+      assert.matches("offset applies to knots = \"geometric\" only",
+        errmsg(sw.fit, power(), { lo = 0, hi = 1, offset = 2 }))
     end)
 
     it("rejects a curve that is not a curve", function()

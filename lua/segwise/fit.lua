@@ -12,7 +12,7 @@ local SPEC = {
   knots = "string|table", criterion = CRITERIA, error = { "abs", "rel" },
   rel_floor = "number", continuous = "boolean", at = "number",
   through = "table", slope_first = "number", slope_last = "number",
-  monotone = "boolean", grid = "number",
+  monotone = "boolean", grid = "number", offset = "number",
 }
 
 local function fail(msg, ...)
@@ -51,7 +51,7 @@ return function(sw, core)
     opts = util.check_opts("fit", opts, SPEC)
     local o = {}
     for k, v in pairs(opts) do o[k] = v end
-    for _, k in ipairs { "lo", "hi", "tol", "rel_floor", "at", "slope_first", "slope_last", "segments" } do
+    for _, k in ipairs { "lo", "hi", "tol", "rel_floor", "at", "slope_first", "slope_last", "segments", "offset" } do
       finite(k, o[k])
     end
     local okd, dlo, dhi = pcall(curve.domain, curve)
@@ -102,6 +102,7 @@ return function(sw, core)
     if o.tol == nil and o.segments == nil then
       o.segments = (o.criterion == "tangent" or o.criterion == "chord") and 1 or 4
     end
+    if o.offset ~= nil and o.knots ~= "geometric" then fail("offset applies to knots = \"geometric\" only") end
     if o.criterion == "tangent" and o.at == nil then
       fail("criterion 'tangent' needs at (the operating point)")
     end
