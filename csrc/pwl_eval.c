@@ -4,8 +4,9 @@
  * the segment is the one sw_pwl_locate finds, the value comes from the same
  * expression, and points outside the knots or NaN go through sw_pwl_eval
  * itself.  Only the way the segment is found changes:
- *   - a running segment while the input is non-decreasing (a linear merge of
- *     the points with the knots), dropped at the first step back;
+ *   - a running segment while the input is non-decreasing (a merge of the
+ *     points with the knots, galloping over runs of knots between two
+ *     points), dropped at the first step back;
  *   - for points in random order, a guess from the point's position that is
  *     then corrected to the exact segment: the guess is direct when the
  *     knots are uniform, and read from a small bucket table on the stack
@@ -129,8 +130,9 @@ static void advise_huge_pages(double *y, size_t n)
 #endif
 }
 
-/* Points outside the knots and NaN: exactly the scalar path. */
-static int eval_outside(const sw_pwl *m, double x, double *y, size_t i, sw_err *err)
+/* One point by the scalar path itself (points outside the knots, NaN, and
+ * inputs too short for the set-up). */
+static int eval_scalar(const sw_pwl *m, double x, double *y, size_t i, sw_err *err)
 {
   int st = sw_pwl_eval(m, x, y, err);
   if (st) return sw_err_prefix(err, "at index %zu: ", i + 1);
@@ -149,7 +151,7 @@ static int eval_small(const sw_pwl *m, const double *x, double *y, size_t i, siz
     double xi = x[i];
     size_t j, k = 0;
     if (!(xi >= lo && xi <= hi)) {
-      int st = eval_outside(m, xi, &y[i], i, err);
+      int st = eval_scalar(m, xi, &y[i], i, err);
       if (st) return st;
       continue;
     }
@@ -174,7 +176,7 @@ static int eval_guessed(const sw_pwl *m, const guess *g, const double *x, double
     double xi = x[i], t;
     size_t k, s;
     if (!(xi >= lo && xi <= hi)) {
-      int st = eval_outside(m, xi, &y[i], i, err);
+      int st = eval_scalar(m, xi, &y[i], i, err);
       if (st) return st;
       continue;
     }
@@ -213,7 +215,7 @@ static int eval_search(const sw_pwl *m, const guess *g, const double *x, double 
     double xi = x[i];
     size_t b, k;
     if (!(xi >= lo && xi <= hi)) {
-      int st = eval_outside(m, xi, &y[i], i, err);
+      int st = eval_scalar(m, xi, &y[i], i, err);
       if (st) return st;
       continue;
     }
@@ -237,11 +239,18 @@ static int eval_merge(const sw_pwl *m, const double *x, double *y, size_t n, siz
     if (!(xi >= prev)) break; /* a step back, or NaN */
     prev = xi;
     if (!(xi >= lo && xi <= hi)) {
-      int st = eval_outside(m, xi, &y[i], i, err);
+      int st = eval_scalar(m, xi, &y[i], i, err);
       if (st) return st;
       continue;
     }
-    while (k + 1 < nseg && xi >= xk[k + 1]) k++;
+    if (k + 1 < nseg && xi >= xk[k + 1]) { /* gallop, then search: sparse points on many knots */
+      size_t from = k + 1, step = 1;
+      while (from + step < nseg && xi >= xk[from + step]) {
+        from += step;
+        step *= 2;
+      }
+      k = search(xk, from, from + step - 1 < nseg - 1 ? from + step - 1 : nseg - 1, xi);
+    }
     y[i] = line_at(m, k, xi);
   }
   *stop = i;
@@ -253,15 +262,17 @@ int sw_pwl_eval_many(const sw_pwl *m, const double *x, double *y, size_t n, sw_e
   size_t i = 0;
   int st;
   guess g;
-  if (n < FEW_POINTS) {
-    for (i = 0; i < n; i++)
-      if ((st = eval_outside(m, x[i], &y[i], i, err))) return st;
+  if (n >= FEW_POINTS) {
+    advise_huge_pages(y, n);
+    if ((st = eval_merge(m, x, y, n, &i, err))) return st;
+    if (i == n) return SW_OK;
+    if (m->nseg <= 4) return eval_small(m, x, y, i, n, err);
+  }
+  if (n - i < FEW_POINTS || n - i < m->nseg) { /* the set-up below costs O(nseg) */
+    for (; i < n; i++)
+      if ((st = eval_scalar(m, x[i], &y[i], i, err))) return st;
     return SW_OK;
   }
-  advise_huge_pages(y, n);
-  if ((st = eval_merge(m, x, y, n, &i, err))) return st;
-  if (i == n) return SW_OK;
-  if (m->nseg <= 4) return eval_small(m, x, y, i, n, err);
   guess_init(m, &g);
   if (g.steps > MAX_STEPS) return eval_search(m, &g, x, y, i, n, err);
   return eval_guessed(m, &g, x, y, i, n, err);
