@@ -142,6 +142,10 @@ describe("segwise.pwl", function()
         local m = continuous_model(x, "line")
         local pts = make_points(x, 5000, true, sorted)
         assert.is_nil(first_mismatch(m, pts, m:eval(pts)))
+        -- few points, far apart: the sorted walk gallops over runs of knots,
+        -- random order takes the scalar path
+        local sparse = make_points({ x[1], x[#x] }, 60, true, sorted)
+        assert.is_nil(first_mismatch(m, sparse, m:eval(sparse)))
       end
     end)
 
