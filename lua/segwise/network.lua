@@ -17,6 +17,8 @@ return function(sw, core)
 
   local Op = {}
   Op.__index = Op
+  -- print(op) in a REPL shows the operating-point table
+  Op.__tostring = function(op) return require("segwise.report").op_table(op) end
 
   local function name_arg(fname, what, v)
     if type(v) == "number" then return tostring(v) end
