@@ -26,3 +26,15 @@ print(op.trace)
 local ex = net:solve { exact = true }
 print(("PWL: %s at %s   exact: %s at %s"):format(sw.si(op.i.D1, "A"), sw.si(op.v.a, "V"),
   sw.si(ex.i.D1, "A"), sw.si(ex.v.a, "V")))
+
+-- The curve, the model with its knots, and the operating point, as an SVG.
+local spec = sw.plot.fit_spec(d, { { name = "4-segment minimax", model = m } },
+  { x = { label = "diode voltage", unit = "V" }, y = { label = "diode current", unit = "A" } })
+spec.title = "Diode law and its PWL model; the operating point with 470 Ω from 5 V"
+spec.series[#spec.series + 1] = { x = { 0.6, 0.8 }, y = { (5 - 0.6) / 470, (5 - 0.8) / 470 },
+  label = "load line: 5 V through 470 Ω" }
+spec.marks = spec.marks or {}
+spec.marks[#spec.marks + 1] = { x = op.v.a, y = op.i.D1, label = "operating point" }
+os.execute("mkdir -p out")
+sw.plot.svg("out/tour.svg", spec)
+print("plot written to out/tour.svg")
