@@ -337,6 +337,13 @@ static int one_segment_closed(fit_job *J, sw_pwl *out, int *st, sw_err *err)
   return 1;
 }
 
+/* A failure an optional refinement may fall back from: numeric trouble
+ * yes; out of memory and callback errors never. */
+static int absorbable(int st)
+{
+  return st != SW_ENOMEM && st != SW_ECALLBACK;
+}
+
 static int knots_for(fit_job *J, size_t n, double *K, sw_err *err)
 {
   const sw_fit_opts *o = J->o;
@@ -474,14 +481,22 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
       sw_pwl_free(out);
       *out = r;
     }
-    /* never worse than the curvature scheme's minimax on its knots */
-    if (n > 1 && !(st = knots_for(J, n, K, err)) &&
-        !(st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err)) &&
-        fit_minimax_fixed(&J->d, K, n, o->continuous, &J->k, &alt, &e_alt, &J->iters, err) == SW_OK) {
-      if (e_alt < J->internal) { sw_pwl_free(out); *out = alt; J->internal = e_alt; }
-      else sw_pwl_free(&alt);
+    /* never worse than the curvature scheme's minimax on its knots; that
+     * alternative may fail numerically (a knot without samples), which
+     * keeps the optimal answer, but out of memory is passed up */
+    if (n > 1) {
+      st = knots_for(J, n, K, err);
+      if (!st) st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err);
+      if (!st) st = fit_minimax_fixed(&J->d, K, n, o->continuous, &J->k, &alt, &e_alt, &J->iters, err);
+      if (!st) {
+        if (e_alt < J->internal) { sw_pwl_free(out); *out = alt; J->internal = e_alt; }
+        else sw_pwl_free(&alt);
+      } else if (absorbable(st)) {
+        st = SW_OK;
+      } else {
+        sw_pwl_free(out);
+      }
     }
-    st = SW_OK;
     goto done;
   }
   if (o->knots == SW_KNOTS_OPTIMAL && (o->criterion == SW_FIT_INTERP || o->criterion == SW_FIT_CHORD)) {
@@ -549,10 +564,15 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
           sw_pwl p;
           double ep;
           memset(&p, 0, sizeof p);
-          if (fit_minimax_fixed(&J->d, out->x, out->nseg, o->continuous, &J->k, &p, &ep,
-                                &J->iters, err) == SW_OK) {
+          st = fit_minimax_fixed(&J->d, out->x, out->nseg, o->continuous, &J->k, &p, &ep,
+                                 &J->iters, err);
+          if (!st) {
             if (ep <= e_int) { sw_pwl_free(out); *out = p; }
             else sw_pwl_free(&p);
+          } else if (absorbable(st)) {
+            st = SW_OK; /* the greedy model stands */
+          } else {
+            sw_pwl_free(out);
           }
         }
       } else {
@@ -595,7 +615,7 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
     J->iters++;
     if (!st) st = measure(J, out, &e, err);
     sw_pwl_free(out);
-    if (st == SW_ECALLBACK) return st;
+    if (!absorbable(st)) return st;
     if (!st && e <= tol) hi = mid; else lo = mid;
   }
   return fit_count(J, hi, out, err);

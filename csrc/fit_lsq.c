@@ -367,12 +367,18 @@ done:
   return st;
 }
 
-static double cont_sse(const fit_data *d, const double *K, size_t n, double *c)
+/* Weighted SSE of the continuous fit on knots K into *sse: a knot set the
+ * system cannot take (singular, empty knot) costs INFINITY, so the search
+ * moves away from it; out of memory is passed up, never absorbed. */
+static int cont_sse(const fit_data *d, const double *K, size_t n, double *c, double *sse,
+                    sw_err *err)
 {
   sw_err e;
   size_t i;
   double s = 0;
-  if (lsq_cont(d, K, n, NULL, NULL, NULL, 0, c, &e)) return INFINITY;
+  int st = lsq_cont(d, K, n, NULL, NULL, NULL, 0, c, &e);
+  if (st == SW_ENOMEM) return sw_err_set(err, SW_ENOMEM, "%s", e.msg);
+  if (st) { *sse = INFINITY; return SW_OK; }
   for (i = 0; i < d->n; i++) {
     double W = weight(d, i), t, v;
     size_t j;
@@ -382,7 +388,8 @@ static double cont_sse(const fit_data *d, const double *K, size_t n, double *c)
     v = (1 - t) * c[j] + t * c[j + 1] - d->y[i];
     s += W * v * v;
   }
-  return s;
+  *sse = s;
+  return SW_OK;
 }
 
 int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int continuous,
@@ -414,9 +421,10 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
     sub.n = m;
     d = &sub;
   }
-  best = cont_sse(d, knots, nseg, c);
+  if ((st = cont_sse(d, knots, nseg, c, &best, err))) goto done;
   if (start) {
-    double s2 = cont_sse(d, start, nseg, c);
+    double s2;
+    if ((st = cont_sse(d, start, nseg, c, &s2, err))) goto done;
     if (s2 < best) { best = s2; memcpy(knots, start, (nseg + 1) * sizeof *knots); }
   }
   /* coordinate-wise golden section on each interior knot */
@@ -430,11 +438,14 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
       memcpy(K2, knots, (nseg + 1) * sizeof *K2);
       x1 = b - g * (b - a);
       x2 = a + g * (b - a);
-      K2[j] = x1; f1 = cont_sse(d, K2, nseg, c);
-      K2[j] = x2; f2 = cont_sse(d, K2, nseg, c);
+      K2[j] = x1;
+      if ((st = cont_sse(d, K2, nseg, c, &f1, err))) goto done;
+      K2[j] = x2;
+      if ((st = cont_sse(d, K2, nseg, c, &f2, err))) goto done;
       for (it = 0; it < 24; it++) {
-        if (f1 <= f2) { b = x2; x2 = x1; f2 = f1; x1 = b - g * (b - a); K2[j] = x1; f1 = cont_sse(d, K2, nseg, c); }
-        else { a = x1; x1 = x2; f1 = f2; x2 = a + g * (b - a); K2[j] = x2; f2 = cont_sse(d, K2, nseg, c); }
+        if (f1 <= f2) { b = x2; x2 = x1; f2 = f1; x1 = b - g * (b - a); K2[j] = x1; st = cont_sse(d, K2, nseg, c, &f1, err); }
+        else { a = x1; x1 = x2; f1 = f2; x2 = a + g * (b - a); K2[j] = x2; st = cont_sse(d, K2, nseg, c, &f2, err); }
+        if (st) goto done;
       }
       *iters += 1;
       cur = f1 <= f2 ? f1 : f2;
@@ -442,8 +453,9 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
     }
     if (!(best < before * (1 - 1e-9))) break;
   }
+done:
   free(c);
   free(K2);
   fit_data_free(&sub);
-  return SW_OK;
+  return st;
 }
