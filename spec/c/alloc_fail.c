@@ -390,6 +390,15 @@ static int sc_net(double *fp, sw_err *err)
   *fp += state[0] + state[1];
   if ((rc = sw_net_sweep(&net, 0, values, 3, NULL, 1e4, ops, err))) goto done;
   *fp += ops[2].vnode[2];
+  for (k = 0; k < 3; k++) sw_net_op_free(&ops[k]);
+  {
+    /* seeded Monte Carlo: R1 within 5 %, uniform */
+    size_t el = 1;
+    double tol = 0.05, drawn[3];
+    int gauss = 0;
+    if ((rc = sw_net_montecarlo(&net, &el, &tol, &gauss, 1, 3, 7, 1e4, ops, drawn, err))) goto done;
+    *fp += drawn[2] + ops[2].i[1];
+  }
 done:
   for (k = 0; k < 3; k++) sw_net_op_free(&ops[k]);
   free(all);
