@@ -10,6 +10,9 @@
 #define DEFAULT_GRID 4001
 #define COMPARE_GRID 2001
 #define TOL_RETRIES 8
+#define TOL_POINTS_PER_SEG 64
+#define POLISH_RTOL 1e-4 /* the polish only centres the lines: a coarse level will do */
+#define TOL_MAX_GRID 2000001
 
 void sw_fit_opts_init(sw_fit_opts *o)
 {
@@ -115,44 +118,6 @@ double fit_data_maxerr(const fit_data *d, const sw_pwl *m)
   return e;
 }
 
-/* Grid of an analytic curve: half the points uniform, half equidistributed
- * on |f''|^(1/2), so that sharp knees get samples. */
-static int analytic_grid(const sw_curve *c, double lo, double hi, size_t N, double *x, sw_err *err)
-{
-  size_t G = 1000, i, j;
-  double *rho = sw_alloc(G, sizeof *rho, err), big = 0, total = 0, cell = (hi - lo) / (double)G;
-  int st = SW_OK;
-  if (!rho) return SW_ENOMEM;
-  for (i = 0; i < G; i++) {
-    double f2;
-    if ((st = sw_curve_deriv2(c, lo + cell * ((double)i + 0.5), &f2, err))) goto done;
-    rho[i] = sqrt(fabs(f2));
-    if (sw_isfinite(rho[i]) && rho[i] > big) big = rho[i];
-  }
-  for (i = 0; i < G; i++) {
-    if (!sw_isfinite(rho[i])) rho[i] = big;
-    total += rho[i];
-  }
-  for (i = 0; i < G; i++) rho[i] = (total > 0 ? rho[i] / total : 0) + 1.0 / (double)G;
-  x[0] = lo;
-  {
-    double acc = 0;
-    i = 0;
-    for (j = 1; j + 1 < N; j++) {
-      double level = 2.0 * (double)j / (double)(N - 1);
-      while (i < G - 1 && acc + rho[i] < level) acc += rho[i++];
-      x[j] = lo + cell * ((double)i + (level - acc) / rho[i]);
-      if (x[j] > hi) x[j] = hi;
-      if (x[j] <= x[j - 1]) x[j] = x[j - 1] + 1e-12 * (hi - lo);
-    }
-  }
-  x[N - 1] = hi;
-  for (j = N - 1; j > 0 && x[j - 1] >= x[j]; j--) x[j - 1] = x[j] - 1e-12 * (hi - lo);
-done:
-  free(rho);
-  return st;
-}
-
 /* The sample set of curve c on [lo, hi] with tube scales and weights. */
 static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err *err)
 {
@@ -173,7 +138,13 @@ static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err 
     if (n < 8 * o->segments + 1) n = 8 * o->segments + 1;
     if (n < 3) n = 3;
   }
-  d->x = sw_alloc(n, sizeof(double), err);
+  if (c->kind != SW_CURVE_SAMPLES) {
+    if ((st = fit_grid_analytic(c, o->lo, o->hi, n, o->rel, o->rel_floor, o->tol, &d->x, &n, err)))
+      return st;
+    d->analytic = 1;
+  } else {
+    d->x = sw_alloc(n, sizeof(double), err);
+  }
   d->y = sw_alloc(n, sizeof(double), err);
   d->s = sw_alloc(n, sizeof(double), err);
   d->w = sw_alloc(n, sizeof(double), err);
@@ -188,8 +159,6 @@ static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err 
       else if (c->x[i] == o->hi) d->w[n - 1] = 1;
     d->x[k++] = o->hi;
   } else {
-    d->analytic = 1;
-    if ((st = analytic_grid(c, o->lo, o->hi, n, d->x, err))) goto fail;
     for (i = 0; i < n; i++)
       d->w[i] = 0.5 * ((i + 1 < n ? d->x[i + 1] : d->x[i]) - (i > 0 ? d->x[i - 1] : d->x[i]));
   }
@@ -534,11 +503,62 @@ done:
 static int measure(fit_job *J, const sw_pwl *m, double *e, sw_err *err)
 {
   sw_compare cmp;
-  int st = sw_pwl_compare(m, J->c, J->o->lo, J->o->hi, COMPARE_GRID, J->o->rel_floor, &cmp, err);
+  int st = fit_recheck(m, J->c, J->o->lo, J->o->hi, COMPARE_GRID, J->o->rel_floor, &cmp, err);
   if (st) return st;
   *e = J->o->rel ? cmp.max_rel : cmp.max_abs;
   if (!(*e == *e)) *e = INFINITY;
   return SW_OK;
+}
+
+/* Fewest segments within tol for optimal minimax or interpolation: the
+ * greedy tube on the samples, rechecked against the curve. */
+static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  double tol = o->tol, e_int = tol, e;
+  int st, tries;
+  for (tries = 0; tries < TOL_RETRIES; tries++) {
+    if (o->criterion == SW_FIT_MINIMAX) {
+      st = fit_minimax_tol(&J->d, e_int, o->continuous, &J->k, out, err);
+      if (!st) { /* polish: the best lines on the greedy knots */
+        sw_pwl p;
+        double ep;
+        memset(&p, 0, sizeof p);
+        st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, o->continuous, &J->k, e_int,
+                                    POLISH_RTOL, &p, &ep, &J->iters, err);
+        if (!st) {
+          if (ep <= e_int) { sw_pwl_free(out); *out = p; }
+          else sw_pwl_free(&p);
+        } else if (absorbable(st)) {
+          st = SW_OK; /* the greedy model stands */
+        } else {
+          sw_pwl_free(out);
+        }
+      }
+    } else {
+      st = fit_interp_tol(&J->d, e_int, out, err);
+    }
+    if (st) return st;
+    J->internal = fit_data_maxerr(&J->d, out);
+    J->iters++;
+    if ((st = measure(J, out, &e, err))) { sw_pwl_free(out); return st; }
+    if (e <= tol * (1 + 1e-9)) return SW_OK;
+    if (J->d.analytic && tries < TOL_RETRIES / 2) {
+      /* the grid missed a peak: add the curve's true error peaks as
+       * samples and redo at the same level (keeps the count optimal) */
+      double peak;
+      size_t added;
+      st = refine_peaks(J, out, &peak, &added, err);
+      sw_pwl_free(out);
+      if (st) return st;
+      if (added) continue;
+    } else {
+      sw_pwl_free(out);
+    }
+    e_int *= 0.98 * tol / e; /* no new samples helped: tighten and redo */
+  }
+  return sw_err_set(err, SW_ENUMERIC, "could not meet tol = %g on the curve itself between its "
+                    "samples; give a denser grid (or rel_floor for relative error)", tol);
 }
 
 /* Fewest segments within tol: the greedy tube for optimal minimax and
@@ -546,9 +566,9 @@ static int measure(fit_job *J, const sw_pwl *m, double *e, sw_err *err)
 static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
 {
   const sw_fit_opts *o = J->o;
-  double tol = o->tol, e_int = tol, e;
+  double tol = o->tol, e;
   size_t lo, hi, nmax, i;
-  int st, tries;
+  int st;
   for (i = 0; i < o->nthrough; i++) { /* a point off the band cannot be met */
     double f;
     if ((st = sw_curve_eval(J->c, o->through_x[i], &f, err))) return st;
@@ -557,37 +577,23 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
                         "the curve (%g there)", i + 1, o->through_x[i], o->through_y[i], tol, f);
   }
   if (o->knots == SW_KNOTS_OPTIMAL && o->criterion != SW_FIT_LSQ) {
-    for (tries = 0; tries < TOL_RETRIES; tries++) {
-      if (o->criterion == SW_FIT_MINIMAX) {
-        st = fit_minimax_tol(&J->d, e_int, o->continuous, &J->k, out, err);
-        if (!st) { /* polish: the best lines on the greedy knots */
-          sw_pwl p;
-          double ep;
-          memset(&p, 0, sizeof p);
-          st = fit_minimax_fixed(&J->d, out->x, out->nseg, o->continuous, &J->k, &p, &ep,
-                                 &J->iters, err);
-          if (!st) {
-            if (ep <= e_int) { sw_pwl_free(out); *out = p; }
-            else sw_pwl_free(&p);
-          } else if (absorbable(st)) {
-            st = SW_OK; /* the greedy model stands */
-          } else {
-            sw_pwl_free(out);
-          }
-        }
-      } else {
-        st = fit_interp_tol(&J->d, e_int, out, err);
+    if ((st = tol_greedy(J, out, err))) return st;
+    /* knots sit on samples: an analytic curve needing many segments gets
+     * a grid of TOL_POINTS_PER_SEG points a segment and a second pass */
+    if (J->d.analytic && !o->grid && J->d.n < TOL_POINTS_PER_SEG * out->nseg) {
+      sw_fit_opts o2 = *o;
+      fit_data nd;
+      size_t want = TOL_POINTS_PER_SEG * out->nseg + 1;
+      o2.grid = want < TOL_MAX_GRID ? want : TOL_MAX_GRID;
+      if (o2.grid > J->d.n) {
+        if ((st = prepare(J->c, &o2, &nd, err))) { sw_pwl_free(out); return st; }
+        fit_data_free(&J->d);
+        J->d = nd;
+        sw_pwl_free(out);
+        return tol_greedy(J, out, err);
       }
-      if (st) return st;
-      J->internal = fit_data_maxerr(&J->d, out);
-      J->iters++;
-      if ((st = measure(J, out, &e, err))) { sw_pwl_free(out); return st; }
-      if (e <= tol * (1 + 1e-9)) return SW_OK;
-      sw_pwl_free(out);
-      e_int *= 0.98 * tol / e; /* the grid missed a peak: tighten and redo */
     }
-    return sw_err_set(err, SW_ENUMERIC, "could not meet tol = %g on the curve itself between its "
-                      "samples; give a denser grid (or rel_floor for relative error)", tol);
+    return SW_OK;
   }
   /* search the count: doubling, then bisection */
   nmax = J->d.n > 1 ? J->d.n - 1 : 1;
@@ -674,7 +680,7 @@ int sw_fit(const sw_curve *c, const sw_fit_opts *o, sw_pwl *out, sw_fit_info *in
   else if (o->tol > 0) st = fit_tol(&J, out, err);
   else st = fit_count(&J, o->knots == SW_KNOTS_LIST ? o->nknot_list - 1 : o->segments, out, err);
   if (st) goto done;
-  if ((st = sw_pwl_compare(out, c, o->lo, o->hi, COMPARE_GRID, o->rel_floor, &cmp, err))) goto done;
+  if ((st = fit_recheck(out, c, o->lo, o->hi, COMPARE_GRID, o->rel_floor, &cmp, err))) goto done;
   info->max_abs = cmp.max_abs;
   info->x_abs = cmp.x_abs;
   info->max_rel = cmp.rel_undefined ? NAN : cmp.max_rel;

@@ -147,6 +147,11 @@ int fit_reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, con
 int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg,
                       int continuous, const fit_cons *k, sw_pwl *out,
                       double *e_out, size_t *iters, sw_err *err);
+/* The same from a level e_start known (or likely) to be feasible, to a
+ * relative precision rtol of the level. */
+int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, int continuous,
+                           const fit_cons *k, double e_start, double rtol, sw_pwl *out,
+                           double *e_out, size_t *iters, sw_err *err);
 int fit_minimax_tol(const fit_data *d, double e, int continuous,
                     const fit_cons *k, sw_pwl *out, sw_err *err);
 int fit_minimax_count(const fit_data *d, size_t nseg, int continuous,
@@ -164,6 +169,18 @@ int fit_lsq_fixed(const fit_data *d, const double *knots, size_t nseg,
 int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg,
                     int continuous, const double *start, double *knots,
                     size_t *iters, sw_err *err);
+
+/* Grid of an analytic curve on [lo, hi] (fit_grid.c): about n sorted
+ * distinct points into *xs (caller frees), more for a tolerance fit (tol >
+ * 0) until the grid's own chord error is a small part of tol. */
+int fit_grid_analytic(const sw_curve *c, double lo, double hi, size_t n, int rel,
+                      double rel_floor, double tol, double **xs, size_t *nx, sw_err *err);
+
+/* sw_pwl_compare of m against c on [lo, hi] with n grid points, plus (for
+ * analytic curves) a search for each segment's own error peaks
+ * (fit_check.c). */
+int fit_recheck(const sw_pwl *m, const sw_curve *c, double lo, double hi, size_t n,
+                double rel_floor, sw_compare *cmp, sw_err *err);
 
 /* Knot schemes (fit_knots.c): nseg + 1 knots from lo to hi. */
 int fit_knots_uniform(double lo, double hi, size_t nseg, double *k, sw_err *err);

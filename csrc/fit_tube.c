@@ -11,6 +11,7 @@
  * Knots always sit on samples; callers insert them first. */
 #include "fit.h"
 
+#include <float.h>
 #include <math.h>
 #include <stdint.h>
 #include <stdlib.h>
@@ -290,10 +291,26 @@ static int convex_data(const fit_data *d)
     double h1 = d->x[i] - d->x[i - 1], h2 = d->x[i + 1] - d->x[i], dd;
     if (!(h1 > 0) || !(h2 > 0)) return 0;
     dd = (d->y[i + 1] - d->y[i]) / h2 - (d->y[i] - d->y[i - 1]) / h1;
-    if (fabs(dd) <= 1e-12 * (fabs(d->y[i + 1] - d->y[i]) / h2 + fabs(d->y[i] - d->y[i - 1]) / h1)) continue;
+    /* below the rounding of the values (close samples on a large curve)
+     * a second difference says nothing about the sign */
+    if (fabs(dd) <= 1e-12 * (fabs(d->y[i + 1] - d->y[i]) / h2 + fabs(d->y[i] - d->y[i - 1]) / h1) +
+                    8 * DBL_EPSILON * (fabs(d->y[i - 1]) + 2 * fabs(d->y[i]) + fabs(d->y[i + 1])) *
+                    (1 / h1 + 1 / h2))
+      continue;
     if (sign == 0) sign = dd > 0 ? 1 : -1;
     else if ((dd > 0 ? 1 : -1) != sign) return 0;
   }
+  return 1;
+}
+
+/* 1 when nothing but the bands binds the model: no through points (zero
+ * scales), end slopes or monotone direction. */
+static int unconstrained(const fit_data *d, const fit_cons *k)
+{
+  size_t i;
+  if (k && (k->has_first || k->has_last || k->dir)) return 0;
+  for (i = 0; i < d->n; i++)
+    if (!(d->s[i] > 0)) return 0;
   return 1;
 }
 
@@ -363,13 +380,21 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
     st = (!kx || !ky) ? SW_ENOMEM : fit_tube_init(&w, d->n, err);
     if (!st) st = reach_with_greedy(d, e, k, d->n, &w, &m, kx, ky, err);
     fit_tube_clear(&w);
-    if (!st && m == SIZE_MAX)
-      st = sw_err_set(err, SW_ENOSOL, "no continuous model meets the tolerance %g under the "
-                      "constraints (through points, slopes, monotone) at the data", e);
-    if (!st) st = knots_model(kx, ky, m, out, err);
+    if (!st && m != SIZE_MAX) st = knots_model(kx, ky, m, out, err);
     free(kx);
     free(ky);
-    return st;
+    if (st || m != SIZE_MAX) return st;
+    /* the reachable sets lost their way (rounding on bands far narrower
+     * than the values, or more disjoint pieces than kept): the continuous
+     * greedy, then (no constraints) chords between samples still meet e */
+    if (!(k && k->has_last)) {
+      st = tol_direct(d, e, 1, k, out, err);
+      if (st != SW_ENOSOL) return st;
+    }
+    if (!unconstrained(d, k))
+      return sw_err_set(err, SW_ENOSOL, "no continuous model meets the tolerance %g under the "
+                        "constraints (through points, slopes, monotone) at the data", e);
+    return fit_interp_tol(d, e, out, err);
   }
   if ((st = need_reverse(k, err, &rev))) return st;
   if (!rev) return tol_direct(d, e, continuous, k, out, err);
@@ -562,10 +587,10 @@ static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi
 
 /* Bisection on the level of one chain (all segments, or one of them). */
 static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, size_t nseg,
-                        const fit_cons *kp, tube_ws *w, rec_list *R,
+                        const fit_cons *kp, tube_ws *w, rec_list *R, double e_start, double rtol,
                         double *e_out, size_t *iters, sw_err *err)
 {
-  double elo = 0, ehi = fit_start_level(d);
+  double elo = 0, ehi = e_start > 0 ? e_start : fit_start_level(d);
   int feas, st, tries;
   size_t it;
   for (tries = 0; tries < 200; tries++) {
@@ -577,7 +602,7 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
   if (tries == 200)
     return sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
                       "be met with these knots");
-  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-11 * ehi; it++) {
+  for (it = 0; it < BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
     double mid = 0.5 * (elo + ehi);
     if ((st = chain(d, mid, pi, qi, nseg, kp, w, NULL, &feas, err))) return st;
     if (feas) ehi = mid; else elo = mid;
@@ -590,6 +615,13 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
 int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg, int continuous,
                       const fit_cons *k, sw_pwl *out, double *e_out, size_t *iters,
                       sw_err *err)
+{
+  return fit_minimax_fixed_from(d, knots, nseg, continuous, k, 0, 1e-11, out, e_out, iters, err);
+}
+
+int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, int continuous,
+                           const fit_cons *k, double e_start, double rtol, sw_pwl *out,
+                           double *e_out, size_t *iters, sw_err *err)
 {
   size_t *pi = sw_alloc(nseg, sizeof *pi, err), *qi = sw_alloc(nseg, sizeof *qi, err), j;
   tube_ws w;
@@ -611,7 +643,7 @@ int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg, int c
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
   *e_out = 0;
   if (continuous) {
-    if ((st = bisect_chain(d, pi, qi, nseg, k, &w, &R, e_out, iters, err))) goto done;
+    if ((st = bisect_chain(d, pi, qi, nseg, k, &w, &R, e_start, rtol, e_out, iters, err))) goto done;
   } else {
     /* segments are independent: each gets its own smallest level */
     for (j = 0; j < nseg; j++) {
@@ -619,7 +651,7 @@ int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg, int c
       fit_cons kk = k ? *k : (fit_cons){0, 0, 0, 0, 0};
       kk.has_first = k && k->has_first && j == 0;
       kk.has_last = k && k->has_last && j == nseg - 1;
-      if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, &ej, iters, err))) goto done;
+      if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, e_start, rtol, &ej, iters, err))) goto done;
       if (ej > *e_out) *e_out = ej;
       if ((st = recs_push(&R, pi[j], qi[j], &(poly){one.r[0].pn, one.pa, one.ps}, err))) goto done;
     }

@@ -18,8 +18,12 @@ build = {
       sources = {
         "csrc/curve.c",
         "csrc/fit.c",
+        "csrc/fit_check.c",
+        "csrc/fit_grid.c",
+        "csrc/fit_interp.c",
         "csrc/fit_knots.c",
         "csrc/fit_lsq.c",
+        "csrc/fit_poly.c",
         "csrc/fit_reach.c",
         "csrc/fit_tube.c",
         "csrc/larray.c",

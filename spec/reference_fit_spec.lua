@@ -405,3 +405,115 @@ describe("segwise.fit reference values", function()
     end
   end)
 end)
+
+-- A law over a wide range with a steep knee at its top: the sample grid of
+-- the law must follow the knee, or every method misses it.
+describe("segwise.fit reference values: wide range with a steep knee", function()
+  local NVT = 1.1 * 0.02585
+
+  -- Equal-error construction for is*exp(v/nvt) (the -1 of the law only
+  -- shifts it): fewest segments of error <= E covering [a, b], each segment
+  -- the longest whose best line (chord slope, parallel tangent, half the
+  -- gap: Chebyshev equioscillation, common practice) stays within E.
+  local function equal_error_count(is, E, a, b)
+    local function f(v) return is * math.exp(v / NVT) end
+    local function seg_error(x, h)
+      local m = (f(x + h) - f(x)) / h
+      local xi = NVT * math.log(m * NVT / is)
+      return (f(x) + m * (xi - x) - f(xi)) / 2
+    end
+    local x, n = a, 0
+    while true do
+      n = n + 1
+      if seg_error(x, b - x) <= E then return n end
+      local lo, hi = 0, b - x
+      for _ = 1, 100 do
+        local mid = (lo + hi) / 2
+        if seg_error(x, mid) <= E then lo = mid else hi = mid end
+      end
+      x = x + lo
+    end
+  end
+
+  -- Largest |m(v) - f(v)| on a grid dense in the knee (5000 points on
+  -- [-14, 0], 40000 on [0, hi]).
+  local function max_error(m, f, hi)
+    local e = 0
+    for i = 0, 5000 do
+      local v = -14 + 14 * i / 5000
+      e = math.max(e, math.abs(m(v) - f(v)))
+    end
+    for i = 0, 40000 do
+      local v = hi * i / 40000
+      e = math.max(e, math.abs(m(v) - f(v)))
+    end
+    return e
+  end
+
+  it("tracks de Boor's asymptotic error over [-14, 0.65] (an exponential 500 nVt wide)", function()
+    -- de Boor, A Practical Guide to Splines: E_n ~ (int sqrt|f''| dx)^2 / (16 n^2);
+    -- for is*exp(v/nvt), int sqrt(f'') = 2 sqrt(is) (exp(b/2nvt) - exp(a/2nvt)).
+    local is = 1e-9
+    local d = sw.curve.diode { is = is, n = 1.1, vt = 0.02585, x = "v" }
+    local I = 2 * math.sqrt(is) * (math.exp(0.65 / (2 * NVT)) - math.exp(-14 / (2 * NVT)))
+    for _, n in ipairs { 32, 64 } do
+      local m = sw.fit(d, { lo = -14, hi = 0.65, segments = n })
+      assert.is.near(1, m:fit_info().max_abs / (I * I / (16 * n * n)), 0.05)
+    end
+  end)
+
+  it("meets tol over [-14, 0.65] with the equal-error count", function()
+    local is, tol = 1e-9, 0.01
+    local d = sw.curve.diode { is = is, n = 1.1, vt = 0.02585, x = "v" }
+    local m = sw.fit(d, { lo = -14, hi = 0.65, tol = tol })
+    assert.are.equal(equal_error_count(is, tol, -14, 0.65), m:nseg())
+    assert.is_true(max_error(m, function(v) return is * (math.exp(v / NVT) - 1) end, 0.65) <= tol * (1 + 1e-6))
+  end)
+
+  it("meets tol on a law reaching 1.7e4 within 1 % of the equal-error count", function()
+    local is, tol = 2e-6, 0.01
+    local d = sw.curve.diode { is = is, n = 1.1, vt = 0.02585, x = "v" }
+    local m = sw.fit(d, { lo = -14, hi = 0.65, tol = tol })
+    local nstar = equal_error_count(is, tol, -14, 0.65)
+    assert.is_true(m:nseg() >= nstar and m:nseg() <= math.ceil(1.01 * nstar))
+    assert.is_true(max_error(m, function(v) return is * (math.exp(v / NVT) - 1) end, 0.65) <= tol * (1 + 1e-6))
+  end)
+
+  describe("with a series resistance (the knee turns into a line)", function()
+    local is, rs = 2e-6, 0.02
+    local function knee() return sw.curve.diode { is = is, n = 1.1, vt = 0.02585, rs = rs, x = "v" } end
+    -- i = is (exp((v - i rs)/nvt) - 1) solved here by bisection (the residual
+    -- falls with i; the root lies between -is and max(v, 0)/rs).
+    local function current(v)
+      local lo, hi = -is, math.max(v, 0) / rs
+      for _ = 1, 200 do
+        local mid = (lo + hi) / 2
+        if is * (math.exp((v - mid * rs) / NVT) - 1) - mid > 0 then lo = mid else hi = mid end
+        if hi - lo <= 1e-15 * math.abs(hi) then break end
+      end
+      return (lo + hi) / 2
+    end
+
+    it("meets a tolerance of 0.01 checked against an independent solution", function()
+      local tol = 0.01
+      local m = sw.fit(knee(), { lo = -14, hi = 0.65, tol = tol })
+      assert.is_true(max_error(m, current, 0.65) <= tol * (1 + 1e-6))
+      -- fewest: the best model with one segment fewer misses tol
+      local fewer = sw.fit(knee(), { lo = -14, hi = 0.65, segments = m:nseg() - 1 })
+      assert.is_true(max_error(fewer, current, 0.65) > tol)
+    end)
+
+    it("gains with every segment, at de Boor's 1/n^2 rate", function()
+      local prev
+      local errs = {}
+      for _, n in ipairs { 10, 12, 14, 16 } do
+        local m = sw.fit(knee(), { lo = -14, hi = 0.65, segments = n })
+        errs[n] = max_error(m, current, 0.65)
+        if prev then assert.is_true(errs[n] < 0.9 * prev) end
+        prev = errs[n]
+      end
+      -- E_n ~ C / n^2 (de Boor): E_16 / E_10 near (10/16)^2, within 20 %
+      assert.is.near((10 / 16) ^ 2, errs[16] / errs[10], 0.2 * (10 / 16) ^ 2)
+    end)
+  end)
+end)
