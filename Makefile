@@ -90,7 +90,12 @@ asan: deps
 	  UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
 	  $(LUA) spec/run.lua $(LUA) $$(command -v busted) --cpath='./$(ASAN_DIR)/?.so' $(SPEC)
 
-VALGRIND_SPECS ?= spec
+# The whole suite under memcheck takes well over an hour; CI runs this
+# representative part (every module's behaviour and bad-input specs; fitting
+# and evaluation speed paths are covered by make asan, make ctest and fuzzing).
+VALGRIND_SPECS ?= spec/curve_spec.lua spec/pwl_spec.lua spec/reference_spec.lua spec/net_spec.lua \
+  spec/reference_net_spec.lua spec/net_warnings_spec.lua spec/array_spec.lua spec/modelfile_spec.lua \
+  spec/badinput_spec.lua spec/examples_spec.lua
 valgrind: deps
 	@command -v valgrind >/dev/null || $(MAKE) --no-print-directory deps EXTRA_PKGS=valgrind
 	@$(MAKE) --no-print-directory BUILDDIR=build-vg OPT="-O1 -g" all

@@ -43,7 +43,13 @@ static int model_release(lua_State *L)
 
 static sw_extend check_extend(lua_State *L, int idx)
 {
-  return (sw_extend)luaL_checkoption(L, idx, "line", extend_names);
+  const char *s = lua_isnoneornil(L, idx) ? "line" : lua_tostring(L, idx);
+  int k;
+  if (lua_type(L, idx) != LUA_TSTRING && !lua_isnoneornil(L, idx))
+    lsw_error(L, "the extension rule must be \"line\", \"hold\" or \"error\" (got %s)", luaL_typename(L, idx));
+  for (k = 0; extend_names[k]; k++)
+    if (strcmp(s, extend_names[k]) == 0) return (sw_extend)k;
+  return (sw_extend)lsw_error(L, "the extension rule must be \"line\", \"hold\" or \"error\" (got \"%s\")", s);
 }
 
 /* core.pwl_points(xs, ys, extend) */

@@ -6,6 +6,9 @@ local util = require "segwise.util"
 
 local sw = { version = core.version, core = core }
 local check_opts, check_number = util.check_opts, util.check_number
+-- core calls from a public function: errors point at the user's line
+-- (parenthesised returns are not tail calls, so the levels hold)
+local function call(fname, f, ...) return (util.call(3, fname, f, ...)) end
 
 ---------------------------------------------------------------- curves
 sw.curve = {}
@@ -19,7 +22,7 @@ function sw.curve.samples(xs, ys, opts)
   if type(ys) ~= "table" and not util.is_array(ys) then
     error("segwise.curve.samples: ys must be a table of numbers (got " .. util.describe(ys) .. ")", 2)
   end
-  return core.curve_samples(xs, ys, opts.sort or false, opts.duplicates == "mean")
+  return (call("curve.samples", core.curve_samples, xs, ys, opts.sort or false, opts.duplicates == "mean"))
 end
 
 -- Shockley diode with series resistance.  x = "v" gives i(v), "i" gives v(i).
@@ -30,15 +33,18 @@ function sw.curve.diode(p)
     temp = "number", lo = "number", hi = "number" })
   if p.is == nil then error("segwise.curve.diode: is (saturation current, A) is required", 2) end
   if p.vt and p.temp then error("segwise.curve.diode: give vt or temp, not both", 2) end
+  if p.temp ~= nil and not (p.temp > 0) then
+    error(("segwise.curve.diode: temp must be above 0 K (got %g)"):format(p.temp), 2)
+  end
   local vt = p.vt or core.thermal_voltage(p.temp or 300)
-  return core.curve_diode(p.is, p.n or 1, vt, p.rs or 0, p.x == "i", p.lo, p.hi)
+  return (call("curve.diode", core.curve_diode, p.is, p.n or 1, vt, p.rs or 0, p.x == "i", p.lo, p.hi))
 end
 
 -- y = k * sign(x) * |x|^n, odd-symmetric (varistor-like laws).
 function sw.curve.power(p)
   p = check_opts("curve.power", p, { k = "number", n = "number", lo = "number", hi = "number" })
   if p.k == nil or p.n == nil then error("segwise.curve.power: k and n are required", 2) end
-  return core.curve_power(p.k, p.n, p.lo, p.hi)
+  return (call("curve.power", core.curve_power, p.k, p.n, p.lo, p.hi))
 end
 
 -- Any Lua function of x on [lo, hi].
@@ -48,10 +54,18 @@ function sw.curve.fn(f, opts)
   end
   opts = check_opts("curve.fn", opts, { lo = "number", hi = "number" })
   if opts.lo == nil or opts.hi == nil then error("segwise.curve.fn: lo and hi are required", 2) end
-  return core.curve_fn(f, check_number("curve.fn", "lo", opts.lo), check_number("curve.fn", "hi", opts.hi))
+  return (call("curve.fn", core.curve_fn, f, check_number("curve.fn", "lo", opts.lo), check_number("curve.fn", "hi", opts.hi)))
 end
 
-sw.thermal_voltage = core.thermal_voltage
+-- kT/q at a temperature in kelvin (default 300 K).
+function sw.thermal_voltage(kelvin)
+  if kelvin == nil then return core.thermal_voltage(300) end
+  check_number("thermal_voltage", "kelvin", kelvin)
+  if not (kelvin > 0) then
+    error(("segwise.thermal_voltage: kelvin must be above 0 (got %g)"):format(kelvin), 2)
+  end
+  return core.thermal_voltage(kelvin)
+end
 
 ---------------------------------------------------------------- models
 local EXTEND = { "line", "hold", "error" }
@@ -59,7 +73,7 @@ local EXTEND = { "line", "hold", "error" }
 local function pwl_points(_, p)
   p = check_opts("pwl", p, { x = "table", y = "table", extend = EXTEND })
   if p.x == nil or p.y == nil then error("segwise.pwl: x and y are required", 2) end
-  return core.pwl_points(p.x, p.y, p.extend or "line")
+  return (call("pwl", core.pwl_points, p.x, p.y, p.extend or "line"))
 end
 
 sw.pwl = setmetatable({}, { __call = pwl_points })
@@ -82,7 +96,7 @@ function sw.pwl.segments(list, opts)
     lo[k], hi[k], slope[k], icpt[k] = s.lo, s.hi, s.slope, s.intercept
   end
   if #lo == 0 then error("segwise.pwl.segments: need at least 1 segment", 2) end
-  return core.pwl_segments(lo, hi, slope, icpt, opts.extend or "line")
+  return (call("pwl.segments", core.pwl_segments, lo, hi, slope, icpt, opts.extend or "line"))
 end
 
 -- Thevenin-style check that a model has nothing freed behind it.

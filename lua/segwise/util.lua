@@ -64,5 +64,24 @@ function util.is_array(v)
   return type(v) == "userdata" and mt ~= nil and mt.__name == "segwise.Array"
 end
 
+-- Calls core function f for the public function fname, so that its error
+-- points at the user's line, not at this library's: a segwise message loses
+-- the library position and is raised again at the caller's level; any other
+-- error value (a callback's own) passes through unchanged.
+function util.call(level, fname, f, ...)
+  local r = table.pack(pcall(f, ...))
+  if r[1] then return table.unpack(r, 2, r.n) end
+  local msg = r[2]
+  if type(msg) == "string" then
+    local bare = msg:match("^[^\n]-:%d+: (segwise[%.:].*)$") or msg:match("^segwise[%.:].*$")
+    if bare then
+      -- a core function called through pcall has no name of its own
+      bare = bare:gsub("^segwise: ", "segwise." .. fname .. ": ")
+      error(bare, level + 1)
+    end
+  end
+  error(msg, 0)
+end
+
 util.describe = describe
 return util
