@@ -57,6 +57,11 @@ local function model_list(models, F)
   if type(models) == "table" and models.model ~= nil then
     return { { name = models.name or "model", model = models.model } }
   end
+  -- a model, or anything shaped like one (it has a knots method)
+  local ok, knots = pcall(function() return models.knots end)
+  if not ok or type(knots) ~= "function" then
+    error(fmt("%s: models must be a segwise model or a list of {name=, model=} (got %s)", F, type(models)), 3)
+  end
   return { { name = "PWL model", model = models } }
 end
 
