@@ -24,6 +24,7 @@ typedef struct lsw_hold {
   size_t nops;
   sw_net_trace trace;
   int *states;
+  sw_net_sweep_info sweep;
 } lsw_hold;
 
 static int hold_gc(lua_State *L)
@@ -34,6 +35,7 @@ static int hold_gc(lua_State *L)
   free(h->ops); h->ops = NULL; h->nops = 0;
   sw_net_trace_free(&h->trace);
   free(h->states); h->states = NULL;
+  sw_net_sweep_info_free(&h->sweep);
   return 0;
 }
 
@@ -280,7 +282,7 @@ static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_i
   if (rc) lsw_raise(L, "network:solve", &err);
 }
 
-/* n:solve(method, start, trace, max_states, exact, max_iter)
+/* n:solve(method, start, trace, max_states, exact, max_iter, lowrank)
  * -> op, info {method=, nfound=, pmatrix=, pmatrix_test=, trace=} */
 static int l_solve(lua_State *L)
 {
@@ -296,7 +298,7 @@ static int l_solve(lua_State *L)
   int *start = NULL, *state;
   lsw_hold *h;
   sw_err err = { 0, "" };
-  lua_settop(L, 7);
+  lua_settop(L, 8);
   prepare(L, n, "network:solve");
   m = net->ndev;
   if (!lua_isnil(L, 3)) {
@@ -312,7 +314,11 @@ static int l_solve(lua_State *L)
   state = h->states;
   switch (method) {
   case 0: rc = sw_net_auto(net, start, max_states, state, &it, &nfound, &used, &err); break;
-  case 1: rc = sw_net_assumed(net, start, 0, state, &it, want_trace ? &h->trace : NULL, &updates, &err); break;
+  case 1:
+    n->net.refactor_always = lua_isboolean(L, 8) && !lua_toboolean(L, 8);
+    rc = sw_net_assumed(net, start, 0, state, &it, want_trace ? &h->trace : NULL, &updates, &err);
+    n->net.refactor_always = 0;
+    break;
   case 2: {
     int *all = NULL;
     rc = sw_net_enumerate(net, max_states, &all, &count, &it, &err);
@@ -384,36 +390,168 @@ static int l_solve_all(lua_State *L)
   return 1;
 }
 
-/* n:sweep(name, values, start, max_states) -> list of ops */
-static int l_sweep(lua_State *L)
+/* Checks the swept element (arg 2) and reads the start states (arg 4). */
+static size_t sweep_target(lua_State *L, lsw_net *n, int **start)
 {
-  lsw_net *n = check_net(L, 1);
   const char *name = luaL_checkstring(L, 2);
-  size_t nv, k, el;
-  double *vals = lsw_checkdoubles(L, 3, "values", &nv, 0);
-  double max_states = luaL_optnumber(L, 5, 1e6);
-  int *start = NULL;
-  lsw_hold *h;
-  sw_err err = { 0, "" };
-  el = sw_net_find(&n->net, name);
-  if (el == SW_NET_NONE) return luaL_error(L, "segwise.network:sweep: no element named '%s'", name);
-  if (n->net.el[el].kind == SW_NET_DEV) return luaL_error(L, "segwise.network:sweep: '%s' is a device; sweep a source, gain or resistor", name);
+  size_t el = sw_net_find(&n->net, name);
+  *start = NULL;
+  if (el == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: no element named '%s'", name);
+  if (n->net.el[el].kind == SW_NET_DEV) luaL_error(L, "segwise.network:sweep: '%s' is a device; sweep a source, gain or resistor", name);
   prepare(L, n, "network:sweep");
   if (!lua_isnoneornil(L, 4)) {
     luaL_checktype(L, 4, LUA_TTABLE);
-    start = lua_newuserdatauv(L, (n->net.ndev ? n->net.ndev : 1) * sizeof *start, 0);
-    sw_net_default_start(&n->net, start);
-    fill_start(L, 4, &n->net, start);
+    *start = lua_newuserdatauv(L, (n->net.ndev ? n->net.ndev : 1) * sizeof **start, 0);
+    sw_net_default_start(&n->net, *start);
+    fill_start(L, 4, &n->net, *start);
   }
+  return el;
+}
+
+/* n:sweep(name, values, start, max_states, lowrank) -> list of ops */
+static int l_sweep(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  size_t nv, k, el;
+  double *vals, max_states;
+  int *start = NULL, rc;
+  lsw_hold *h;
+  sw_err err = { 0, "" };
+  lua_settop(L, 6);  /* scratch buffers pushed below must not land in argument slots */
+  vals = lsw_checkdoubles(L, 3, "values", &nv, 0);
+  max_states = luaL_optnumber(L, 5, 1e6);
+  el = sweep_target(L, n, &start);
   h = new_hold(L);
   if (nv) hold_ops(L, h, nv);
-  if (sw_net_sweep(&n->net, el, vals, nv, start, max_states, h->ops, &err)) return lsw_raise(L, "network:sweep", &err);
+  n->net.refactor_always = lua_isboolean(L, 6) && !lua_toboolean(L, 6);
+  rc = sw_net_sweep(&n->net, el, vals, nv, start, max_states, h->ops, &err);
+  n->net.refactor_always = 0;
+  if (rc) return lsw_raise(L, "network:sweep", &err);
   lua_createtable(L, (int)nv, 0);
   for (k = 0; k < nv; k++) {
     push_op(L, &n->net, &h->ops[k]);
     setnum(L, "value", vals[k]);
     lua_rawseti(L, -2, (lua_Integer)k + 1);
   }
+  return 1;
+}
+
+/* The swept values: an array is read in place (a copy of 1e5 values costs
+ * more in fresh-page faults than the sweep itself); a table is copied. */
+static const double *sweep_values(lua_State *L, int idx, size_t *n)
+{
+  lsw_array *a = lsw_toarray(L, idx);
+  size_t k;
+  if (!a || a->freed) return lsw_checkdoubles(L, idx, "values", n, 0);
+  for (k = 0; k < a->n; k++)
+    if (!sw_isfinite(a->data[k])) luaL_error(L, "segwise.network:sweep: values[%d] is not finite (%f)", (int)(k + 1), a->data[k]);
+  *n = a->n;
+  return a->data;
+}
+
+static size_t find_node(const sw_net *net, const char *name)
+{
+  size_t k;
+  if (strcmp(name, "gnd") == 0) return 0;
+  for (k = 0; k < net->nnodes; k++) if (strcmp(net->node[k], name) == 0) return k;
+  return SW_NET_NONE;
+}
+
+/* Parses out[j] = "i.D1", "vd.R", "p.D1", "v.a" or "state.D1". */
+static void parse_quant(lua_State *L, const sw_net *net, int j, const char *s, sw_net_quant *q)
+{
+  static const char *const keys[] = { "i", "vd", "p", "v", "state" };
+  static const sw_net_qkind kinds[] = { SW_NQ_I, SW_NQ_VD, SW_NQ_P, SW_NQ_V, SW_NQ_STATE };
+  const char *dot = strchr(s, '.'), *what;
+  size_t f, len = dot ? (size_t)(dot - s) : 0, idx;
+  for (f = 0; f < 5; f++) if (dot && strlen(keys[f]) == len && strncmp(s, keys[f], len) == 0) break;
+  if (f == 5)
+    luaL_error(L, "segwise.network:sweep: out[%d] = '%s': expected \"i.<element>\", \"vd.<element>\", \"p.<element>\", \"v.<node>\" or \"state.<device>\"", j, s);
+  what = dot + 1;
+  q->kind = kinds[f];
+  if (q->kind == SW_NQ_V) {
+    idx = find_node(net, what);
+    if (idx == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': no node named '%s'", j, s, what);
+  } else {
+    idx = sw_net_find(net, what);
+    if (idx == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': no element named '%s'", j, s, what);
+    if (q->kind == SW_NQ_STATE) {
+      if (net->el[idx].kind != SW_NET_DEV) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': '%s' is not a PWL device", j, s, what);
+      idx = net->el[idx].dev;
+    }
+  }
+  q->idx = idx;
+}
+
+/* n:sweep_arrays(name, values, start, max_states, out, lowrank)
+ * -> {[k] = array, [out[k]] = array, iterations=, lowrank_updates=,
+ *     refactors=, fallbacks=, warnings = {{device=, kind=, indices=}...}} */
+static int l_sweep_arrays(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  size_t nv, el, nq, j, w, m;
+  const double *vals;
+  double max_states;
+  int *start = NULL, rc, res;
+  sw_net_quant *q;
+  size_t *count;
+  lsw_hold *h;
+  sw_err err = { 0, "" };
+  lua_settop(L, 7);
+  vals = sweep_values(L, 3, &nv);
+  max_states = luaL_optnumber(L, 5, 1e6);
+  luaL_checktype(L, 6, LUA_TTABLE);
+  el = sweep_target(L, n, &start);
+  m = n->net.ndev;
+  nq = (size_t)luaL_len(L, 6);
+  if (nq == 0) return luaL_error(L, "segwise.network:sweep: out must list at least one quantity");
+  q = lua_newuserdatauv(L, nq * sizeof *q, 0);
+  lua_createtable(L, (int)nq, (int)nq + 6);
+  res = lua_gettop(L);
+  for (j = 0; j < nq; j++) {
+    lsw_array *a;
+    lua_geti(L, 6, (lua_Integer)j + 1);
+    if (lua_type(L, -1) != LUA_TSTRING) return luaL_error(L, "segwise.network:sweep: out[%d] must be a string (got %s)", (int)j + 1, luaL_typename(L, -1));
+    parse_quant(L, &n->net, (int)j + 1, lua_tostring(L, -1), &q[j]);
+    a = lsw_newarray(L, nv);
+    q[j].out = a->data;
+    lua_pushvalue(L, -1);
+    lua_rawseti(L, res, (lua_Integer)j + 1);
+    lua_rawset(L, res);  /* res[name] = array */
+  }
+  h = new_hold(L);
+  n->net.refactor_always = lua_isboolean(L, 7) && !lua_toboolean(L, 7);
+  rc = sw_net_sweep_arrays(&n->net, el, vals, nv, start, max_states, q, nq, &h->sweep, &err);
+  n->net.refactor_always = 0;
+  if (rc) return lsw_raise(L, "network:sweep", &err);
+  lua_pushinteger(L, (lua_Integer)h->sweep.iterations); lua_setfield(L, res, "iterations");
+  lua_pushinteger(L, (lua_Integer)h->sweep.updates); lua_setfield(L, res, "lowrank_updates");
+  lua_pushinteger(L, (lua_Integer)h->sweep.refactors); lua_setfield(L, res, "refactors");
+  lua_pushinteger(L, (lua_Integer)h->sweep.fallbacks); lua_setfield(L, res, "fallbacks");
+  /* warnings grouped by device and kind, indices 1-based in point order */
+  count = lua_newuserdatauv(L, 2 * (m ? m : 1) * sizeof *count, 0);
+  memset(count, 0, 2 * (m ? m : 1) * sizeof *count);
+  for (w = 0; w < h->sweep.nwarn; w++) count[2 * h->sweep.warn[w].dev + (size_t)h->sweep.warn[w].kind]++;
+  lua_newtable(L);
+  {
+    int list = lua_gettop(L), nl = 0;
+    size_t g;
+    for (g = 0; g < 2 * m; g++) {
+      lsw_array *a;
+      size_t dev = g / 2, pos = 0;
+      if (count[g] == 0) continue;
+      lua_createtable(L, 0, 4);
+      lua_pushstring(L, n->net.el[n->net.dev[dev].el].name); lua_setfield(L, -2, "device");
+      lua_pushstring(L, g % 2 == SW_NW_RANGE ? "range" : "pmax"); lua_setfield(L, -2, "kind");
+      a = lsw_newarray(L, count[g]);
+      for (w = 0; w < h->sweep.nwarn; w++)
+        if (2 * h->sweep.warn[w].dev + (size_t)h->sweep.warn[w].kind == g) a->data[pos++] = (double)h->sweep.warn[w].index + 1;
+      lua_setfield(L, -2, "indices");
+      lua_rawseti(L, list, ++nl);
+    }
+    lua_setfield(L, res, "warnings");
+  }
+  lua_pushvalue(L, res);
   return 1;
 }
 
@@ -528,7 +666,7 @@ static int l_info(lua_State *L)
 
 static const luaL_Reg net_methods[] = {
   { "add", l_add }, { "device", l_device }, { "set", l_set }, { "solve", l_solve },
-  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "montecarlo", l_montecarlo }, { "segments", l_segments },
+  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "sweep_arrays", l_sweep_arrays }, { "montecarlo", l_montecarlo }, { "segments", l_segments },
   { "info", l_info }, { "free", net_release }, { NULL, NULL }
 };
 

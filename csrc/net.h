@@ -76,6 +76,9 @@ typedef struct sw_net {
   double *yp;            /* N: particular solution of L*y = s */
   double *Xv, *Xi;       /* m x m: device port rows of K */
   double *vp, *ip;       /* m: device port values of yp */
+  /* 1: every change of state refactorises the m x m system (no
+   * Sherman-Morrison-Woodbury updates); for measuring the updates */
+  int refactor_always;
 } sw_net;
 
 /* An operating point (all arrays owned). */
@@ -146,12 +149,17 @@ typedef struct sw_net_lr {
   int *base;           /* state of the stored inverse */
   double *Minv;        /* m x m */
   double *work;
-  size_t *idx;
+  double *fac;         /* m x m: LU scratch */
+  size_t *idx, *perm;
   int valid;
+  size_t moves;        /* rebases since the last factorisation */
   size_t updates, refactors;
 } sw_net_lr;
 int sw_net_lr_init(sw_net_lr *lr, size_t m, sw_err *err);
 void sw_net_lr_free(sw_net_lr *lr);
+/* Reduced unknowns z (m) of a state; then v = vp + Xv z, i = ip + Xi z. */
+int sw_net_lr_solve(const sw_net *net, sw_net_lr *lr, const int *state,
+                    double *z, sw_err *err);
 int sw_net_lr_ports(const sw_net *net, sw_net_lr *lr, const int *state,
                     double *v, double *i, sw_err *err);
 
@@ -162,6 +170,15 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
                    int *state, size_t *iterations, sw_net_trace *trace,
                    size_t *updates, sw_err *err);
 void sw_net_trace_free(sw_net_trace *t);
+/* The iteration on caller-owned workspace (no allocation unless a trace is
+ * kept): lr persists between calls, hist holds (max_iter + 1) * m ints,
+ * work 5 * m doubles.  max_iter must not be 0 (see
+ * sw_net_assumed_max_iter).  Without a trace, work + 4m receives the
+ * reduced unknowns z of the accepted state. */
+size_t sw_net_assumed_max_iter(const sw_net *net);
+int sw_net_assumed_run(const sw_net *net, sw_net_lr *lr, int *hist, double *work,
+                       const int *start, size_t max_iter, int *state,
+                       size_t *iterations, sw_net_trace *trace, sw_err *err);
 void sw_net_default_start(const sw_net *net, int *state);
 
 /* All consistent states (deduplicated); *states is m x *count, owned by the
@@ -191,6 +208,38 @@ void sw_net_state_text(const sw_net *net, const int *state, char *buf, size_t ca
 int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
                  const int *start, double max_states, sw_net_op *ops,
                  sw_err *err);
+
+/* Sweeps into arrays: one double per point for each requested quantity,
+ * no allocation per point.  A swept independent source only moves the
+ * particular solution (the reduction is kept); a resistor or gain rebuilds
+ * the reduction per point.  Each point warm-starts from the previous
+ * states. */
+typedef enum {
+  SW_NQ_I = 1,  /* current of element idx */
+  SW_NQ_VD,     /* branch voltage of element idx */
+  SW_NQ_P,      /* absorbed power of element idx */
+  SW_NQ_V,      /* voltage of node idx */
+  SW_NQ_STATE   /* segment label of device idx (1-based as users see it) */
+} sw_net_qkind;
+typedef struct sw_net_quant {
+  sw_net_qkind kind;
+  size_t idx;
+  double *out;  /* n values */
+} sw_net_quant;
+enum { SW_NW_RANGE = 0, SW_NW_PMAX };
+typedef struct sw_net_warn { size_t dev, index; int kind; } sw_net_warn;
+typedef struct sw_net_sweep_info {
+  size_t iterations, updates, refactors, fallbacks;
+  sw_net_warn *warn;  /* nwarn entries in point order (owned; see _free) */
+  size_t nwarn, wcap;
+} sw_net_sweep_info;
+void sw_net_sweep_info_free(sw_net_sweep_info *info);
+int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
+                        const int *start, double max_states,
+                        const sw_net_quant *q, size_t nq,
+                        sw_net_sweep_info *info, sw_err *err);
+/* Current of element k from a full unknown vector y (net_mna.c). */
+double sw_net_el_current(const sw_net *net, const double *y, size_t k);
 
 /* Seeded Monte Carlo over element values (see net_sweep.c). */
 int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,

@@ -70,19 +70,35 @@ static int seen(const int *hist, size_t nh, const int *state, size_t m)
   return 0;
 }
 
-/* Port values of a state: the m x m reduced system, or, when a trace is
- * kept, the full LU solve (its values are the ones an engineer reads). */
+/* Port values of a state: the m x m reduced system (z kept for the
+ * caller), or, when a trace is kept, the full LU solve (its values are the
+ * ones an engineer reads). */
 static int solve_ports(const sw_net *net, sw_net_lr *lr, const int *state, double *v,
-                       double *i, int full, sw_err *err)
+                       double *i, double *z, int full, sw_err *err)
 {
   sw_net_op op;
-  size_t k;
-  if (!full) return sw_net_lr_ports(net, lr, state, v, i, err);
+  size_t k, c, m = net->ndev;
+  if (!full) {
+    if (sw_net_lr_solve(net, lr, state, z, err)) return err->code;
+    for (k = 0; k < m; k++) {
+      double vv = net->vp[k], ii = net->ip[k];
+      for (c = 0; c < m; c++) { vv += net->Xv[k * m + c] * z[c]; ii += net->Xi[k * m + c] * z[c]; }
+      v[k] = vv; i[k] = ii;
+    }
+    return SW_OK;
+  }
   memset(&op, 0, sizeof op);
   if (sw_net_op_from_state(net, state, &op, err)) return err->code;
-  for (k = 0; k < net->ndev; k++) { v[k] = op.v[net->dev[k].el]; i[k] = op.i[net->dev[k].el]; }
+  for (k = 0; k < m; k++) { v[k] = op.v[net->dev[k].el]; i[k] = op.i[net->dev[k].el]; }
   sw_net_op_free(&op);
   return SW_OK;
+}
+
+size_t sw_net_assumed_max_iter(const sw_net *net)
+{
+  size_t k, n = 100;
+  for (k = 0; k < net->ndev; k++) n += net->dev[k].nseg;
+  return n;
 }
 
 int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
@@ -90,20 +106,32 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
                    size_t *updates, sw_err *err)
 {
   sw_net_lr lr;
+  size_t m = net->ndev;
+  double *work;
+  int *hist, rc;
+  *iterations = 0;
+  if (m == 0) return SW_OK;
+  if (max_iter == 0) max_iter = sw_net_assumed_max_iter(net);
+  work = sw_alloc(5 * m, sizeof *work, err);
+  hist = sw_alloc((max_iter + 1) * m, sizeof *hist, err);
+  if (!work || !hist || sw_net_lr_init(&lr, m, err)) { free(work); free(hist); return SW_ENOMEM; }
+  rc = sw_net_assumed_run(net, &lr, hist, work, start, max_iter, state, iterations, trace, err);
+  if (updates) *updates = lr.updates;
+  sw_net_lr_free(&lr);
+  free(work); free(hist);
+  return rc;
+}
+
+int sw_net_assumed_run(const sw_net *net, sw_net_lr *lr, int *hist, double *work,
+                       const int *start, size_t max_iter, int *state,
+                       size_t *iterations, sw_net_trace *trace, sw_err *err)
+{
   size_t m = net->ndev, k, it, nh = 0;
-  double *v, *i, *x, *ex;
-  int *hist = NULL, stepping = 0, rc = SW_OK;
+  double *v = work, *i = v + m, *x = i + m, *ex = x + m, *z = ex + m;
+  int stepping = 0, rc = SW_OK;
   char text[200];
   *iterations = 0;
   if (m == 0) return SW_OK;
-  if (max_iter == 0) {
-    max_iter = 100;
-    for (k = 0; k < m; k++) max_iter += net->dev[k].nseg;
-  }
-  v = sw_alloc(4 * m, sizeof *v, err);
-  hist = sw_alloc((max_iter + 1) * m, sizeof *hist, err);
-  if (!v || !hist || sw_net_lr_init(&lr, m, err)) { free(v); free(hist); return SW_ENOMEM; }
-  i = v + m; x = i + m; ex = x + m;
   if (start) { if (start != state) memcpy(state, start, m * sizeof *state); }
   else sw_net_default_start(net, state);
   memcpy(hist, state, m * sizeof *state); nh = 1;
@@ -112,7 +140,7 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
     size_t worst = 0;
     double worst_rel = -1;
     *iterations = it;
-    if ((rc = solve_ports(net, &lr, state, v, i, trace != NULL, err))) {
+    if ((rc = solve_ports(net, lr, state, v, i, z, trace != NULL, err))) {
       if (rc == SW_ENOMEM) break; /* out of memory is not a singular state */
       sw_net_state_text(net, state, text, sizeof text);
       if (trace) {
@@ -169,9 +197,6 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
       rc = sw_err_set(err, SW_ENOSOL, "assumed state: no consistent state after %zu attempts (last tried %s); try method = \"enumerate\" or \"lcp\"", it, text);
     }
   }
-  if (updates) *updates = lr.updates;
-  sw_net_lr_free(&lr);
-  free(v); free(hist);
   return rc;
 }
 

@@ -250,6 +250,11 @@ static double el_current(const sw_net *net, const double *y, size_t k)
   }
 }
 
+double sw_net_el_current(const sw_net *net, const double *y, size_t k)
+{
+  return el_current(net, y, k);
+}
+
 /* Fills op from a full unknown vector y. */
 int sw_net_op_from_y(const sw_net *net, const double *y, const int *state, sw_net_op *op, sw_err *err)
 {

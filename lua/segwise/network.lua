@@ -199,8 +199,11 @@ return function(sw, core)
     return op
   end
 
+  -- lowrank = false: the assumed-state method refactorises its m x m system
+  -- at every change of state instead of a Sherman-Morrison-Woodbury update
+  -- (same answers; for measuring what the updates save).
   local SOLVE_OPTS = { method = { "auto", "assumed", "enumerate", "lcp" }, start = "table", trace = "boolean",
-                       exact = "boolean", max_states = "number", max_iter = "number" }
+                       exact = "boolean", max_states = "number", max_iter = "number", lowrank = "boolean" }
 
   function Network:solve(opts)
     opts = check_opts("network:solve", opts, SOLVE_OPTS)
@@ -209,7 +212,7 @@ return function(sw, core)
     if opts.trace and method ~= "assumed" then
       error("segwise.network:solve: trace = true records the assumed-state method; use method = \"assumed\"", 2)
     end
-    local ok, op, info = pcall(self._c.solve, self._c, method, opts.start, opts.trace, opts.max_states, opts.exact, opts.max_iter)
+    local ok, op, info = pcall(self._c.solve, self._c, method, opts.start, opts.trace, opts.max_states, opts.exact, opts.max_iter, opts.lowrank)
     if not ok then
       if type(op) == "table" then
         error(op.error .. "\nwhat was tried:\n" .. tostring(trace_text(self, op)), 2)
@@ -232,10 +235,41 @@ return function(sw, core)
     return list
   end
 
+  -- Warnings of an array sweep: one per device and kind, naming the points.
+  local function sweep_warnings(self, res, values, name)
+    local elements = {}
+    for _, e in ipairs(self:info().elements) do elements[e.name] = e end
+    local mt = { __tostring = function(w) return w.message end }
+    for _, w in ipairs(res.warnings) do
+      local e, idx = elements[w.device], w.indices
+      local n, first, last = #idx, math.tointeger(idx[1]), math.tointeger(idx[#idx])
+      local where = ("at %d of %d points (indices %d..%d; first at %s = %s)"):format(n, #values, first, last, name, fmt(values[first]))
+      w.count = n
+      if w.kind == "range" then
+        w.message = ("%s operates outside its model's knots [%s, %s] %s: the model is extrapolated there, so refit over a range that covers these points"):format(
+          w.device, fmt(e.lo), fmt(e.hi), where)
+      else
+        w.message = ("%s dissipates more than its pmax rating of %s W %s: a device driven beyond its rating leaves the range its model describes, so these points cannot be trusted"):format(
+          w.device, fmt(e.pmax), where)
+      end
+      setmetatable(w, mt)
+    end
+  end
+
+  -- Without opts.out: one operating point (a table) per value.  With
+  -- opts.out = {"i.D1", "vd.D1", "p.D1", "v.a", "state.D1", ...}: one
+  -- sw.array per quantity, filled by a C loop that allocates nothing per
+  -- point (see the sweep notes in docs/API.md and csrc/net_sweep.c).
   function Network:sweep(name, values, opts)
     name = name_arg("network:sweep", "name", name)
-    opts = check_opts("network:sweep", opts, { start = "table", max_states = "number" })
-    local rows = call("network:sweep", self._c.sweep, self._c, name, values, opts.start, opts.max_states)
+    opts = check_opts("network:sweep", opts, { start = "table", max_states = "number", out = "table", lowrank = "boolean" })
+    if opts.out then
+      local res = call("network:sweep", self._c.sweep_arrays, self._c, name, values, opts.start, opts.max_states, opts.out, opts.lowrank)
+      res.n = res[1] and #res[1] or 0
+      sweep_warnings(self, res, values, name)
+      return res
+    end
+    local rows = call("network:sweep", self._c.sweep, self._c, name, values, opts.start, opts.max_states, opts.lowrank)
     local elements = self:info().elements
     for k, op in ipairs(rows) do rows[k] = finish_op(self, op, { method = "sweep" }, elements) end
     return rows
