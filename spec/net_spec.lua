@@ -350,6 +350,234 @@ describe("segwise.network", function()
     end)
   end)
 
+  describe("sweep into arrays", function()
+    -- Every quantity of an array sweep against the row sweep, point by
+    -- point: |a - b| <= rel * max(|b|, largest |b| of the sweep), rel =
+    -- 1e-12 unless told (the array path solves through the port reduction,
+    -- the rows through a full LU solve with one refinement step, so values
+    -- near zero differ by rounding of the sweep's own scale).
+    local function same_as_rows(net, name, values, out, opts)
+      local rel = opts and opts.rel or 1e-12
+      local rows = net:sweep(name, values, { start = opts and opts.start })
+      local o = { out = out, start = opts and opts.start, lowrank = opts and opts.lowrank }
+      local res = net:sweep(name, values, o)
+      local n = #values
+      assert.are.equal(n, res.n)
+      for j, q in ipairs(out) do
+        local kind, what = q:match("^(%a+)%.(.+)$")
+        local arr = res[q]
+        assert.are.equal(arr, res[j])
+        assert.are.equal(n, #arr)
+        local scale = 0
+        for k = 1, n do scale = math.max(scale, math.abs(rows[k][kind][what])) end
+        for k = 1, n do
+          local b = rows[k][kind][what]
+          if kind == "state" then assert.are.equal(b, arr[k])
+          else assert.is.near(b, arr[k], rel * math.max(math.abs(b), scale) + 1e-300) end
+        end
+      end
+      return res, rows
+    end
+
+    -- An operating point rebuilt from the arrays at index k, for the
+    -- Kirchhoff checks of net_helpers.
+    local function op_at(net, res, k)
+      local op = { v = {}, i = {}, vd = {}, p = {}, state = {} }
+      for q, arr in pairs(res) do
+        if type(q) == "string" and q:find("%.") then
+          local kind, what = q:match("^(%a+)%.(.+)$")
+          op[kind][what] = arr[k]
+        end
+      end
+      return op
+    end
+
+    local function all_out(net)
+      local info, out = net:info(), {}
+      for _, n in ipairs(info.nodes) do out[#out + 1] = "v." .. n end
+      for _, e in ipairs(info.elements) do
+        out[#out + 1] = "i." .. e.name
+        out[#out + 1] = "vd." .. e.name
+        out[#out + 1] = "p." .. e.name
+        if e.kind == "element" then out[#out + 1] = "state." .. e.name end
+      end
+      return out
+    end
+
+    it("equals the row sweep on one device across its knee, from a table or an array", function()
+      local net = one_device(0, 1000)
+      local values = {}
+      for k = 1, 201 do values[k] = -1 + 0.05 * (k - 1) end -- -1 .. 9 V, knee at 0.6 V
+      local out = all_out(net)
+      local res = same_as_rows(net, "E", values, out)
+      same_as_rows(net, "E", sw.array(values), out)
+      for k, e in ipairs(values) do
+        -- hand algebra: off (i = 0) while e <= 0.6, else v = (e + 60)/101
+        local v = e <= 0.6 and e or (e + 60) / 101
+        assert.is.near(v, res["vd.D1"][k], 1e-12)
+        if math.abs(e - 0.6) > 1e-9 then assert.are.equal(e < 0.6 and 1 or 2, res["state.D1"][k]) end
+      end
+      -- (conducting points: at rest the currents are rounding noise of the
+      -- sweep's scale, which a relative KCL check cannot judge)
+      for _, k in ipairs { 40, 50, 120, 201 } do
+        net:set("E", values[k])
+        H.check_kirchhoff(net, op_at(net, res, k))
+      end
+      net:set("E", 0)
+      -- the swept source is restored; only the knee crossing needed a second attempt
+      assert.is.near(0, net:solve().vd.D1, 1e-15)
+      assert.are.equal(#values + 1, res.iterations)
+      -- below 0 V the device runs beyond its first knot: those points, and only those, warn
+      assert.are.equal(1, #res.warnings)
+      local below = {}
+      for k, e in ipairs(values) do if e < -1e-9 then below[#below + 1] = k end end
+      assert.are.same(below, res.warnings[1].indices:totable())
+    end)
+
+    it("equals the row sweep on several devices changing state, with and without low-rank updates", function()
+      -- a ladder: E -> R1 -> n1 -> R2 -> n2 ..., a three-segment device from
+      -- every node to ground; raising E turns the devices on one by one
+      local net = sw.network()
+      net:vsource("E", "n0", "0", 0)
+      for j = 1, 6 do
+        net:resistor("R" .. j, "n" .. (j - 1), "n" .. j, 200)
+        net:element("D" .. j, "n" .. j, "0", sw.pwl { x = { 0, 0.5, 0.7, 0.9 }, y = { 0, 1e-4, 2e-3, 1e-2 } })
+      end
+      local values = {}
+      for k = 1, 150 do values[k] = 0.1 * k end
+      local out = all_out(net)
+      -- rel 5e-12: the reduction's QR basis loses a few more digits on this
+      -- ladder (measured ~3e-12 against the refined full LU of the rows)
+      local res = same_as_rows(net, "E", values, out, { rel = 5e-12 })
+      local plain = same_as_rows(net, "E", values, out, { lowrank = false, rel = 5e-12 })
+      assert.is_true(res.lowrank_updates >= 1)
+      assert.are.equal(0, plain.lowrank_updates)
+      assert.is_true(plain.refactors > res.refactors)
+      -- the states do change along the sweep
+      assert.are.equal(1, res["state.D6"][1])
+      assert.is_true(res["state.D1"][150] >= 3)
+      for _, k in ipairs { 1, 40, 90, 150 } do
+        net:set("E", values[k])
+        H.check_kirchhoff(net, op_at(net, res, k))
+      end
+      net:set("E", 0)
+    end)
+
+    it("rebuilds the reduction per point when a resistor is swept", function()
+      local net = one_device(5, 1000)
+      local res = same_as_rows(net, "R", { 10, 100, 1000, 4400, 1e4, 1e5 }, { "i.D1", "vd.D1", "state.D1", "v.in" })
+      -- i = (5 - 0.6) / (R + 10): on at every R since E > 0.6 V (hand algebra)
+      for k, r in ipairs { 10, 100, 1000, 4400, 1e4, 1e5 } do
+        -- (1e-15 A: the segment line i = 0.1 v - 0.06 cancels near the knee)
+        assert.is.near(4.4 / (r + 10), res["i.D1"][k], 1e-15)
+        assert.are.equal(2, res["state.D1"][k])
+      end
+      assert.is.near(1000, net:info().elements[2].value, 0) -- restored
+    end)
+
+    it("warm-starts: hysteresis on a bistable circuit as in the row sweep", function()
+      local net = sw.network()
+      net:vsource("E", "in", "0", 0)
+      net:resistor("R", "in", "a", 50)
+      net:element("D1", "a", "0", sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } })
+      local up, down = {}, {}
+      for k = 0, 10 do up[#up + 1] = 0.1 * k end
+      for k = 10, 0, -1 do down[#down + 1] = 0.1 * k end
+      local ru = same_as_rows(net, "E", up, { "state.D1", "vd.D1" })
+      local rd = same_as_rows(net, "E", down, { "state.D1", "vd.D1" })
+      -- at E = 0.5 V: crossings at E/6 and (E + 1.25)/5.5 (hand algebra); up stays low, down high
+      assert.are.equal(1, ru["state.D1"][6])
+      assert.are.equal(3, rd["state.D1"][6])
+      assert.is.near(0.5 / 6, ru["vd.D1"][6], 1e-14)
+      assert.is.near(1.75 / 5.5, rd["vd.D1"][6], 1e-14)
+      -- a start state picks the branch of the first point
+      local hi = same_as_rows(net, "E", { 0.5 }, { "state.D1" }, { start = { D1 = 3 } })
+      assert.are.equal(3, hi["state.D1"][1])
+    end)
+
+    it("names the value and its index when no state is consistent", function()
+      -- 1 A forced into a device that carries at most 1 mA: no solution (hand algebra)
+      local net = sw.network():isource("I", "0", "a", 0)
+      net:element("D", "a", "0", sw.pwl { x = { 0, 1, 2 }, y = { 0, 1e-3, 1e-3 } })
+      local ok, err = pcall(net.sweep, net, "I", { 0, 5e-4, 1, 0 }, { out = { "vd.D" } })
+      assert.is_false(ok)
+      assert.truthy(err:find("^segwise%.network:sweep: at I = 1 %(value 3%)"), err)
+      ok, err = pcall(net.sweep, net, "I", { 0, 5e-4, 1, 0 })
+      assert.is_false(ok)
+      assert.truthy(err:find("at I = 1 %(value 3%)"), err)
+    end)
+
+    it("rejects unknown quantities, elements and nodes by name", function()
+      local net = one_device(5, 1000)
+      local function msg(out)
+        local ok, err = pcall(net.sweep, net, "E", { 1, 2 }, { out = out })
+        assert.is_false(ok)
+        return err
+      end
+      assert.truthy(msg { "i.D1", "i.DX" }:find("out%[2%] = 'i.DX': no element named 'DX'"))
+      assert.truthy(msg { "v.zz" }:find("out%[1%] = 'v.zz': no node named 'zz'"))
+      assert.truthy(msg { "q.D1" }:find("out%[1%] = 'q.D1': expected"))
+      assert.truthy(msg { "state.R" }:find("'R' is not a PWL device"))
+      assert.truthy(msg { 3 }:find("out%[1%] must be a string"))
+      assert.truthy(msg {}:find("at least one quantity"))
+      local ok, err = pcall(net.sweep, net, "E", { 1, 0 / 0 }, { out = { "i.D1" } })
+      assert.is_false(ok)
+      assert.truthy(err:find("values%[2%]"))
+    end)
+
+    it("lists warnings with the indices of the points beyond the knots or above pmax", function()
+      local net = one_device(0, 1000, knee(), { pmax = 1e-3 })
+      local values = { 0, 1, 2, 5, 10, 30, 50 }
+      local res, rows = same_as_rows(net, "E", values, { "i.D1", "vd.D1", "p.D1" })
+      local by = {}
+      for _, w in ipairs(res.warnings) do by[w.kind] = w end
+      -- independently: p = v i above 1 mW, v beyond the last knot 0.8 V
+      local want = { pmax = {}, range = {} }
+      for k = 1, #values do
+        local v, i = res["vd.D1"][k], res["i.D1"][k]
+        if v * i > 1e-3 then want.pmax[#want.pmax + 1] = k end
+        if v > 0.8 then want.range[#want.range + 1] = k end
+      end
+      assert.is_true(#want.pmax >= 2 and #want.range >= 1)
+      for kind, list in pairs(want) do
+        assert.are.equal("D1", by[kind].device)
+        assert.are.same(list, by[kind].indices:totable())
+        assert.are.equal(#list, by[kind].count)
+        -- the row sweep warns at exactly these points
+        local key, set = kind == "pmax" and "pmax rating" or "outside its model's knots", {}
+        for _, q in ipairs(list) do set[q] = true end
+        for k = 1, #values do
+          local warned = false
+          for _, s in ipairs(rows[k].warnings) do if s:find(key, 1, true) then warned = true end end
+          assert.are.equal(set[k] == true, warned)
+        end
+      end
+      assert.truthy(tostring(by.pmax):find("D1 dissipates more than its pmax rating of 0.001 W at " .. #want.pmax .. " of 7 points"))
+      assert.truthy(tostring(by.range):find("outside its model's knots %[0, 0.8%]"))
+    end)
+
+    it("core sweep with three arguments does not read its buffer as the start table", function()
+      local net = one_device(5, 1000)
+      local rows = net._c:sweep("E", { 1, 2 })
+      assert.are.equal(2, #rows)
+      assert.is.near((2 - 0.6) / 1010, rows[2].i.D1, 1e-15) -- hand algebra
+    end)
+
+    it("solve with lowrank = false refactorises instead and lands on the same point", function()
+      local net = sw.network()
+      net:vsource("E", "n0", "0", 6)
+      for j = 1, 8 do
+        net:resistor("R" .. j, "n" .. (j - 1), "n" .. j, 200)
+        net:element("D" .. j, "n" .. j, "0", sw.pwl { x = { 0, 0.5, 0.7, 0.9 }, y = { 0, 1e-4, 2e-3, 1e-2 } })
+      end
+      local a = net:solve { method = "assumed" }
+      local b = net:solve { method = "assumed", lowrank = false }
+      assert.are.equal(0, b.lowrank_updates)
+      for j = 1, 8 do assert.is.near(a.vd["D" .. j], b.vd["D" .. j], 1e-12) end
+      H.check_kirchhoff(net, b)
+    end)
+  end)
+
   describe("corners", function()
     it("solves every corner and reports min and max", function()
       local net = one_device(5, 1000)
