@@ -11,7 +11,7 @@
 #define COMPARE_GRID 2001
 #define TOL_RETRIES 8
 #define TOL_POINTS_PER_SEG 64
-#define POLISH_RTOL 1e-4 /* the polish only centres the lines: a coarse level will do */
+#define POLISH_RTOL 1e-2 /* the polish only centres the lines: a coarse level will do */
 #define TOL_MAX_GRID 2000001
 
 void sw_fit_opts_init(sw_fit_opts *o)
@@ -154,7 +154,7 @@ static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err 
     d->x[k] = o->lo;
     d->w[k++] = 0;
     for (i = 0; i < c->n; i++)
-      if (c->x[i] > o->lo && c->x[i] < o->hi) { d->x[k] = c->x[i]; d->w[k++] = 1; }
+      if (c->x[i] > o->lo && c->x[i] < o->hi) { d->x[k] = c->x[i]; d->y[k] = c->y[i]; d->w[k++] = 1; }
       else if (c->x[i] == o->lo) d->w[0] = 1;
       else if (c->x[i] == o->hi) d->w[n - 1] = 1;
     d->x[k++] = o->hi;
@@ -163,7 +163,9 @@ static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err 
       d->w[i] = 0.5 * ((i + 1 < n ? d->x[i + 1] : d->x[i]) - (i > 0 ? d->x[i - 1] : d->x[i]));
   }
   for (i = 0; i < n; i++) {
-    if ((st = sw_curve_eval(c, d->x[i], &d->y[i], err))) goto fail;
+    /* a sample's own value is taken as it is (x is unique and sorted) */
+    int own = c->kind == SW_CURVE_SAMPLES && i > 0 && i + 1 < n;
+    if (!own && (st = sw_curve_eval(c, d->x[i], &d->y[i], err))) goto fail;
     if (!sw_isfinite(d->y[i])) {
       st = sw_err_set(err, SW_ENUMERIC, "the curve is not finite at x = %g", d->x[i]);
       goto fail;
@@ -260,6 +262,8 @@ typedef struct fit_job {
   fit_cons k;
   size_t iters;
   double internal;
+  sw_compare cmp;   /* the last recheck, and 1 when it is of the model returned */
+  int have_cmp;
 } fit_job;
 
 /* Closed form of the best line to a convex or concave law on [lo, hi]: the
@@ -502,10 +506,10 @@ done:
 /* Error of m in the fit's measure, rechecked against the curve. */
 static int measure(fit_job *J, const sw_pwl *m, double *e, sw_err *err)
 {
-  sw_compare cmp;
-  int st = fit_recheck(m, J->c, J->o->lo, J->o->hi, COMPARE_GRID, J->o->rel_floor, &cmp, err);
+  int st = fit_recheck(m, J->c, J->o->lo, J->o->hi, COMPARE_GRID, J->o->rel_floor, &J->cmp, err);
+  J->have_cmp = 0;
   if (st) return st;
-  *e = J->o->rel ? cmp.max_rel : cmp.max_abs;
+  *e = J->o->rel ? J->cmp.max_rel : J->cmp.max_abs;
   if (!(*e == *e)) *e = INFINITY;
   return SW_OK;
 }
@@ -542,7 +546,7 @@ static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
     J->internal = fit_data_maxerr(&J->d, out);
     J->iters++;
     if ((st = measure(J, out, &e, err))) { sw_pwl_free(out); return st; }
-    if (e <= tol * (1 + 1e-9)) return SW_OK;
+    if (e <= tol * (1 + 1e-9)) { J->have_cmp = 1; return SW_OK; } /* the report reuses it */
     if (J->d.analytic && tries < TOL_RETRIES / 2) {
       /* the grid missed a peak: add the curve's true error peaks as
        * samples and redo at the same level (keeps the count optimal) */
@@ -680,7 +684,8 @@ int sw_fit(const sw_curve *c, const sw_fit_opts *o, sw_pwl *out, sw_fit_info *in
   else if (o->tol > 0) st = fit_tol(&J, out, err);
   else st = fit_count(&J, o->knots == SW_KNOTS_LIST ? o->nknot_list - 1 : o->segments, out, err);
   if (st) goto done;
-  if ((st = fit_recheck(out, c, o->lo, o->hi, COMPARE_GRID, o->rel_floor, &cmp, err))) goto done;
+  if (J.have_cmp) cmp = J.cmp;
+  else if ((st = fit_recheck(out, c, o->lo, o->hi, COMPARE_GRID, o->rel_floor, &cmp, err))) goto done;
   info->max_abs = cmp.max_abs;
   info->x_abs = cmp.x_abs;
   info->max_rel = cmp.rel_undefined ? NAN : cmp.max_rel;
@@ -704,12 +709,22 @@ int sw_fit_segment_errors(const sw_pwl *m, const sw_curve *c, double rel_floor, 
     x_abs[k] = a;
     max_rel[k] = 0;
     if (c->kind == SW_CURVE_SAMPLES) {
-      /* the segment's line against the samples inside and the curve at its ends */
+      /* the segment's line against the samples inside and the curve at its
+       * ends; the samples inside found by bisection (x is sorted) */
+      size_t first = 0, hi_i = c->n;
+      while (first < hi_i) {
+        size_t mid = first + (hi_i - first) / 2;
+        if (c->x[mid] <= a) first = mid + 1; else hi_i = mid;
+      }
       for (i = 0; i <= c->n + 1; i++) {
-        double x = i == 0 ? a : i == c->n + 1 ? b : c->x[i - 1], y, v, r;
+        double x, y, v, r;
         int st;
-        if (i > 0 && i <= c->n && (x <= a || x >= b)) continue;
-        if ((st = sw_curve_eval(c, x, &y, err))) return st;
+        if (i == 1 && first > 0) i = first + 1; /* skip to the first sample past a */
+        x = i == 0 ? a : i == c->n + 1 ? b : c->x[i - 1];
+        if (i > 0 && i <= c->n && x >= b) { i = c->n; continue; }
+        if (i > 0 && i <= c->n && x <= a) continue;
+        if (i == 0 || i == c->n + 1) { if ((st = sw_curve_eval(c, x, &y, err))) return st; }
+        else y = c->y[i - 1];
         v = fabs(sw_pwl_line(m, k, x) - y);
         if (v > max_abs[k]) { max_abs[k] = v; x_abs[k] = x; }
         if (rel_floor > 0 || y != 0) {

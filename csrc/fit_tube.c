@@ -314,6 +314,29 @@ static int unconstrained(const fit_data *d, const fit_cons *k)
   return 1;
 }
 
+/* Continuous models on data that is not convex: the discontinuous greedy
+ * count is a lower bound (a continuous model with knots on samples is
+ * also a model whose segments share their end samples, for which the
+ * greedy is optimal) and the continuous greedy's count an upper one.  When
+ * they agree, or the bound already exceeds maxseg, the count is settled
+ * without the reachable-set search: returns 1 with *m (SIZE_MAX: no model
+ * at all) and R (when given) holding the continuous greedy's segments. */
+static int greedy_settles(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
+                          tube_ws *w, rec_list *R, size_t *m, int *st, sw_err *err)
+{
+  size_t md, mg;
+  *st = SW_OK;
+  if (k && k->has_last) return 0;
+  md = greedy(d, e, 0, k, maxseg, w, NULL, st, err);
+  if (*st) return 1;
+  if (md == SIZE_MAX || md > maxseg) { *m = md; return 1; }
+  mg = greedy(d, e, 1, k, maxseg, w, R, st, err);
+  if (*st) return 1;
+  if (mg != md) return 0;
+  *m = mg;
+  return 1;
+}
+
 /* Knots of a continuous greedy pass at level e (end slope ignored), used as
  * extra candidates of the reachable-set search; *xs owned by the caller. */
 static int greedy_candidates(const fit_data *d, double e, const fit_cons *k, tube_ws *w,
@@ -374,11 +397,24 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
   fit_data r;
   fit_cons kr;
   if (continuous && (!convex_data(d) || (k && k->has_last))) {
-    double *kx = sw_alloc(d->n + 1, sizeof *kx, err), *ky = sw_alloc(d->n + 1, sizeof *ky, err);
-    size_t m;
+    double *kx, *ky;
+    size_t m = 0;
     tube_ws w;
-    st = (!kx || !ky) ? SW_ENOMEM : fit_tube_init(&w, d->n, err);
-    if (!st) st = reach_with_greedy(d, e, k, d->n, &w, &m, kx, ky, err);
+    rec_list R;
+    memset(&R, 0, sizeof R);
+    if ((st = fit_tube_init(&w, d->n, err))) { fit_tube_clear(&w); return st; }
+    if (greedy_settles(d, e, k, d->n, &w, &R, &m, &st, err) && (st || m != SIZE_MAX)) {
+      if (!st) st = build_model(d, &R, 1, out, err);
+      recs_free(&R);
+      fit_tube_clear(&w);
+      return st;
+    }
+    recs_free(&R);
+    kx = sw_alloc(d->n + 1, sizeof *kx, err);
+    ky = sw_alloc(d->n + 1, sizeof *ky, err);
+    st = (!kx || !ky) ? SW_ENOMEM : SW_OK;
+    if (!st && m == SIZE_MAX) st = SW_OK; /* even the relaxation failed: straight to the fallbacks */
+    else if (!st) st = reach_with_greedy(d, e, k, d->n, &w, &m, kx, ky, err);
     fit_tube_clear(&w);
     if (!st && m != SIZE_MAX) st = knots_model(kx, ky, m, out, err);
     free(kx);
@@ -413,6 +449,16 @@ static int count_at(const fit_data *d, double e, int continuous, const fit_cons 
 {
   int st = SW_OK;
   if (continuous && (!convex_data(d) || (k && k->has_last))) {
+    if (greedy_settles(d, e, k, maxseg, w, kx ? R : NULL, m, &st, err)) {
+      if (st) return st;
+      if (*m == SIZE_MAX) *m = maxseg + 1;
+      else if (kx && *m <= maxseg) {
+        size_t j;
+        for (j = 0; j < R->n; j++) kx[j] = d->x[R->r[j].p];
+        kx[R->n] = d->x[R->r[R->n - 1].q];
+      }
+      return SW_OK;
+    }
     st = reach_with_greedy(d, e, k, maxseg, w, m, kx, ky, err);
     if (*m == SIZE_MAX) *m = maxseg + 1;
     return st;
@@ -590,7 +636,8 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
                         const fit_cons *kp, tube_ws *w, rec_list *R, double e_start, double rtol,
                         double *e_out, size_t *iters, sw_err *err)
 {
-  double elo = 0, ehi = e_start > 0 ? e_start : fit_start_level(d);
+  /* from a known level, look only below it by half: a coarse polish */
+  double elo = e_start > 0 ? 0.5 * e_start : 0, ehi = e_start > 0 ? e_start : fit_start_level(d);
   int feas, st, tries;
   size_t it;
   for (tries = 0; tries < 200; tries++) {
