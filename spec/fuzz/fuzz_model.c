@@ -50,7 +50,12 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     /* what loads must save and load back to the same numbers and units */
     if (sw_pwl_save(&m, again, xu, yu, &err) != SW_OK) abort();
     if (sw_pwl_load_units(&back, again, xu2, yu2, &err) != SW_OK) abort();
-    if (back.nseg != m.nseg || back.extend != m.extend || strcmp(xu, xu2) || strcmp(yu, yu2)) abort();
+    if (back.nseg != m.nseg || back.extend != m.extend || strcmp(xu, xu2) || strcmp(yu, yu2)) {
+      if (getenv("FUZZ_SHOW")) /* describe the mismatch when replaying one input */
+        fprintf(stderr, "nseg %zu/%zu extend %d/%d xunit [%s]/[%s] yunit [%s]/[%s]\n", m.nseg, back.nseg,
+                (int)m.extend, (int)back.extend, xu, xu2, yu, yu2);
+      abort();
+    }
     for (k = 0; k <= m.nseg; k++)
       if (back.x[k] != m.x[k]) abort();
     for (k = 0; k < m.nseg; k++)
