@@ -460,8 +460,12 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
     if (n > 1) {
       st = knots_for(J, n, K, err);
       if (!st) st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err);
-      if (!st) st = fit_minimax_fixed(&J->d, K, n, o->continuous, &J->k, &alt, &e_alt, &J->iters, err);
-      if (!st) {
+      /* only a level below the optimal knots' one matters: capped there */
+      if (!st) st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->k, 0, J->internal, 1e-11,
+                                           1, &alt, &e_alt, &J->iters, err);
+      if (!st && e_alt == INFINITY) {
+        /* the curvature knots cannot reach that level: nothing to compare */
+      } else if (!st) {
         if (e_alt < J->internal) { sw_pwl_free(out); *out = alt; J->internal = e_alt; }
         else sw_pwl_free(&alt);
       } else if (absorbable(st)) {
@@ -528,8 +532,8 @@ static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
         sw_pwl p;
         double ep;
         memset(&p, 0, sizeof p);
-        st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, o->continuous, &J->k, e_int,
-                                    POLISH_RTOL, &p, &ep, &J->iters, err);
+        st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, o->continuous, &J->k, 0.5 * e_int,
+                                    e_int, POLISH_RTOL, 0, &p, &ep, &J->iters, err);
         if (!st) {
           if (ep <= e_int) { sw_pwl_free(out); *out = p; }
           else sw_pwl_free(&p);

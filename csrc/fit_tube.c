@@ -475,19 +475,22 @@ static int count_at(const fit_data *d, double e, int continuous, const fit_cons 
 /* Smallest e whose greedy count is at most nseg, by bisection; the knots of
  * that greedy pass (split to exactly nseg) in knots[0..nseg]. */
 static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
-                       double *knots, size_t *iters, sw_err *err)
+                       double *knots, double *e_lo, double *e_hi, size_t *iters, sw_err *err)
 {
   tube_ws w;
   rec_list R;
-  double elo = 0, ehi = fit_start_level(d), *kx = NULL, *ky = NULL;
+  double elo = 0, ehi = fit_start_level(d), *kx = NULL, *ky = NULL, lower;
   size_t m, it, j, *idx = NULL;
-  int st, tries;
+  int st, tries, reach;
   memset(&R, 0, sizeof R);
+  memset(&w, 0, sizeof w);
   kx = sw_alloc(d->n + 1, sizeof *kx, err);
   ky = sw_alloc(d->n + 1, sizeof *ky, err);
   if (!kx || !ky) { st = SW_ENOMEM; goto done; }
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
-  if (continuous && (!convex_data(d) || (k && k->has_last))) {
+  reach = continuous && (!convex_data(d) || (k && k->has_last));
+  lower = 0;
+  if (reach) {
     /* reachable sets cost more than a greedy pass: bracket their optimum
      * between the discontinuous optimum (a continuous model is also a
      * discontinuous one) and the continuous greedy's level, then bisect
@@ -501,6 +504,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
     }
     *iters += it;
     ehi = elo;
+    lower = elo; /* the discontinuous bound holds for every continuous model */
     if (use_greedy) {
       for (tries = 0; tries < 200; tries++) {
         m = greedy(d, eg, 1, k, nseg, &w, NULL, &st, err);
@@ -546,6 +550,8 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
                     "be met with %zu segments", nseg);
     goto done;
   }
+  *e_lo = reach ? lower : elo; /* the greedy counts are exact: elo is infeasible for any knots */
+  *e_hi = ehi;
   *iters += it;
   if ((st = count_at(d, ehi, continuous, k, nseg, &w, &R, kx, ky, &m, err))) goto done;
   if (m > nseg) { st = sw_err_set(err, SW_ENUMERIC, "segment count search did not settle"); goto done; }
@@ -579,7 +585,7 @@ done:
 int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
                       sw_pwl *out, double *e_out, size_t *iters, sw_err *err)
 {
-  double *knots = sw_alloc(nseg + 1, sizeof(double), err);
+  double *knots = sw_alloc(nseg + 1, sizeof(double), err), elo = 0, ehi = 0;
   int st, rev;
   if (!knots) return SW_ENOMEM;
   rev = 0;
@@ -590,7 +596,7 @@ int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_
     size_t j;
     if ((st = reverse_data(d, &r, err))) goto done;
     reversed_cons(k, &kr);
-    st = count_knots(&r, nseg, continuous, &kr, knots, iters, err);
+    st = count_knots(&r, nseg, continuous, &kr, knots, &elo, &ehi, iters, err);
     fit_data_free(&r);
     if (st) goto done;
     for (j = 0; j <= nseg / 2; j++) {
@@ -598,10 +604,13 @@ int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_
       knots[j] = -knots[nseg - j];
       knots[nseg - j] = t;
     }
-  } else if ((st = count_knots(d, nseg, continuous, k, knots, iters, err))) {
+  } else if ((st = count_knots(d, nseg, continuous, k, knots, &elo, &ehi, iters, err))) {
     goto done;
   }
-  st = fit_minimax_fixed(d, knots, nseg, continuous, k, out, e_out, iters, err);
+  /* the exact minimax on these knots lies between the count search's
+   * bounds: a short bisection to full precision */
+  st = fit_minimax_fixed_from(d, knots, nseg, continuous, k, elo, ehi, 1e-11, 0, out, e_out, iters,
+                              err);
 done:
   free(knots);
   return st;
@@ -631,18 +640,20 @@ static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi
   return SW_OK;
 }
 
-/* Bisection on the level of one chain (all segments, or one of them). */
+/* Bisection on the level of one chain (all segments, or one of them) in
+ * [e_lo, e_hi] (e_hi <= 0: from 0 and a level every constant line meets);
+ * e_hi infeasible doubles it, or when capped gives *e_out = INFINITY. */
 static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, size_t nseg,
-                        const fit_cons *kp, tube_ws *w, rec_list *R, double e_start, double rtol,
-                        double *e_out, size_t *iters, sw_err *err)
+                        const fit_cons *kp, tube_ws *w, rec_list *R, double e_lo, double e_hi,
+                        double rtol, int capped, double *e_out, size_t *iters, sw_err *err)
 {
-  /* from a known level, look only below it by half: a coarse polish */
-  double elo = e_start > 0 ? 0.5 * e_start : 0, ehi = e_start > 0 ? e_start : fit_start_level(d);
+  double elo = e_hi > 0 ? e_lo : 0, ehi = e_hi > 0 ? e_hi : fit_start_level(d);
   int feas, st, tries;
   size_t it;
   for (tries = 0; tries < 200; tries++) {
     if ((st = chain(d, ehi, pi, qi, nseg, kp, w, NULL, &feas, err))) return st;
     if (feas) break;
+    if (capped) { *e_out = INFINITY; return SW_OK; }
     elo = ehi;
     ehi *= 2;
   }
@@ -663,12 +674,13 @@ int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg, int c
                       const fit_cons *k, sw_pwl *out, double *e_out, size_t *iters,
                       sw_err *err)
 {
-  return fit_minimax_fixed_from(d, knots, nseg, continuous, k, 0, 1e-11, out, e_out, iters, err);
+  return fit_minimax_fixed_from(d, knots, nseg, continuous, k, 0, 0, 1e-11, 0, out, e_out, iters,
+                                err);
 }
 
 int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, int continuous,
-                           const fit_cons *k, double e_start, double rtol, sw_pwl *out,
-                           double *e_out, size_t *iters, sw_err *err)
+                           const fit_cons *k, double e_lo, double e_hi, double rtol, int capped,
+                           sw_pwl *out, double *e_out, size_t *iters, sw_err *err)
 {
   size_t *pi = sw_alloc(nseg, sizeof *pi, err), *qi = sw_alloc(nseg, sizeof *qi, err), j;
   tube_ws w;
@@ -690,7 +702,9 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
   *e_out = 0;
   if (continuous) {
-    if ((st = bisect_chain(d, pi, qi, nseg, k, &w, &R, e_start, rtol, e_out, iters, err))) goto done;
+    if ((st = bisect_chain(d, pi, qi, nseg, k, &w, &R, e_lo, e_hi, rtol, capped, e_out, iters, err)))
+      goto done;
+    if (*e_out == INFINITY) goto done; /* capped: nothing below e_hi */
   } else {
     /* segments are independent: each gets its own smallest level */
     for (j = 0; j < nseg; j++) {
@@ -698,8 +712,11 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
       fit_cons kk = k ? *k : (fit_cons){0, 0, 0, 0, 0};
       kk.has_first = k && k->has_first && j == 0;
       kk.has_last = k && k->has_last && j == nseg - 1;
-      if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, e_start, rtol, &ej, iters, err))) goto done;
+      if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, e_lo, e_hi, rtol, capped, &ej,
+                             iters, err)))
+        goto done;
       if (ej > *e_out) *e_out = ej;
+      if (ej == INFINITY) goto done; /* capped: nothing below e_hi */
       if ((st = recs_push(&R, pi[j], qi[j], &(poly){one.r[0].pn, one.pa, one.ps}, err))) goto done;
     }
   }
