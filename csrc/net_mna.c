@@ -85,6 +85,48 @@ static void ports_of(const sw_net *net, const double *y, size_t stride, size_t j
   *i = y[d->col * stride];
 }
 
+/* One step of iterative refinement of K (L K = 0) and yp (L yp = s), the
+ * residuals summed in long double over the nonzeros of L: QR leaves
+ * residuals of the size of eps * |L| * |K|, which a row of KCL mixing unit
+ * branch-current coefficients with small conductances turns into relative
+ * errors of 1e-12 in small currents; after the step they are of the size
+ * of each row's own terms.  Correction: Q1 R1^-T [L K, L yp - s]. */
+static int refine_reduction(sw_net *net, const gsl_matrix *L, const gsl_vector *s,
+                            const gsl_matrix *Q, const gsl_matrix *R, sw_err *err)
+{
+  size_t N = net->nunk, nl = net->nlin, m = net->ndev, r, c, j;
+  gsl_matrix_const_view R1 = gsl_matrix_const_submatrix(R, 0, 0, nl, nl);
+  gsl_matrix_const_view Q1 = gsl_matrix_const_submatrix(Q, 0, 0, N, nl);
+  gsl_matrix *W = gsl_matrix_alloc(nl, m + 1), *C = gsl_matrix_alloc(N, m + 1);
+  long double *acc = sw_alloc(m + 1, sizeof *acc, err);
+  int rc = SW_OK;
+  if (!W || !C || !acc) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction"); goto done; }
+  for (r = 0; r < nl; r++) {
+    const double *row = L->data + r * L->tda;
+    for (j = 0; j < m; j++) acc[j] = 0;
+    acc[m] = -(long double)gsl_vector_get(s, r);
+    for (c = 0; c < N; c++) {
+      long double l = row[c];
+      if (row[c] == 0) continue;
+      for (j = 0; j < m; j++) acc[j] += l * net->K[c * m + j];
+      acc[m] += l * net->yp[c];
+    }
+    for (j = 0; j <= m; j++) gsl_matrix_set(W, r, j, (double)acc[j]);
+  }
+  if (gsl_blas_dtrsm(CblasLeft, CblasUpper, CblasTrans, CblasNonUnit, 1.0, &R1.matrix, W) ||
+      gsl_blas_dgemm(CblasNoTrans, CblasNoTrans, 1.0, &Q1.matrix, W, 0.0, C)) {
+    rc = sw_err_set(err, SW_ENUMERIC, "solving the linear part failed");
+    goto done;
+  }
+  for (c = 0; c < N; c++) {
+    for (j = 0; j < m; j++) net->K[c * m + j] -= gsl_matrix_get(C, c, j);
+    net->yp[c] -= gsl_matrix_get(C, c, m);
+  }
+done:
+  gsl_matrix_free(W); gsl_matrix_free(C); free(acc);
+  return rc;
+}
+
 int sw_net_reduce(sw_net *net, sw_err *err)
 {
   size_t N = net->nunk, nl = net->nlin, m = net->ndev, r, c, j;
@@ -144,6 +186,7 @@ int sw_net_reduce(sw_net *net, sw_err *err)
         goto done;
       }
     }
+    if ((rc = refine_reduction(net, L, s, Q, R, err))) goto done;
   }
   for (j = 0; j < m; j++) {
     for (c = 0; c < m; c++) ports_of(net, net->K + c, m, j, &net->Xv[j * m + c], &net->Xi[j * m + c]);
