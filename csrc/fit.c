@@ -528,7 +528,9 @@ static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
   for (tries = 0; tries < TOL_RETRIES; tries++) {
     if (o->criterion == SW_FIT_MINIMAX) {
       st = fit_minimax_tol(&J->d, e_int, o->continuous, &J->k, out, err);
-      if (!st) { /* polish: the best lines on the greedy knots */
+      /* polish: the best lines on the greedy knots (continuous models; the
+       * discontinuous greedy already takes each polygon's centroid line) */
+      if (!st && o->continuous) {
         sw_pwl p;
         double ep;
         memset(&p, 0, sizeof p);
