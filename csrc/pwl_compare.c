@@ -112,7 +112,7 @@ static int cmp_double(const void *a, const void *b)
 static int compare_analytic(err_ctx *e, double lo, double hi, size_t n, sw_compare *out, sw_err *err)
 {
   const sw_pwl *m = e->m;
-  size_t i, k, g = 0, cap = n + m->nseg + 1;
+  size_t i, k, g = 0, cap = n + 2 * m->nseg + 1;
   double *xs = NULL, *dv = NULL, *fv = NULL, integral = 0;
   gsl_min_fminimizer *s = NULL;
   int st = SW_OK;
@@ -127,6 +127,12 @@ static int compare_analytic(err_ctx *e, double lo, double hi, size_t n, sw_compa
   for (i = 0; i < n; i++) xs[g++] = lo + (hi - lo) * (double)i / (double)(n - 1);
   for (k = 1; k < m->nseg; k++)
     if (m->x[k] > lo && m->x[k] < hi) xs[g++] = m->x[k];
+  /* each segment's middle too: segments crowded into a knee may fall
+   * between two grid points, and their error peaks with them */
+  for (k = 0; k < m->nseg; k++) {
+    double mid = 0.5 * (m->x[k] + m->x[k + 1]);
+    if (mid > lo && mid < hi) xs[g++] = mid;
+  }
   qsort(xs, g, sizeof *xs, cmp_double);
   for (i = 0; i < g; i++) {
     if ((st = point_error(e, xs[i], &dv[i], &fv[i]))) goto done;

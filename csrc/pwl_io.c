@@ -155,8 +155,9 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
         } else if (klen == 6 && (memcmp(q, "x unit", 6) == 0 || memcmp(q, "y unit", 6) == 0)) {
           char *dst = *q == 'x' ? xunit : yunit;
           size_t ul = (size_t)(ve - v);
+          if (ul >= SW_UNIT_MAX) /* save refuses such units: never truncate one */
+            return sw_err_set(err, SW_EINVAL, "%s:%zu: %c unit is longer than %d bytes", path, line, *q, SW_UNIT_MAX - 1);
           if (dst) {
-            if (ul >= SW_UNIT_MAX) ul = SW_UNIT_MAX - 1;
             size_t i;
             for (i = 0; i < ul; i++) /* a stray CR must not reach a later save */
               dst[i] = ((unsigned char)v[i] < 0x20 && v[i] != '\t') ? ' ' : v[i];

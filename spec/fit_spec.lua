@@ -359,3 +359,13 @@ describe("segwise.fit", function()
     end)
   end)
 end)
+
+describe("segwise.fit knots as an array", function()
+  it("takes a segwise array of knots like a table", function()
+    local sw = require "segwise"
+    -- interpolation of x^2 at 0, 0.5, 1: the chord at 0.25 is 0.125 by hand
+    local m = sw.fit(sw.curve.power { k = 1, n = 2 }, { lo = 0, hi = 1, knots = sw.array { 0, 0.5, 1 }, criterion = "interp" })
+    assert.are.equal(2, m:nseg())
+    assert.is.near(0.125, m(0.25), 1e-15)
+  end)
+end)

@@ -93,7 +93,7 @@ return function(sw, core)
     else
       if o.tol ~= nil then fail("tol and an explicit knot list exclude each other") end
       o.knots = knot_list(o.knots, o.lo, o.hi)
-      local n = util.is_array(o.knots) and o.knots:len() - 1 or #o.knots - 1
+      local n = #o.knots - 1
       if o.segments ~= nil and o.segments ~= n then
         fail("segments (%d) disagrees with the knot list (%d segments)", o.segments, n)
       end

@@ -43,7 +43,7 @@ return function(sw, core)
     if res[1] then return table.unpack(res, 2, res.n) end
     local msg = res[2]
     if type(msg) == "string" then
-      msg = msg:gsub("^[^\n]-:%d+: ", "")
+      msg = msg:gsub("^[^\n]-:%d+: ", ""):gsub("^segwise: ", "")
       if not msg:find("^segwise%.") then msg = ("segwise.%s: %s"):format(fname, msg) end
     end
     error(msg, 3)
