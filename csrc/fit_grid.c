@@ -184,6 +184,11 @@ int fit_grid_analytic(const sw_curve *c, double lo, double hi, size_t n, int rel
       if (tol > 0 && q[i] < 2) q[i] = 2;
       Q += q[i];
     }
+    if (!sw_isfinite(Q) || Q > 1e8) { /* an overflowing range or curve: no grid */
+      free(ord); free(q);
+      st = sw_err_set(err, SW_EINVAL, "cannot sample the curve on [%g, %g]: the range or the curve's values overflow", lo, hi);
+      goto done;
+    }
     M = (size_t)ceil(Q);
     if (M < 2) M = 2;
     x = sw_alloc(M + 1, sizeof *x, err);
