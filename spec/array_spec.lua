@@ -1,12 +1,7 @@
 -- sw.array: contiguous doubles in a userdata (csrc/larray.c, csrc/lread.c).
 local sw = require "segwise"
 
-local function raises(pattern, f, ...)
-  local ok, err = pcall(f, ...)
-  assert.is_false(ok, "expected an error matching " .. pattern)
-  assert.is_truthy(tostring(err):find(pattern, 1, true), "message was: " .. tostring(err))
-  return err
-end
+local raises = require("spec_files").raises
 
 describe("segwise.array", function()
   describe("construction", function()

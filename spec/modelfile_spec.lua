@@ -2,31 +2,10 @@
 -- round trip, validation on load, and the write-then-rename rule.
 local sw = require "segwise"
 
-local dir = os.tmpname()
-os.remove(dir)
-assert(os.execute("mkdir -p '" .. dir .. "'"))
+local files = require "spec_files"
+local dir, write = files.tmpdir()
 
-local function write(name, text)
-  local path = dir .. "/" .. name
-  local f = assert(io.open(path, "wb"))
-  f:write(text)
-  f:close()
-  return path
-end
-
-local function slurp(path)
-  local f = assert(io.open(path, "rb"))
-  local s = f:read("a")
-  f:close()
-  return s
-end
-
-local function raises(pattern, f, ...)
-  local ok, err = pcall(f, ...)
-  assert.is_false(ok, "expected an error matching " .. pattern)
-  assert.is_truthy(tostring(err):find(pattern, 1, true), "message was: " .. tostring(err))
-  return err
-end
+local slurp, raises = files.read_all, files.raises
 
 -- Bitwise-equal stored knots and values, segment by segment.
 local function same_model(a, b)

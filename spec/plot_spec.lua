@@ -9,18 +9,8 @@ local axis = require "segwise.plot.axis"
 
 local MU = "\u{00B5}"
 
-local function tmpname()
-  local p = os.tmpname()
-  os.remove(p)
-  return p
-end
-
-local function read_all(path)
-  local f = assert(io.open(path, "rb"))
-  local s = f:read("a")
-  f:close()
-  return s
-end
+local files = require "spec_files"
+local tmpname, read_all = files.tmpname, files.read_all
 
 local function have(cmd)
   return os.execute("command -v " .. cmd .. " >/dev/null 2>&1") == true

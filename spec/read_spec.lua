@@ -3,17 +3,8 @@
 -- writes, a parser independent of the reader under test.
 local sw = require "segwise"
 
-local dir = os.tmpname()
-os.remove(dir)
-assert(os.execute("mkdir -p '" .. dir .. "'"))
-
-local function write(name, text)
-  local path = dir .. "/" .. name
-  local f = assert(io.open(path, "wb"))
-  f:write(text)
-  f:close()
-  return path
-end
+local files = require "spec_files"
+local dir, write = files.tmpdir()
 
 -- Reads columns x, y of a file straight into two tables (via arrays).
 local function columns(path, x, y, opts)
@@ -21,12 +12,7 @@ local function columns(path, x, y, opts)
   return xs:totable(), ys:totable()
 end
 
-local function raises(pattern, f, ...)
-  local ok, err = pcall(f, ...)
-  assert.is_false(ok, "expected an error matching " .. pattern)
-  assert.is_truthy(tostring(err):find(pattern, 1, true), "message was: " .. tostring(err))
-  return err
-end
+local raises = files.raises
 
 describe("segwise.curve.read", function()
   teardown(function() os.execute("rm -rf '" .. dir .. "'") end)

@@ -8,18 +8,8 @@ local MU = "\u{00B5}"
 local OHM = "\u{03A9}"
 local DASH = "\u{2014}"
 
-local function tmpname()
-  local p = os.tmpname()
-  os.remove(p)
-  return p
-end
-
-local function read_all(path)
-  local f = assert(io.open(path, "rb"))
-  local s = f:read("a")
-  f:close()
-  return s
-end
+local files = require "spec_files"
+local tmpname, read_all = files.tmpname, files.read_all
 
 local function exists(path)
   local f = io.open(path, "rb")

@@ -1,0 +1,43 @@
+-- Small helpers the specs share: temporary files and directories, reading a
+-- file whole, and asserting an error whose message contains a plain text.
+-- (busted puts its assert in each spec's environment, not in required modules)
+local luassert = require "luassert"
+local M = {}
+
+-- A fresh path that does not exist yet.
+function M.tmpname()
+  local p = os.tmpname()
+  os.remove(p)
+  return p
+end
+
+-- A fresh directory, and a writer of named files inside it.
+function M.tmpdir()
+  local dir = M.tmpname()
+  assert(os.execute("mkdir -p '" .. dir .. "'"))
+  local function write(name, text)
+    local path = dir .. "/" .. name
+    local f = assert(io.open(path, "wb"))
+    f:write(text)
+    f:close()
+    return path
+  end
+  return dir, write
+end
+
+function M.read_all(path)
+  local f = assert(io.open(path, "rb"))
+  local s = f:read("a")
+  f:close()
+  return s
+end
+
+-- Calls f(...) and asserts it raises an error containing pattern (plain text).
+function M.raises(pattern, f, ...)
+  local ok, err = pcall(f, ...)
+  luassert.is_false(ok, "expected an error matching " .. pattern)
+  luassert.is_truthy(tostring(err):find(pattern, 1, true), "message was: " .. tostring(err))
+  return err
+end
+
+return M
