@@ -14,19 +14,19 @@ static const char *const public_names[][2] = {
   {NULL, NULL}
 };
 
-/* Owner of a method: the type of its first argument. */
+/* Owner of a method: the segwise type of its first argument, or "". */
 static const char *owner_of(lua_State *L)
 {
-  if (luaL_testudata(L, 1, LSW_MODEL_MT)) return "model:";
-  if (luaL_testudata(L, 1, LSW_CURVE_MT)) return "curve:";
-  if (luaL_testudata(L, 1, LSW_ARRAY_MT)) return "array:";
+  if (luaL_testudata(L, 1, LSW_MODEL_MT)) return "model";
+  if (luaL_testudata(L, 1, LSW_CURVE_MT)) return "curve";
+  if (luaL_testudata(L, 1, LSW_ARRAY_MT)) return "array";
   return "";
 }
 
 int lsw_error(lua_State *L, const char *fmt, ...)
 {
   lua_Debug ar;
-  const char *name = NULL, *owner = "";
+  const char *name = NULL, *owner;
   va_list ap;
   int k;
   va_start(ap, fmt);
@@ -38,23 +38,13 @@ int lsw_error(lua_State *L, const char *fmt, ...)
   if (lua_getstack(L, 0, &ar) && lua_getinfo(L, "n", &ar) && ar.name &&
       (strcmp(ar.namewhat, "method") == 0 || strcmp(ar.namewhat, "field") == 0))
     name = ar.name;
-  owner = owner_of(L);
-  if (name && strcmp(ar.namewhat, "field") == 0 && luaL_getmetafield(L, 1, "__name") != LUA_TNIL) {
-    lua_pop(L, 1); /* m.eval(m, x): still a method of the owner */
-  } else if (name && strcmp(ar.namewhat, "field") == 0) {
-    owner = "";
-  }
-  if (!name) { /* called without a name (pcall(m.eval, ...)): name the owner */
-    if (*owner) lua_pushlstring(L, owner, strlen(owner) - 1);
-    lua_pushfstring(L, *owner ? "segwise.%s: " : "segwise: ", lua_tostring(L, -1));
-    if (*owner) lua_remove(L, -2);
-    lua_insert(L, -2);
-    lua_concat(L, 2);
-    return lua_error(L);
-  }
-  for (k = 0; public_names[k][0]; k++)
+  for (k = 0; name && public_names[k][0]; k++)
     if (strcmp(name, public_names[k][0]) == 0) name = public_names[k][1];
-  lua_pushfstring(L, "segwise.%s%s: ", owner, name);
+  owner = owner_of(L);
+  if (name) /* "segwise.model:eval: ", or "segwise.pwl: " for a module function */
+    lua_pushfstring(L, "segwise.%s%s%s: ", owner, *owner ? ":" : "", name);
+  else      /* called without a name (pcall(m.eval, ...)): name the owner */
+    lua_pushfstring(L, *owner ? "segwise.%s: " : "segwise: ", owner);
   lua_insert(L, -2);
   lua_concat(L, 2);
   return lua_error(L);
