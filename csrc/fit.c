@@ -185,6 +185,15 @@ static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err 
     free(ss);
     if (st) goto fail;
   }
+  { /* level searches double from this start: keep them far from overflow */
+    double lvl = fit_start_level(d);
+    if (!sw_isfinite(lvl) || lvl > 1e250) {
+      st = sw_err_set(err, SW_ERANGE, "the curve's values over their error scale reach %g%s: "
+                      "rescale the data%s", lvl, o->rel ? " (relative error)" : "",
+                      o->rel ? " or raise rel_floor" : "");
+      goto fail;
+    }
+  }
   return SW_OK;
 fail:
   fit_data_free(d);

@@ -69,7 +69,14 @@ int fit_interp_count(const fit_data *d, size_t nseg, sw_pwl *out, double *e_out,
   size_t it, m, j, *idx = sw_alloc(nseg + 1, sizeof *idx, err);
   int st;
   if (!idx) return SW_ENOMEM;
-  while (chord_greedy(d, ehi, nseg, NULL) > nseg) { elo = ehi; ehi *= 2; }
+  while (chord_greedy(d, ehi, nseg, NULL) > nseg) {
+    elo = ehi;
+    ehi *= 2;
+    if (!sw_isfinite(ehi)) {
+      free(idx);
+      return sw_err_set(err, SW_ERANGE, "no chord model with %zu segments at any finite error level", nseg);
+    }
+  }
   for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-10 * ehi; it++) {
     double mid = 0.5 * (elo + ehi);
     if (chord_greedy(d, mid, nseg, NULL) <= nseg) ehi = mid; else elo = mid;

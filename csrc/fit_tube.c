@@ -651,6 +651,9 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
   int feas, st, tries;
   size_t it;
   for (tries = 0; tries < 200; tries++) {
+    if (!sw_isfinite(ehi)) /* values over their error scale beyond the double range */
+      return sw_err_set(err, SW_ERANGE, "the error level overflows: the curve's values divided by "
+                        "their error scale exceed the double range (raise rel_floor or rescale)");
     if ((st = chain(d, ehi, pi, qi, nseg, kp, w, NULL, &feas, err))) return st;
     if (feas) break;
     if (capped) { *e_out = INFINITY; return SW_OK; }

@@ -241,6 +241,11 @@ describe("segwise bad input", function()
         { "callback raises", function() sw.fit(fn_curve(function() error("probe lost") end), { segments = 2 }) end, "probe lost", raw = true },
         { "callback returns nil", function() sw.fit(fn_curve(function() end), { segments = 2 }) end, "nil" },
         { "callback returns NaN", function() sw.fit(fn_curve(function() return NAN end), { segments = 2 }) end, "NaN" },
+        -- fuzzer find: a denormal rel_floor made the error level overflow and
+        -- the fit return an empty model as a success
+        { "rel_floor so small the error level overflows",
+          function() sw.fit(sw.curve.power { k = 1, n = 0.25 }, { lo = 0, hi = 5e-12, error = "rel", rel_floor = 1e-315, tol = 1e200 }) end,
+          "error scale.*rel_floor" },
       }
 
       it("a callback may run a fit re-entrantly", function()
