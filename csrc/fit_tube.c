@@ -527,6 +527,14 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
       elo = ehi;
       ehi *= 1.25;
     }
+    /* the greedy level is usually within the bisection's precision of the
+     * optimum: one probe just below it settles that case, where bisection
+     * would spend a dozen reachable-set passes all finding no model */
+    if (tries < 200 && ehi * (1 - 0.9e-4) > elo) {
+      double probe = ehi * (1 - 0.9e-4); /* an infeasible probe ends the bisection */
+      if ((st = count_at(d, probe, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if (m <= nseg) ehi = probe; else elo = probe;
+    }
     for (it = 0; tries < 200 && it < BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
       double mid = 0.5 * (elo + ehi);
       if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;

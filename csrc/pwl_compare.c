@@ -78,13 +78,25 @@ static int refine_max(err_ctx *e, gsl_min_fminimizer *s, double xa, double xb, d
 static int compare_samples(err_ctx *e, double lo, double hi, sw_compare *out)
 {
   const sw_curve *c = e->c;
+  const sw_pwl *m = e->m;
   double sum = 0;
-  size_t i, cnt = 0;
-  for (i = 0; i < c->n; i++) {
-    double x = c->x[i], d, r;
+  size_t i = 0, k = 0, top = c->n, cnt = 0;
+  /* samples are sorted: the first one at or past lo by bisection, then one
+   * walk that carries the model's segment along (as sw_pwl_locate picks it) */
+  while (i < top) {
+    size_t mid = i + (top - i) / 2;
+    if (c->x[mid] < lo) i = mid + 1; else top = mid;
+  }
+  for (; i < c->n && c->x[i] <= hi; i++) {
+    double x = c->x[i], r = c->y[i], d, ym;
     int st;
-    if (x < lo || x > hi) continue;
-    if ((st = point_error(e, x, &d, &r))) return st;
+    if (x < m->x[0] || x > m->x[m->nseg]) {
+      if ((st = sw_pwl_eval(m, x, &ym, e->err))) return st;
+    } else {
+      while (k + 1 < m->nseg && x >= m->x[k + 1]) k++;
+      ym = sw_pwl_line(m, k, x);
+    }
+    d = ym - r;
     if (fabs(d) > out->max_abs) { out->max_abs = fabs(d); out->x_abs = x; }
     if (e->floor > 0 || r != 0) {
       double rel = fabs(d) / (fabs(r) > e->floor ? fabs(r) : e->floor);
