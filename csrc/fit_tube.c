@@ -497,7 +497,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
      * coarsely; the fixed-knot minimax that follows settles the level */
     double eg = ehi, gl = 0;
     int use_greedy = !(k && k->has_last);
-    for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-6 * ehi; it++) {
+    for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
       double mid = 0.5 * (elo + ehi);
       if ((st = count_at(d, mid, 0, NULL, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = mid; else elo = mid;
@@ -505,6 +505,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
     *iters += it;
     ehi = elo;
     lower = elo; /* the discontinuous bound holds for every continuous model */
+    gl = elo;    /* and for the continuous greedy */
     if (use_greedy) {
       for (tries = 0; tries < 200; tries++) {
         m = greedy(d, eg, 1, k, nseg, &w, NULL, &st, err);
