@@ -6,24 +6,11 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include <gsl/gsl_errno.h>
-
 #include "curve.h"
 #include "fuzz_input.h"
 
 #define MAX_SAMPLES 64
 
-int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
-int LLVMFuzzerInitialize(int *argc, char ***argv);
-
-/* As the module does at load: GSL reports errors as status codes. */
-int LLVMFuzzerInitialize(int *argc, char ***argv)
-{
-  (void)argc;
-  (void)argv;
-  gsl_set_error_handler_off();
-  return 0;
-}
 
 static void probe(const sw_curve *c, fuzz_in *in)
 {

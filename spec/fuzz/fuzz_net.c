@@ -8,25 +8,12 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include <gsl/gsl_errno.h>
-
 #include "net.h"
 #include "fuzz_input.h"
 
 #define MAX_EL 8
 #define MAX_DEV 3
 
-int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
-int LLVMFuzzerInitialize(int *argc, char ***argv);
-
-/* As the module does at load: GSL reports errors as status codes. */
-int LLVMFuzzerInitialize(int *argc, char ***argv)
-{
-  (void)argc;
-  (void)argv;
-  gsl_set_error_handler_off();
-  return 0;
-}
 
 static const char *node_name(fuzz_in *in)
 {

@@ -4,24 +4,11 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include <gsl/gsl_errno.h>
-
 #include "textread.h"
 #include "fuzz_input.h"
 
 #define MAX_TEXT (64 * 1024)
 
-int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
-int LLVMFuzzerInitialize(int *argc, char ***argv);
-
-/* As the module does at load: GSL reports errors as status codes. */
-int LLVMFuzzerInitialize(int *argc, char ***argv)
-{
-  (void)argc;
-  (void)argv;
-  gsl_set_error_handler_off();
-  return 0;
-}
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
