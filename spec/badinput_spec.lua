@@ -456,6 +456,25 @@ describe("segwise bad input", function()
       end)
     end
 
+    -- an error should send the engineer to their own script's line
+    it("errors point at the caller's line, not the library's", function()
+      local here = debug.getinfo(1, "S").short_src
+      local calls = {
+        fit = function() local m = sw.fit(samples(), { segments = 10 }); return m end,
+        ["curve.read"] = function() local c = sw.curve.read(tmpdir .. "/none.csv"); return c end,
+        ["array.read"] = function() local a = sw.array.read(tmpdir .. "/none.csv", 1); return a end,
+        ["pwl.load"] = function() local m = sw.pwl.load(tmpdir .. "/none.csv"); return m end,
+        ["network:solve"] = function() local op = sw.network():solve(); return op end,
+        pwl = function() local m = sw.pwl { x = { 0, 0 }, y = { 1, 2 } }; return m end,
+      }
+      for name, f in pairs(calls) do
+        local ok, msg = pcall(f)
+        assert.is_false(ok, name)
+        assert.are.equal(1, msg:find(here .. ":", 1, true), name .. ": " .. msg)
+        assert.is_truthy(msg:find("segwise." .. name .. ": ", 1, true), name .. ": " .. msg)
+      end
+    end)
+
     it("an error in one call leaves the objects usable", function()
       local m, c = model(), samples()
       assert.is_false(pcall(m.seg, m, 99))

@@ -117,6 +117,7 @@ return function(sw, core)
       table.sort(sorted, function(a, b) return a[1] < b[1] end)
       o.through = sorted
     end
-    return core.fit(curve, o)
+    local m = util.call(2, "fit", core.fit, curve, o)
+    return m
   end
 end

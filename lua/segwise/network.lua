@@ -36,18 +36,8 @@ return function(sw, core)
     return name_arg(fname, what, v)
   end
 
-  -- Calls the C method and re-raises its error at the caller's level, with
-  -- the "segwise.<function>: " prefix when the message lacks one.
-  local function call(fname, f, ...)
-    local res = table.pack(pcall(f, ...))
-    if res[1] then return table.unpack(res, 2, res.n) end
-    local msg = res[2]
-    if type(msg) == "string" then
-      msg = msg:gsub("^[^\n]-:%d+: ", ""):gsub("^segwise: ", "")
-      if not msg:find("^segwise%.") then msg = ("segwise.%s: %s"):format(fname, msg) end
-    end
-    error(msg, 3)
-  end
+  -- The C method's error at the caller's level (see util.call).
+  local function call(fname, f, ...) return util.call(2, fname, f, ...) end
 
   -- numbers used as node names index results as strings too
   local by_string = { __index = function(t, k) if type(k) == "number" then return rawget(t, tostring(k)) end end }

@@ -7,16 +7,10 @@ local util = require "segwise.util"
 return function(sw, core)
   local check_opts, describe = util.check_opts, util.describe
 
-  -- Calls a core function and re-raises its error at the user's call site,
-  -- under the public name.
-  local function call(fname, f, ...)
-    local r = table.pack(pcall(f, ...))
-    if not r[1] then
-      local msg = tostring(r[2]):gsub("^segwise%.[%w_.:]+: ", "")
-      error(("segwise.%s: %s"):format(fname, msg), 3)
-    end
-    return table.unpack(r, 2, r.n)
-  end
+  -- The core function's error at the user's call site, under the public
+  -- name (see util.call_as); callers keep it out of tail position, so
+  -- their own frame stands between it and the user.
+  local function call(fname, f, ...) return util.call_as(2, fname, f, ...) end
 
   local function check_path(fname, path)
     if type(path) ~= "string" then
@@ -92,7 +86,8 @@ return function(sw, core)
   -- sw.pwl.load(path) -> model, x unit, y unit
   function sw.pwl.load(path)
     check_path("pwl.load", path)
-    return call("pwl.load", core.load_model, path)
+    local m, xunit, yunit = call("pwl.load", core.load_model, path)
+    return m, xunit, yunit
   end
 
   -- sw.array(n | table | array) and sw.array.read(path [, column [, opts]])
@@ -101,9 +96,13 @@ return function(sw, core)
       check_path("array.read", path)
       check_column("array.read", "column", column)
       opts = check_opts("array.read", opts, { scale = "number", delimiter = "string", header = "boolean" })
-      return call("array.read", core.array_read, path, column, opts)
+      local a = call("array.read", core.array_read, path, column, opts)
+      return a
     end,
   }, {
-    __call = function(_, v) return call("array", core.array, v) end,
+    __call = function(_, v)
+      local a = call("array", core.array, v)
+      return a
+    end,
   })
 end

@@ -67,8 +67,9 @@ end
 -- Calls core function f for the public function fname, so that its error
 -- points at the user's line, not at this library's: a segwise message loses
 -- the library position and is raised again at the caller's level; any other
--- error value (a callback's own) passes through unchanged.
-function util.call(level, fname, f, ...)
+-- error value (a callback's own) passes through unchanged.  rename: the
+-- message goes under fname even when the core named its own function.
+local function call_with(level, fname, rename, f, ...)
   local r = table.pack(pcall(f, ...))
   if r[1] then return table.unpack(r, 2, r.n) end
   local msg = r[2]
@@ -76,12 +77,19 @@ function util.call(level, fname, f, ...)
     local bare = msg:match("^[^\n]-:%d+: (segwise[%.:].*)$") or msg:match("^segwise[%.:].*$")
     if bare then
       -- a core function called through pcall has no name of its own
-      bare = bare:gsub("^segwise: ", "segwise." .. fname .. ": ")
+      bare = bare:gsub(rename and "^segwise[%w_.:]*: " or "^segwise: ", "segwise." .. fname .. ": ", 1)
       error(bare, level + 1)
     end
   end
   error(msg, 0)
 end
+
+-- level counts as error()'s does from the function that calls util.call
+-- (1: that function, 2: its caller); a tail call `return util.call(...)`
+-- takes that function's place, so count from its caller then.
+-- (call_with is tail-called below: it stands where these were.)
+function util.call(level, fname, f, ...) return call_with(level, fname, false, f, ...) end
+function util.call_as(level, fname, f, ...) return call_with(level, fname, true, f, ...) end
 
 util.describe = describe
 return util
