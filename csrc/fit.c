@@ -529,6 +529,16 @@ static int measure(fit_job *J, const sw_pwl *m, double *e, sw_err *err)
 
 /* Fewest segments within tol for optimal minimax or interpolation: the
  * greedy tube on the samples, rechecked against the curve. */
+/* The fewest-segment model against the caller's cap (freed when above). */
+static int within_cap(const sw_fit_opts *o, sw_pwl *out, sw_err *err)
+{
+  size_t n = out->nseg;
+  if (!o->max_segments || n <= o->max_segments) return SW_OK;
+  sw_pwl_free(out);
+  return sw_err_set(err, SW_ENOSOL, "tol = %g needs %zu segments with this scheme, more than "
+                    "max_segments = %zu", o->tol, n, o->max_segments);
+}
+
 static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
 {
   const sw_fit_opts *o = J->o;
@@ -597,6 +607,7 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
   }
   if (o->knots == SW_KNOTS_OPTIMAL && o->criterion != SW_FIT_LSQ) {
     if ((st = tol_greedy(J, out, err))) return st;
+    if ((st = within_cap(o, out, err))) return st;
     /* knots sit on samples: an analytic curve needing many segments gets
      * a grid of TOL_POINTS_PER_SEG points a segment and a second pass */
     if (J->d.analytic && !o->grid && J->d.n < TOL_POINTS_PER_SEG * out->nseg) {
@@ -609,7 +620,8 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
         fit_data_free(&J->d);
         J->d = nd;
         sw_pwl_free(out);
-        return tol_greedy(J, out, err);
+        if ((st = tol_greedy(J, out, err))) return st;
+        return within_cap(o, out, err);
       }
     }
     return SW_OK;
@@ -617,6 +629,7 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
   /* search the count: doubling, then bisection */
   nmax = J->d.n > 1 ? J->d.n - 1 : 1;
   if (nmax > 4096) nmax = 4096;
+  if (o->max_segments && nmax > o->max_segments) nmax = o->max_segments;
   lo = 0;
   hi = 1;
   for (;;) {
@@ -630,7 +643,7 @@ static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
     lo = hi;
     if (hi >= nmax)
       return sw_err_set(err, SW_ENOSOL, "no model of up to %zu segments meets tol = %g with this "
-                        "scheme", nmax, tol);
+                        "scheme%s", nmax, tol, nmax == o->max_segments ? " (max_segments)" : "");
     hi = hi * 2 > nmax ? nmax : hi * 2;
   }
   while (hi - lo > 1) {

@@ -47,6 +47,7 @@ typedef struct sw_fit_opts {
   double slope_first, slope_last;
   int monotone;             /* 1: model slopes follow the curve's direction */
   size_t grid;              /* samples of an analytic curve; 0: default */
+  size_t max_segments;      /* tol: no model above this count (an error); 0: no cap */
   double offset;            /* geometric knots: spacing grows from this x */
 } sw_fit_opts;
 

@@ -118,6 +118,11 @@ static int l_fit(lua_State *L)
   o.has_slope_last = opt_number(L, "slope_last", &o.slope_last);
   o.monotone = opt_bool(L, "monotone", 0);
   opt_number(L, "offset", &o.offset);
+  if (opt_number(L, "max_segments", &v)) {
+    if (!(v >= 1 && v <= 100000) || v != floor(v))
+      return luaL_error(L, "segwise.fit: max_segments (%g) must be an integer from 1 to 100000", v);
+    o.max_segments = (size_t)v;
+  }
   if (opt_number(L, "grid", &v)) {
     if (!(v >= 3 && v <= 1e7)) return luaL_error(L, "segwise.fit: grid (%g) must be between 3 and 1e7", v);
     o.grid = (size_t)v;

@@ -192,6 +192,37 @@ describe("segwise.fit", function()
       local n2 = sw.fit(diode(), { lo = 0.3, hi = 0.8, tol = 1e-5 }):nseg()
       assert.is_true(n2 > n1)
     end)
+
+    -- a cap keeps a too-tight tolerance from building a huge model: below
+    -- the needed count it is an error naming it; at it, the same model
+    for _, knots in ipairs { "optimal", "uniform", "curvature" } do
+      it("max_segments caps the search (knots = " .. knots .. ")", function()
+        local o = { lo = 0.3, hi = 0.8, tol = 1e-4, knots = knots }
+        local free = sw.fit(diode(), o)
+        local n = free:nseg()
+        assert.is_true(n > 2)
+        o.max_segments = n
+        local capped = sw.fit(diode(), o)
+        -- the same knots; ordinates may differ in the last digits, as the
+        -- search's history adds exchange samples
+        assert.are.same(free:knots(), (capped:knots()))
+        assert.near(free:fit_info().max_abs, capped:fit_info().max_abs, 1e-12)
+        o.max_segments = n - 1
+        local ok, msg = pcall(sw.fit, diode(), o)
+        assert.is_false(ok)
+        assert.matches("max_segments", msg)
+      end)
+    end
+
+    it("max_segments needs tol and a positive integer", function()
+      assert.has_error(function() sw.fit(diode(), { lo = 0.3, hi = 0.8, segments = 3, max_segments = 5 }) end,
+        "segwise.fit: max_segments goes with tol (a cap on the fewest-segment search)")
+      for _, bad in ipairs { 0, 2.5, -1, 0 / 0, 1e12 } do
+        local ok, msg = pcall(sw.fit, diode(), { lo = 0.3, hi = 0.8, tol = 1e-3, max_segments = bad })
+        assert.is_false(ok)
+        assert.matches("max_segments", msg)
+      end
+    end)
   end)
 
   describe("constraints", function()

@@ -12,7 +12,7 @@ local SPEC = {
   knots = "string|table", criterion = CRITERIA, error = { "abs", "rel" },
   rel_floor = "number", continuous = "boolean", at = "number",
   through = "table", slope_first = "number", slope_last = "number",
-  monotone = "boolean", grid = "number", offset = "number",
+  monotone = "boolean", grid = "number", offset = "number", max_segments = "number",
 }
 
 local function fail(msg, ...)
@@ -51,7 +51,7 @@ return function(sw, core)
     opts = util.check_opts("fit", opts, SPEC)
     local o = {}
     for k, v in pairs(opts) do o[k] = v end
-    for _, k in ipairs { "lo", "hi", "tol", "rel_floor", "at", "slope_first", "slope_last", "segments", "offset" } do
+    for _, k in ipairs { "lo", "hi", "tol", "rel_floor", "at", "slope_first", "slope_last", "segments", "offset", "max_segments" } do
       finite(k, o[k])
     end
     local okd, dlo, dhi = pcall(curve.domain, curve)
@@ -72,6 +72,12 @@ return function(sw, core)
     end
     if o.segments ~= nil and o.segments > MAX_SEGMENTS then
       fail("segments (%g) is too large (at most %d)", o.segments, MAX_SEGMENTS)
+    end
+    if o.max_segments ~= nil then
+      if o.tol == nil then fail("max_segments goes with tol (a cap on the fewest-segment search)") end
+      if o.max_segments < 1 or o.max_segments ~= math.floor(o.max_segments) or o.max_segments > MAX_SEGMENTS then
+        fail("max_segments (%g) must be an integer from 1 to %d", o.max_segments, MAX_SEGMENTS)
+      end
     end
     if o.grid ~= nil and o.grid > MAX_GRID then fail("grid (%g) is too large (at most %d)", o.grid, MAX_GRID) end
     if o.rel_floor ~= nil and not (o.rel_floor > 0) then fail("rel_floor (%g) must be positive", o.rel_floor) end
