@@ -407,6 +407,39 @@ done:
   sw_net_free(&net);
   return rc;
 }
+
+/* Sweeps into caller arrays: a source (the reduction kept) and a resistor
+ * (rebuilt per point), up to currents past D1's pmax, so warnings grow. */
+static int sc_sweep(double *fp, sw_err *err)
+{
+  sw_net net;
+  sw_net_sweep_info info;
+  double values[6] = {1, 5, 20, 50, 80, 120}, rs[6] = {50, 100, 200, 400, 800, 1600};
+  double i1[6], vd2[6], p1[6], s1[6];
+  sw_net_quant q[4] = {{SW_NQ_I, 2, i1}, {SW_NQ_VD, 3, vd2}, {SW_NQ_P, 2, p1}, {SW_NQ_STATE, 0, s1}};
+  size_t k;
+  int rc;
+  sw_net_init(&net);
+  memset(&info, 0, sizeof info);
+  *fp = 0;
+  if ((rc = build_net(&net, err))) goto done;
+  if ((rc = sw_net_prepare(&net, err))) goto done;
+  if ((rc = sw_net_sweep_arrays(&net, 0, values, 6, NULL, 1e4, q, 4, &info, err))) goto done;
+  for (k = 0; k < 6; k++) *fp += i1[k] + vd2[k] + p1[k] + s1[k];
+  *fp += (double)info.nwarn;
+  if (info.nwarn < 2) { /* the scenario must reach the warning list's growth */
+    rc = sw_err_set(err, SW_EINVAL, "sc_sweep: expected warnings, got %zu", info.nwarn);
+    goto done;
+  }
+  sw_net_sweep_info_free(&info);
+  if ((rc = sw_net_sweep_arrays(&net, 1, rs, 6, NULL, 1e4, q, 4, &info, err))) goto done;
+  for (k = 0; k < 6; k++) *fp += i1[k] + s1[k];
+  *fp += (double)info.nwarn;
+done:
+  sw_net_sweep_info_free(&info);
+  sw_net_free(&net);
+  return rc;
+}
 #endif
 
 /* ---- driver ------------------------------------------------------------- */
@@ -493,6 +526,7 @@ int main(void)
 #endif
 #ifdef HAVE_NET
   RUN(sc_net);
+  RUN(sc_sweep);
 #endif
   {
     char path[128];
