@@ -472,6 +472,93 @@ static int count_at(const fit_data *d, double e, int continuous, const fit_cons 
   return st;
 }
 
+/* Long sample sets: the level search first runs on every k-th sample
+ * (GUESS_SAMPLES of them), and the full data then only bracket that guess:
+ * a dozen passes over all samples instead of forty.  Every decision is
+ * still taken on the full data, so the guess affects the time only. */
+#define GUESS_MIN 16384
+#define GUESS_SAMPLES 4096
+
+static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
+                       tube_ws *w, double rtol, double *g, sw_err *err)
+{
+  fit_data s;
+  size_t step, i, m, it;
+  double elo = 0, ehi;
+  int st = SW_OK, tries;
+  *g = 0;
+  if (d->n < GUESS_MIN) return SW_OK;
+  step = d->n / GUESS_SAMPLES;
+  memset(&s, 0, sizeof s);
+  m = (d->n - 1) / step + 2;
+  s.x = sw_alloc(m, sizeof(double), err);
+  s.y = sw_alloc(m, sizeof(double), err);
+  s.s = sw_alloc(m, sizeof(double), err);
+  if (!s.x || !s.y || !s.s) { st = SW_ENOMEM; goto done; }
+  for (i = 0; i < d->n; i += step) {
+    s.x[s.n] = d->x[i]; s.y[s.n] = d->y[i]; s.s[s.n] = d->s[i]; s.n++;
+  }
+  if (s.x[s.n - 1] < d->x[d->n - 1]) {
+    s.x[s.n] = d->x[d->n - 1]; s.y[s.n] = d->y[d->n - 1]; s.s[s.n] = d->s[d->n - 1]; s.n++;
+  }
+  ehi = fit_start_level(&s);
+  for (tries = 0; tries < 200; tries++) {
+    m = greedy(&s, ehi, continuous, k, nseg, w, NULL, &st, err);
+    if (st) goto done;
+    if (m <= nseg) break;
+    elo = ehi;
+    ehi *= 2;
+  }
+  if (tries == 200) goto done; /* no guess: the full search decides */
+  for (it = 0; it < BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
+    double mid = 0.5 * (elo + ehi);
+    m = greedy(&s, mid, continuous, k, nseg, w, NULL, &st, err);
+    if (st) goto done;
+    if (m <= nseg) ehi = mid; else elo = mid;
+  }
+  *g = ehi;
+done:
+  free(s.x); free(s.y); free(s.s);
+  return st;
+}
+
+/* Brackets the smallest level whose greedy count is at most nseg around
+ * the guess g, stepping away from it by 1e-3, 4e-3, ... of g; *known = 1
+ * when *ehi has been seen to meet the count ( *elo only ever rises). */
+static int bracket_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
+                         tube_ws *w, double g, double *elo, double *ehi, int *known, sw_err *err)
+{
+  double step;
+  size_t m;
+  int st = SW_OK, i;
+  *known = 0;
+  m = greedy(d, g, continuous, k, nseg, w, NULL, &st, err);
+  if (st) return st;
+  if (m <= nseg) {
+    *ehi = g;
+    *known = 1;
+    for (i = 0, step = 1e-3; i < 6; i++, step *= 4) {
+      double p = g * (1 - step);
+      if (!(p > *elo)) break;
+      m = greedy(d, p, continuous, k, nseg, w, NULL, &st, err);
+      if (st) return st;
+      if (m > nseg) { *elo = p; break; }
+      *ehi = p;
+    }
+    return SW_OK;
+  }
+  if (g > *elo) *elo = g;
+  for (i = 0, step = 1e-3; i < 8; i++, step *= 4) {
+    double p = g * (1 + step);
+    m = greedy(d, p, continuous, k, nseg, w, NULL, &st, err);
+    if (st) return st;
+    if (m <= nseg) { *ehi = p; *known = 1; return SW_OK; }
+    *elo = p;
+  }
+  if (*ehi <= *elo) *ehi = 2 * *elo; /* the doubling search goes on from here */
+  return SW_OK;
+}
+
 /* Smallest e whose greedy count is at most nseg, by bisection; the knots of
  * that greedy pass (split to exactly nseg) in knots[0..nseg]. */
 static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
@@ -495,8 +582,10 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
      * between the discontinuous optimum (a continuous model is also a
      * discontinuous one) and the continuous greedy's level, then bisect
      * coarsely; the fixed-knot minimax that follows settles the level */
-    double eg = ehi, gl = 0;
-    int use_greedy = !(k && k->has_last);
+    double eg = ehi, gl = 0, g;
+    int use_greedy = !(k && k->has_last), known;
+    if ((st = level_guess(d, nseg, 0, NULL, &w, 1e-5, &g, err))) goto done;
+    if (g > 0 && (st = bracket_guess(d, nseg, 0, NULL, &w, g, &elo, &ehi, &known, err))) goto done;
     for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
       double mid = 0.5 * (elo + ehi);
       if ((st = count_at(d, mid, 0, NULL, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
@@ -542,7 +631,12 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
       if (m <= nseg) ehi = mid; else elo = mid;
     }
   } else {
-    for (tries = 0; tries < 200; tries++) {
+    double g;
+    int known = 0;
+    if ((st = level_guess(d, nseg, continuous, k, &w, 1e-8, &g, err))) goto done;
+    if (g > 0 && (st = bracket_guess(d, nseg, continuous, k, &w, g, &elo, &ehi, &known, err)))
+      goto done;
+    for (tries = 0; !known && tries < 200; tries++) {
       if ((st = count_at(d, ehi, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) break;
       elo = ehi;
