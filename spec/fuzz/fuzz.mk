@@ -49,7 +49,7 @@ fuzz: fuzz-build
 	  tmp=$$(mktemp -d); mkdir -p spec/fuzz/corpus/$$h; \
 	  echo "fuzz: $$h for $(FUZZ_SECONDS) s"; \
 	  if UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 ASAN_OPTIONS=detect_leaks=1 \
-	     ./$(FUZZ_DIR)/fuzz_$$h -max_total_time=$(FUZZ_SECONDS) -timeout=25 -rss_limit_mb=2048 \
+	     ./$(FUZZ_DIR)/fuzz_$$h -max_total_time=$(FUZZ_SECONDS) -timeout=60 -rss_limit_mb=2048 \
 	       -max_len=4096 -print_final_stats=1 -artifact_prefix=$(FUZZ_DIR)/artifacts/$$h- \
 	       $$tmp spec/fuzz/corpus/$$h > $(FUZZ_DIR)/$$h.log 2>&1; then \
 	    echo "fuzz: $$h ok, $$(grep -o 'stat::number_of_executed_units: *[0-9]*' $(FUZZ_DIR)/$$h.log | grep -o '[0-9]*$$') executions"; \

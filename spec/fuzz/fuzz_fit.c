@@ -89,7 +89,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
   }
   /* and a cap on the count, as a user would set: a steep law under a tight
    * relative tolerance can want a thousand uniform segments (fuzzer find) */
-  if (o.tol > 0) o.max_segments = 64;
+  if (o.tol > 0) o.max_segments = 32;
   if (getenv("FUZZ_SHOW")) /* describe the case when replaying one input */
     fprintf(stderr, "curve kind %d n=%zu k=%g p=%g range [%g, %g]; criterion %d knots %d continuous %d segments %zu "
             "tol %g rel %d floor %g monotone %d grid %zu nknots %zu at %d:%g through %zu slopes %d/%d\n",
