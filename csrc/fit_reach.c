@@ -57,43 +57,71 @@ static int cmp_size(const void *a, const void *b)
 }
 
 /* Candidates: an even subsample of the distinct abscissae plus the extra
- * knots (e.g. a greedy pass's), each as the last sample at its x. */
-static int reach_init(reach_ws *r, const fit_data *d, const double *extra, size_t nextra, sw_err *err)
+ * knots (e.g. a greedy pass's), each as the last sample at its x; sorted,
+ * distinct, the first one sample 0.  *ci has room for 400 + nextra. */
+static int choose_candidates(const fit_data *d, const double *extra, size_t nextra, int own,
+                             size_t **ci, size_t *M, sw_err *err)
 {
-  size_t i, groups = 0, g = 0, *last, M0, M;
-  memset(r, 0, sizeof *r);
+  size_t i, groups = 0, g, *last, M0, m;
+  *ci = NULL;
   last = sw_alloc(d->n, sizeof *last, err);
   if (!last) return SW_ENOMEM;
   for (i = 0; i < d->n; i++)
     if (i + 1 == d->n || d->x[i + 1] > d->x[i]) last[groups++] = i;
-  M0 = groups < MAX_CANDIDATES ? groups : MAX_CANDIDATES;
-  r->M = M0 + nextra;
-  r->ci = sw_alloc(r->M, sizeof *r->ci, err);
+  M0 = !own ? 0 : groups < MAX_CANDIDATES ? groups : MAX_CANDIDATES;
+  *ci = sw_alloc(M0 + nextra + 1, sizeof **ci, err);
+  if (!*ci) { free(last); return SW_ENOMEM; }
+  for (g = 0; g < M0; g++)
+    (*ci)[g] = last[(size_t)((double)g * (double)(groups - 1) / (double)(M0 - 1) + 0.5)];
+  for (g = 0; g < nextra; g++) {
+    size_t u = fit_upper(d, extra[g]);
+    (*ci)[M0 + g] = u > 0 ? u - 1 : 0;
+  }
+  (*ci)[M0 + nextra] = d->n - 1; /* the end is always one */
+  qsort(*ci, M0 + nextra + 1, sizeof **ci, cmp_size);
+  for (g = 0, m = 0; g < M0 + nextra + 1; g++)
+    if (m == 0 || (*ci)[g] > (*ci)[m - 1]) (*ci)[m++] = (*ci)[g];
+  (*ci)[0] = 0; /* the start: a run from sample 0 takes every sample at x[0] */
+  *M = m;
+  free(last);
+  return SW_OK;
+}
+
+static int reach_init(reach_ws *r, const fit_data *d, const double *extra, size_t nextra, int own,
+                      sw_err *err)
+{
+  size_t i, g;
+  int st;
+  memset(r, 0, sizeof *r);
+  if ((st = choose_candidates(d, extra, nextra, own, &r->ci, &r->M, err))) return st;
   r->pc = sw_alloc(r->M * PIECES, sizeof *r->pc, err);
   r->np = sw_alloc(r->M, sizeof *r->np, err);
   r->rlo = sw_alloc(d->n, sizeof *r->rlo, err);
   r->rhi = sw_alloc(d->n, sizeof *r->rhi, err);
   r->cand_of = sw_alloc(d->n, sizeof *r->cand_of, err);
   r->w = fit_tube_new(d->n, err);
-  if (!r->ci || !r->pc || !r->np || !r->rlo || !r->rhi || !r->cand_of || !r->w) {
-    free(last);
+  if (!r->pc || !r->np || !r->rlo || !r->rhi || !r->cand_of || !r->w) {
     reach_free(r);
     return SW_ENOMEM;
   }
-  for (g = 0; g < M0; g++)
-    r->ci[g] = last[(size_t)((double)g * (double)(groups - 1) / (double)(M0 - 1) + 0.5)];
-  for (g = 0; g < nextra; g++) {
-    size_t u = fit_upper(d, extra[g]);
-    r->ci[M0 + g] = u > 0 ? u - 1 : 0;
-  }
-  qsort(r->ci, r->M, sizeof *r->ci, cmp_size);
-  for (g = 0, M = 0; g < r->M; g++)
-    if (M == 0 || r->ci[g] > r->ci[M - 1]) r->ci[M++] = r->ci[g];
-  r->M = M;
-  r->ci[0] = 0; /* the start: a run from sample 0 takes every sample at x[0] */
   for (i = 0; i < d->n; i++) r->cand_of[i] = SIZE_MAX;
-  for (g = 0; g < M; g++) r->cand_of[r->ci[g]] = g;
-  free(last);
+  for (g = 0; g < r->M; g++) r->cand_of[r->ci[g]] = g;
+  return SW_OK;
+}
+
+int fit_reach_candidates(const fit_data *d, const double *extra, size_t nextra, double **xs,
+                         size_t *n, sw_err *err)
+{
+  size_t *ci, M, g;
+  int st = choose_candidates(d, extra, nextra, 1, &ci, &M, err);
+  *xs = NULL;
+  *n = 0;
+  if (st) return st;
+  *xs = sw_alloc(M, sizeof **xs, err);
+  if (!*xs) { free(ci); return SW_ENOMEM; }
+  for (g = 0; g < M; g++) (*xs)[g] = d->x[ci[g]];
+  *n = M;
+  free(ci);
   return SW_OK;
 }
 
@@ -137,14 +165,29 @@ static int last_bounds(const fit_cons *k, int first, double *smin, double *smax)
   return *smin != a || *smax != b;
 }
 
+static int reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, const double *extra,
+                 size_t nextra, int own, size_t *count, double *kx, double *ky, sw_err *err);
+
 int fit_reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, const double *extra,
               size_t nextra, size_t *count, double *kx, double *ky, sw_err *err)
+{
+  return reach(d, e, k, maxseg, extra, nextra, 1, count, kx, ky, err);
+}
+
+int fit_reach_among(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
+                    const double *cand, size_t ncand, size_t *count, sw_err *err)
+{
+  return reach(d, e, k, maxseg, cand, ncand, 0, count, NULL, NULL, err);
+}
+
+static int reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, const double *extra,
+                 size_t nextra, int own, size_t *count, double *kx, double *ky, sw_err *err)
 {
   reach_ws r;
   size_t level, j, M, fin;
   int st;
   *count = SIZE_MAX;
-  if ((st = reach_init(&r, d, extra, nextra, err))) return st;
+  if ((st = reach_init(&r, d, extra, nextra, own, err))) return st;
   M = r.M;
   fin = M - 1;
   r.np[0] = 1;

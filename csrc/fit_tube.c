@@ -34,6 +34,8 @@ typedef struct rec_list {
 } rec_list;
 
 #define BISECT_STEPS 64
+#define GUESS_MIN 16384     /* sample sets this long get a subset pre-pass */
+#define GUESS_SAMPLES 4096  /* about this many samples in that subset */
 
 static void recs_free(rec_list *r)
 {
@@ -364,13 +366,50 @@ static int greedy_candidates(const fit_data *d, double e, const fit_cons *k, tub
   return st;
 }
 
+/* Reachable sets on a subset of the samples with the candidate knots of
+ * the full search: any model the full data allow is allowed there too, so a level the subset cannot meet within
+ * maxseg segments is refuted for the full data, at a fraction of the cost. */
+static int reach_refuted_on_subset(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
+                                   const double *extra, size_t nextra, int *refuted, sw_err *err)
+{
+  fit_data s;
+  double *cx = NULL;
+  size_t nc, i, c = 0, step = d->n / GUESS_SAMPLES, m;
+  int st;
+  *refuted = 0;
+  memset(&s, 0, sizeof s);
+  if ((st = fit_reach_candidates(d, extra, nextra, &cx, &nc, err))) return st;
+  s.x = sw_alloc(d->n / step + nc * 4 + 2, sizeof(double), err);
+  s.y = sw_alloc(d->n / step + nc * 4 + 2, sizeof(double), err);
+  s.s = sw_alloc(d->n / step + nc * 4 + 2, sizeof(double), err);
+  if (!s.x || !s.y || !s.s) { st = SW_ENOMEM; goto done; }
+  for (i = 0; i < d->n; i++) {
+    int keep = i % step == 0 || i + 1 == d->n;
+    while (c < nc && cx[c] < d->x[i]) c++;
+    if (c < nc && cx[c] == d->x[i]) keep = 1; /* every sample at a candidate's x */
+    if (!keep) continue;
+    if (s.n == d->n / step + nc * 4 + 2) { *refuted = 0; goto done; } /* crowded x: no shortcut */
+    s.x[s.n] = d->x[i]; s.y[s.n] = d->y[i]; s.s[s.n] = d->s[i]; s.n++;
+  }
+  if ((st = fit_reach_among(&s, e, k, maxseg, cx, nc, &m, err))) goto done;
+  *refuted = m == SIZE_MAX || m > maxseg;
+done:
+  free(cx);
+  free(s.x); free(s.y); free(s.s);
+  return st;
+}
+
 static int reach_with_greedy(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
                              tube_ws *w, size_t *m, double *kx, double *ky, sw_err *err)
 {
   double *xs;
   size_t nx;
-  int st = greedy_candidates(d, e, k, w, &xs, &nx, err);
-  if (!st) st = fit_reach(d, e, k, maxseg, xs, nx, m, kx, ky, err);
+  int st = greedy_candidates(d, e, k, w, &xs, &nx, err), refuted = 0;
+  if (!st && !kx && d->n >= GUESS_MIN) {
+    st = reach_refuted_on_subset(d, e, k, maxseg, xs, nx, &refuted, err);
+    if (!st && refuted) *m = SIZE_MAX;
+  }
+  if (!st && !refuted) st = fit_reach(d, e, k, maxseg, xs, nx, m, kx, ky, err);
   free(xs);
   return st;
 }
@@ -476,8 +515,6 @@ static int count_at(const fit_data *d, double e, int continuous, const fit_cons 
  * (GUESS_SAMPLES of them), and the full data then only bracket that guess:
  * a dozen passes over all samples instead of forty.  Every decision is
  * still taken on the full data, so the guess affects the time only. */
-#define GUESS_MIN 16384
-#define GUESS_SAMPLES 4096
 
 static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
                        tube_ws *w, double rtol, double *g, sw_err *err)
