@@ -633,7 +633,10 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
     lower = elo; /* the discontinuous bound holds for every continuous model */
     gl = elo;    /* and for the continuous greedy */
     if (use_greedy) {
-      for (tries = 0; tries < 200; tries++) {
+      int gknown = 0;
+      if ((st = level_guess(d, nseg, 1, k, &w, 1e-8, &g, err))) goto done;
+      if (g > 0 && (st = bracket_guess(d, nseg, 1, k, &w, g, &gl, &eg, &gknown, err))) goto done;
+      for (tries = 0; !gknown && tries < 200; tries++) {
         m = greedy(d, eg, 1, k, nseg, &w, NULL, &st, err);
         if (st) goto done;
         if (m <= nseg) break;
