@@ -539,14 +539,14 @@ static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit
     s.x[s.n] = d->x[d->n - 1]; s.y[s.n] = d->y[d->n - 1]; s.s[s.n] = d->s[d->n - 1]; s.n++;
   }
   ehi = fit_start_level(&s);
-  for (tries = 0; tries < 200; tries++) {
+  for (tries = 0; tries < 200 && sw_isfinite(ehi); tries++) {
     m = greedy(&s, ehi, continuous, k, nseg, w, NULL, &st, err);
     if (st) goto done;
     if (m <= nseg) break;
     elo = ehi;
     ehi *= 2;
   }
-  if (tries == 200) goto done; /* no guess: the full search decides */
+  if (tries == 200 || !sw_isfinite(ehi)) goto done; /* no guess: the full search decides */
   for (it = 0; it < BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
     double mid = 0.5 * (elo + ehi);
     m = greedy(&s, mid, continuous, k, nseg, w, NULL, &st, err);
