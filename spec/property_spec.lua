@@ -354,6 +354,30 @@ describe("segwise properties", function()
         end
         assert.is_true(checked >= 45, "only " .. checked .. " of 60 fits succeeded")
       end)
+
+      -- Long sample sets take shortcuts (a level search on a subset first;
+      -- csrc/fit_tube.c): they must not change the answer.  Optimality of
+      -- the n-segment minimax level E (the fewest-segments argument): within
+      -- 0.1 % below E the fewest-segment fit needs more than n segments,
+      -- within 0.1 % above it needs at most n.  20001 samples of a curve
+      -- with an inflection, so the continuous search is the reachable-set one.
+      it("optimal minimax levels on 20001 samples are tight from both sides", function()
+        local n = 20001
+        local xs, ys = sw.array(n), sw.array(n)
+        for i = 1, n do
+          local x = 3 * (i - 1) / (n - 1)
+          xs[i], ys[i] = x, math.sin(4 * x) + 0.3 * x
+        end
+        local c = sw.curve.samples(xs, ys)
+        for _, case in ipairs { { true, 11 }, { false, 6 }, { false, 11 } } do
+          local cont, segs = case[1], case[2]
+          local E = sw.fit(c, { segments = segs, continuous = cont }):fit_info().max_abs
+          local below = sw.fit(c, { tol = E * (1 - 1e-3), continuous = cont }):nseg()
+          local above = sw.fit(c, { tol = E * (1 + 1e-3), continuous = cont }):nseg()
+          assert.are.equal(segs + 1, below, ("continuous %s, %d segments"):format(tostring(cont), segs))
+          assert.are.equal(segs, above, ("continuous %s, %d segments"):format(tostring(cont), segs))
+        end
+      end)
     end)
   end
 end)
