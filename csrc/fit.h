@@ -125,6 +125,13 @@ int fit_tube_init(fit_tube *w, size_t n, sw_err *err);
 void fit_tube_clear(fit_tube *w);
 /* A level every constant line at the data's centre meets (bisection start). */
 double fit_start_level(const fit_data *d);
+/* Next level to try between an infeasible elo and a feasible ehi: the
+ * middle, or the geometric middle (ehi / 1024 while elo is 0) when the two
+ * are decades apart, so a start level far above the answer (a tiny
+ * rel_floor puts it near 1e300) costs tens of steps, not hundreds. */
+double fit_mid_level(double elo, double ehi);
+/* Cap on the steps of a level bisection (a safeguard; none comes near). */
+#define FIT_BISECT_STEPS 400
 
 /* Tube methods (fit_tube.c, fit_interp.c). */
 fit_tube *fit_tube_new(size_t n, sw_err *err);

@@ -7,7 +7,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define BISECT_STEPS 64
 
 /* Greedy farthest chord at level e; knots (sample indices) into idx when
  * given.  Returns the count, stopping once above maxseg. */
@@ -77,8 +76,8 @@ int fit_interp_count(const fit_data *d, size_t nseg, sw_pwl *out, double *e_out,
       return sw_err_set(err, SW_ERANGE, "no chord model with %zu segments at any finite error level", nseg);
     }
   }
-  for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-10 * ehi; it++) {
-    double mid = 0.5 * (elo + ehi);
+  for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > 1e-10 * ehi; it++) {
+    double mid = fit_mid_level(elo, ehi);
     if (chord_greedy(d, mid, nseg, NULL) <= nseg) ehi = mid; else elo = mid;
   }
   *iters += it;

@@ -33,7 +33,6 @@ typedef struct rec_list {
   double *pa, *ps;
 } rec_list;
 
-#define BISECT_STEPS 64
 #define GUESS_MIN 16384     /* sample sets this long get a subset pre-pass */
 #define GUESS_SAMPLES 4096  /* about this many samples in that subset */
 
@@ -182,6 +181,13 @@ static size_t greedy(const fit_data *d, double e, int continuous, const fit_cons
     if (continuous) value_range(&w->P, d->x[q] - d->x[p], &alo, &ahi);
     p = fit_lower(d, d->x[q]);
   }
+}
+
+double fit_mid_level(double elo, double ehi)
+{
+  if (elo <= 0) return ehi > 1e-300 ? ehi / 1024 : 0; /* 0: an exact fit ends the search */
+  if (ehi > 4 * elo) return sqrt(elo) * sqrt(ehi);
+  return 0.5 * (elo + ehi);
 }
 
 /* Deviation bound: a constant line at the centre is within it. */
@@ -547,8 +553,8 @@ static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit
     ehi *= 2;
   }
   if (tries == 200 || !sw_isfinite(ehi)) goto done; /* no guess: the full search decides */
-  for (it = 0; it < BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
-    double mid = 0.5 * (elo + ehi);
+  for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
+    double mid = fit_mid_level(elo, ehi);
     m = greedy(&s, mid, continuous, k, nseg, w, NULL, &st, err);
     if (st) goto done;
     if (m <= nseg) ehi = mid; else elo = mid;
@@ -623,8 +629,8 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
     int use_greedy = !(k && k->has_last), known;
     if ((st = level_guess(d, nseg, 0, NULL, &w, 1e-5, &g, err))) goto done;
     if (g > 0 && (st = bracket_guess(d, nseg, 0, NULL, &w, g, &elo, &ehi, &known, err))) goto done;
-    for (it = 0; it < BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
-      double mid = 0.5 * (elo + ehi);
+    for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
+      double mid = fit_mid_level(elo, ehi);
       if ((st = count_at(d, mid, 0, NULL, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = mid; else elo = mid;
     }
@@ -643,8 +649,8 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
         gl = eg;
         eg *= 2;
       }
-      for (it = 0; tries < 200 && it < BISECT_STEPS && eg - gl > 1e-6 * eg; it++) {
-        double mid = 0.5 * (gl + eg);
+      for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && eg - gl > 1e-6 * eg; it++) {
+        double mid = fit_mid_level(gl, eg);
         m = greedy(d, mid, 1, k, nseg, &w, NULL, &st, err);
         if (st) goto done;
         if (m <= nseg) eg = mid; else gl = mid;
@@ -665,8 +671,8 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
       if ((st = count_at(d, probe, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = probe; else elo = probe;
     }
-    for (it = 0; tries < 200 && it < BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
-      double mid = 0.5 * (elo + ehi);
+    for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
+      double mid = fit_mid_level(elo, ehi);
       if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = mid; else elo = mid;
     }
@@ -682,8 +688,8 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
       elo = ehi;
       ehi *= 2;
     }
-    for (it = 0; tries < 200 && it < BISECT_STEPS && ehi - elo > 1e-7 * ehi; it++) {
-      double mid = 0.5 * (elo + ehi);
+    for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && ehi - elo > 1e-7 * ehi; it++) {
+      double mid = fit_mid_level(elo, ehi);
       if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = mid; else elo = mid;
     }
@@ -806,8 +812,8 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
   if (tries == 200)
     return sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
                       "be met with these knots");
-  for (it = 0; it < BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
-    double mid = 0.5 * (elo + ehi);
+  for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
+    double mid = fit_mid_level(elo, ehi);
     if ((st = chain(d, mid, pi, qi, nseg, kp, w, NULL, &feas, err))) return st;
     if (feas) ehi = mid; else elo = mid;
   }

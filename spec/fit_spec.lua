@@ -214,6 +214,21 @@ describe("segwise.fit", function()
       end)
     end
 
+    -- a tiny rel_floor puts the level search's start near 1e300 times the
+    -- answer; the search must still converge (it once stopped 60 decades off)
+    it("relative fits converge whatever the rel_floor", function()
+      local c = sw.curve.diode { is = 1e-12, n = 1.5, vt = 0.025 }
+      local function rel(floor)
+        return sw.fit(c, { lo = 0, hi = 0.7, segments = 4, knots = "uniform", error = "rel", rel_floor = floor })
+          :fit_info().max_rel
+      end
+      -- both floors sit far below every |i| but the one at 0 V, where the
+      -- model must pass through 0 either way: the same fit
+      local a, b = rel(1e-30), rel(1e-100)
+      assert.is_true(a < 1, a)
+      assert.near(a, b, 1e-6 * a)
+    end)
+
     it("max_segments needs tol and a positive integer", function()
       assert.has_error(function() sw.fit(diode(), { lo = 0.3, hi = 0.8, segments = 3, max_segments = 5 }) end,
         "segwise.fit: max_segments goes with tol (a cap on the fewest-segment search)")
