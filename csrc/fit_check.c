@@ -51,15 +51,39 @@ static int golden_max(const probe *p, double a, double b, double *best, double *
   return SW_OK;
 }
 
+/* The ends of each segment's own line: a model that jumps at a knot takes
+ * one side's value there, but the error next to the knot on the other side
+ * comes as close as one likes to that line's error at the knot. */
+static int segment_ends(const sw_pwl *m, const sw_curve *c, size_t k, double a, double b,
+                        double rel_floor, int rel_ok, sw_compare *cmp, sw_err *err)
+{
+  int end;
+  for (end = 0; end < 2; end++) {
+    double x = end ? b : a, f, d;
+    int st = sw_curve_eval(c, x, &f, err);
+    if (st) return st;
+    d = fabs(sw_pwl_line(m, k, x) - f);
+    if (d > cmp->max_abs) { cmp->max_abs = d; cmp->x_abs = x; }
+    if (rel_ok && (rel_floor > 0 || f != 0)) {
+      double r = d / (fabs(f) > rel_floor ? fabs(f) : rel_floor);
+      if (r > cmp->max_rel) { cmp->max_rel = r; cmp->x_rel = x; }
+    }
+  }
+  return SW_OK;
+}
+
 int fit_recheck(const sw_pwl *m, const sw_curve *c, double lo, double hi, size_t n,
                 double rel_floor, sw_compare *cmp, sw_err *err)
 {
   size_t k;
   int st = sw_pwl_compare(m, c, lo, hi, n, rel_floor, cmp, err), rel, sign;
+  /* sampled curves: the error is the one at the samples (as m:compare's) */
   if (st || c->kind == SW_CURVE_SAMPLES) return st;
   for (k = 0; k < m->nseg; k++) {
     double a = m->x[k] > lo ? m->x[k] : lo, b = m->x[k + 1] < hi ? m->x[k + 1] : hi;
     if (!(b > a)) continue;
+    if ((st = segment_ends(m, c, k, a, b, rel_floor > 0 ? rel_floor : 0, !cmp->rel_undefined, cmp, err)))
+      return st;
     for (rel = 0; rel <= (cmp->rel_undefined ? 0 : 1); rel++)
       for (sign = -1; sign <= 1; sign += 2) {
         probe p;
