@@ -33,8 +33,10 @@ typedef struct rec_list {
   double *pa, *ps;
 } rec_list;
 
+#ifndef GUESS_MIN            /* the C-level tests lower both to reach the paths */
 #define GUESS_MIN 16384     /* sample sets this long get a subset pre-pass */
 #define GUESS_SAMPLES 4096  /* about this many samples in that subset */
+#endif
 
 static void recs_free(rec_list *r)
 {
@@ -372,30 +374,47 @@ static int greedy_candidates(const fit_data *d, double e, const fit_cons *k, tub
   return st;
 }
 
+/* Subsets of the samples for the shortcuts below (x, y, s only). */
+static int subset_alloc(fit_data *s, size_t cap, sw_err *err)
+{
+  memset(s, 0, sizeof *s);
+  s->x = sw_alloc(cap, sizeof(double), err);
+  s->y = sw_alloc(cap, sizeof(double), err);
+  s->s = sw_alloc(cap, sizeof(double), err);
+  return s->x && s->y && s->s ? SW_OK : SW_ENOMEM;
+}
+
+static void subset_take(fit_data *s, const fit_data *d, size_t i)
+{
+  s->x[s->n] = d->x[i];
+  s->y[s->n] = d->y[i];
+  s->s[s->n] = d->s[i];
+  s->n++;
+}
+
 /* Reachable sets on a subset of the samples with the candidate knots of
- * the full search: any model the full data allow is allowed there too, so a level the subset cannot meet within
- * maxseg segments is refuted for the full data, at a fraction of the cost. */
+ * the full search: any model the full data allow is allowed there too, so
+ * a level the subset cannot meet within maxseg segments is refuted for the
+ * full data, at a fraction of the cost. */
 static int reach_refuted_on_subset(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
                                    const double *extra, size_t nextra, int *refuted, sw_err *err)
 {
   fit_data s;
   double *cx = NULL;
-  size_t nc, i, c = 0, step = d->n / GUESS_SAMPLES, m;
+  size_t nc, i, c = 0, step = d->n / GUESS_SAMPLES, m, cap;
   int st;
   *refuted = 0;
   memset(&s, 0, sizeof s);
   if ((st = fit_reach_candidates(d, extra, nextra, &cx, &nc, err))) return st;
-  s.x = sw_alloc(d->n / step + nc * 4 + 2, sizeof(double), err);
-  s.y = sw_alloc(d->n / step + nc * 4 + 2, sizeof(double), err);
-  s.s = sw_alloc(d->n / step + nc * 4 + 2, sizeof(double), err);
-  if (!s.x || !s.y || !s.s) { st = SW_ENOMEM; goto done; }
+  cap = d->n / step + nc * 4 + 2;
+  if ((st = subset_alloc(&s, cap, err))) goto done;
   for (i = 0; i < d->n; i++) {
     int keep = i % step == 0 || i + 1 == d->n;
     while (c < nc && cx[c] < d->x[i]) c++;
     if (c < nc && cx[c] == d->x[i]) keep = 1; /* every sample at a candidate's x */
     if (!keep) continue;
-    if (s.n == d->n / step + nc * 4 + 2) { *refuted = 0; goto done; } /* crowded x: no shortcut */
-    s.x[s.n] = d->x[i]; s.y[s.n] = d->y[i]; s.s[s.n] = d->s[i]; s.n++;
+    if (s.n == cap) goto done; /* x crowded at the candidates: no shortcut */
+    subset_take(&s, d, i);
   }
   if ((st = fit_reach_among(&s, e, k, maxseg, cx, nc, &m, err))) goto done;
   *refuted = m == SIZE_MAX || m > maxseg;
@@ -532,18 +551,9 @@ static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit
   *g = 0;
   if (d->n < GUESS_MIN) return SW_OK;
   step = d->n / GUESS_SAMPLES;
-  memset(&s, 0, sizeof s);
-  m = (d->n - 1) / step + 2;
-  s.x = sw_alloc(m, sizeof(double), err);
-  s.y = sw_alloc(m, sizeof(double), err);
-  s.s = sw_alloc(m, sizeof(double), err);
-  if (!s.x || !s.y || !s.s) { st = SW_ENOMEM; goto done; }
-  for (i = 0; i < d->n; i += step) {
-    s.x[s.n] = d->x[i]; s.y[s.n] = d->y[i]; s.s[s.n] = d->s[i]; s.n++;
-  }
-  if (s.x[s.n - 1] < d->x[d->n - 1]) {
-    s.x[s.n] = d->x[d->n - 1]; s.y[s.n] = d->y[d->n - 1]; s.s[s.n] = d->s[d->n - 1]; s.n++;
-  }
+  if ((st = subset_alloc(&s, (d->n - 1) / step + 2, err))) goto done;
+  for (i = 0; i < d->n; i += step) subset_take(&s, d, i);
+  if (s.x[s.n - 1] < d->x[d->n - 1]) subset_take(&s, d, d->n - 1);
   ehi = fit_start_level(&s);
   for (tries = 0; tries < 200 && sw_isfinite(ehi); tries++) {
     m = greedy(&s, ehi, continuous, k, nseg, w, NULL, &st, err);

@@ -330,6 +330,33 @@ done:
   sw_curve_free(&d); sw_curve_free(&s);
   return rc;
 }
+
+/* A longer sample set with an inflection: the level searches' subset
+ * shortcuts (csrc/fit_tube.c; this test's build starts them at 64 samples)
+ * run, continuous and not. */
+static int sc_fit_long(double *fp, sw_err *err)
+{
+  enum { N = 301 };
+  double *x = malloc(N * sizeof *x), *y = malloc(N * sizeof *y);
+  sw_curve s;
+  sw_fit_opts o;
+  size_t i;
+  int rc, cont;
+  memset(&s, 0, sizeof s);
+  *fp = 0;
+  if (!x || !y) { rc = sw_err_set(err, SW_ENOMEM, "test data"); goto done; }
+  for (i = 0; i < N; i++) { x[i] = 3.0 * (double)i / (N - 1); y[i] = sin(4 * x[i]) + 0.3 * x[i]; }
+  if ((rc = sw_curve_samples(&s, x, y, N, 0, 0, err))) goto done;
+  for (cont = 0; cont <= 1; cont++) {
+    sw_fit_opts_init(&o);
+    o.lo = 0; o.hi = 3; o.segments = 6; o.knots = SW_KNOTS_OPTIMAL; o.continuous = cont;
+    if ((rc = fit_one(&s, &o, fp, err))) goto done;
+  }
+done:
+  free(x); free(y);
+  sw_curve_free(&s);
+  return rc;
+}
 #endif
 
 #ifdef HAVE_NET
@@ -523,6 +550,7 @@ int main(void)
 #endif
 #ifdef HAVE_FIT
   RUN(sc_fit);
+  RUN(sc_fit_long);
 #endif
 #ifdef HAVE_NET
   RUN(sc_net);
