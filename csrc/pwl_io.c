@@ -132,8 +132,10 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
         size_t klen = (size_t)(v - q);
         v++;
         ve = p + n;
-        while (v < ve && (*v == ' ' || *v == '\t')) v++;
-        while (ve > v && (ve[-1] == ' ' || ve[-1] == '\t' || ve[-1] == '\r')) ve--;
+        /* blanks and control bytes (a stray CR) around a value are not
+         * part of it, so what loads is what a save writes back */
+        while (v < ve && (*v == ' ' || (unsigned char)*v < 0x20)) v++;
+        while (ve > v && (ve[-1] == ' ' || (unsigned char)ve[-1] < 0x20)) ve--;
         if (klen == 6 && memcmp(q, "extend", 6) == 0) {
           int k, found = 0;
           for (k = 0; k < 3; k++)

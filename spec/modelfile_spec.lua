@@ -98,6 +98,17 @@ describe("segwise.pwl.load and model:save", function()
       assert.are.equal("a b", xu2)
       m2:save(path, { x_unit = xu2 })
     end)
+
+    -- fuzzer find: a CR right after "x unit:" loaded as a leading blank,
+    -- which the next save and load dropped, so the units changed
+    it("load what a save writes back when control bytes edge a unit", function()
+      local _, xu = sw.pwl.load(write("edge.csv", "# x unit:\r(V\t)\t\tby\r\nx,y_left,y_right\n0,0,0\n1,1,1\n"))
+      assert.are.equal("(V\t)\t\tby", xu)
+      local m = sw.pwl { x = { 0, 1 }, y = { 0, 1 } }
+      m:save(dir .. "/edge2.csv", { x_unit = xu })
+      local _, again = sw.pwl.load(dir .. "/edge2.csv")
+      assert.are.equal(xu, again)
+    end)
   end)
 
   describe("file layout", function()
