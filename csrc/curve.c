@@ -206,7 +206,10 @@ static int diode_i_of_v(const sw_curve *c, double v, double *iout, sw_err *err)
     int st = lambert_w0_exp(L, &w, err), k;
     if (st) return st;
     i = nvt / c->rs * w - c->is;
-    for (k = 0; k < 2; k++) {
+    /* the polish needs v - i*rs to within a small part of n*Vt; far above
+     * a million n*Vt rounding in that difference exceeds n*Vt itself (once
+     * it sent i to 0 at 9e20 V), while the closed form is exact there */
+    for (k = 0; k < 2 && fabs(v) < 1e6 * nvt; k++) {
       double e = exp((v - i * c->rs) / nvt);
       double g = i - c->is * (e - 1.0), dg = 1.0 + c->is * e * c->rs / nvt;
       if (!sw_isfinite(g) || !sw_isfinite(dg)) break;

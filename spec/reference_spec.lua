@@ -36,6 +36,23 @@ describe("segwise reference checks", function()
     end
   end)
 
+  it("the diode law keeps the implicit equation far up the resistive branch", function()
+    -- Same implicit Shockley equation, written for v: v = i Rs + n Vt ln(1 + i/Is),
+    -- which has no cancellation at large i.  A fuzzer find: at 9e20 V the
+    -- Newton polish once cancelled v - i Rs to noise and returned i = 0.
+    local is, n, rs = 7.3e-13, 1.72, 0.72
+    local nvt = n * sw.thermal_voltage(300)
+    local c = sw.curve.diode { is = is, n = n, rs = rs }
+    local last = -math.huge
+    for e = 0, 21, 0.5 do
+      local v = 10 ^ e
+      local i = c(v)
+      assert.is_true(i > last, "not increasing at v = " .. v)
+      last = i
+      assert.is.near(v, i * rs + nvt * math.log(1 + i / is), 1e-12 * v)
+    end
+  end)
+
   it("broken-line interpolation error of x^2 is h^2/8 max|f''|, attained", function()
     -- Source: de Boor, A Practical Guide to Splines, the error bound of
     -- broken-line interpolation ||f - I f|| <= h^2/8 ||f''||; for f = x^2
