@@ -33,10 +33,12 @@ $(FUZZ_DIR)/core/%.o: csrc/%.c $(wildcard csrc/*.h)
 	@mkdir -p $(dir $@)
 	$(FUZZ_CC) $(FUZZ_CFLAGS) -fsanitize=fuzzer-no-link,address,undefined -fno-sanitize-recover=undefined $(FUZZ_CMP) -c $< -o $@
 
-# The feasible-line polygon's inner loops compare doubles millions of times
-# a fit; tracing those comparisons made some fits 40x slower under the
-# fuzzer and guides nothing (they are geometry, not input parsing).
-$(FUZZ_DIR)/core/fit_poly.o: FUZZ_CMP := -fno-sanitize-coverage=trace-cmp
+# The feasible-line polygon's inner loops and the searches around them
+# compare doubles millions of times a fit; tracing those comparisons made
+# some fits 40x slower under the fuzzer and guides nothing (they are
+# geometry, not input parsing).
+$(FUZZ_DIR)/core/fit_poly.o $(FUZZ_DIR)/core/fit_tube.o $(FUZZ_DIR)/core/fit_reach.o: \
+  FUZZ_CMP := -fno-sanitize-coverage=trace-cmp
 
 # An archive, so each harness pulls only the core objects it needs.
 $(FUZZ_LIB): $(FUZZ_OBJ)
