@@ -868,14 +868,21 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
       goto done;
     if (*e_out == INFINITY) goto done; /* capped: nothing below e_hi */
   } else {
-    /* segments are independent: each gets its own smallest level */
+    /* segments are independent: each gets its own smallest level (not
+     * below e_lo when a bracket is given: a segment already within e_lo
+     * needs no bisection, which would only close in on e_lo) */
     for (j = 0; j < nseg; j++) {
       double ej;
+      int feas = 0;
       fit_cons kk = k ? *k : (fit_cons){0, 0, 0, 0, 0};
       kk.has_first = k && k->has_first && j == 0;
       kk.has_last = k && k->has_last && j == nseg - 1;
-      if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, e_lo, e_hi, rtol, capped, &ej,
-                             iters, err)))
+      if (e_lo > 0 && e_hi > 0 &&
+          (st = chain(d, e_lo, pi + j, qi + j, 1, &kk, &w, &one, &feas, err)))
+        goto done;
+      if (feas) ej = e_lo;
+      else if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, e_lo, e_hi, rtol, capped, &ej,
+                                  iters, err)))
         goto done;
       if (ej > *e_out) *e_out = ej;
       if (ej == INFINITY) goto done; /* capped: nothing below e_hi */
