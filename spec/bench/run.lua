@@ -6,7 +6,7 @@
 package.path = "./spec/bench/?.lua;" .. package.path
 local B = require "benchlib"
 
-local sections = { "eval", "memory", "sweep", "ladder", "fit" }
+local sections = { "eval", "memory", "sweep", "ladder", "capacity", "fit" }
 local chosen = {}
 if #arg > 0 then
   for _, s in ipairs(arg) do chosen[s] = true end
