@@ -486,73 +486,133 @@ static void parse_quant(lua_State *L, const sw_net *net, int j, const char *s, s
 /* n:sweep_arrays(name, values, start, max_states, out, lowrank)
  * -> {[k] = array, [out[k]] = array, iterations=, lowrank_updates=,
  *     refactors=, fallbacks=, warnings = {{device=, kind=, indices=}...}} */
+/* The result table of an array loop: for each name in the list at index
+ * outidx, an array of n values, at res[j] and res[name]; *q the parsed
+ * quantities.  Leaves res on the stack and returns its index. */
+static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_points, const char *fname,
+                             sw_net_quant **q, size_t *nq)
+{
+  size_t j;
+  int res;
+  luaL_checktype(L, outidx, LUA_TTABLE);
+  *nq = (size_t)luaL_len(L, outidx);
+  if (*nq == 0) return luaL_error(L, "segwise.network:%s: out must list at least one quantity", fname);
+  *q = lua_newuserdatauv(L, *nq * sizeof **q, 0);
+  lua_createtable(L, (int)*nq, (int)*nq + 6);
+  res = lua_gettop(L);
+  for (j = 0; j < *nq; j++) {
+    lsw_array *a;
+    lua_geti(L, outidx, (lua_Integer)j + 1);
+    if (lua_type(L, -1) != LUA_TSTRING)
+      return luaL_error(L, "segwise.network:%s: out[%d] must be a string (got %s)", fname, (int)j + 1,
+                        luaL_typename(L, -1));
+    parse_quant(L, &n->net, (int)j + 1, lua_tostring(L, -1), &(*q)[j]);
+    a = lsw_newarray(L, n_points);
+    (*q)[j].out = a->data;
+    lua_pushvalue(L, -1);
+    lua_rawseti(L, res, (lua_Integer)j + 1);
+    lua_rawset(L, res);  /* res[name] = array */
+  }
+  return res;
+}
+
+/* The counters and the warnings of an array loop into res: warnings
+ * grouped by device and kind, indices 1-based in point order. */
+static void push_loop_info(lua_State *L, lsw_net *n, int res, const sw_net_sweep_info *info)
+{
+  size_t m = n->net.ndev, w, g, *count;
+  int list, nl = 0;
+  lua_pushinteger(L, (lua_Integer)info->iterations); lua_setfield(L, res, "iterations");
+  lua_pushinteger(L, (lua_Integer)info->updates); lua_setfield(L, res, "lowrank_updates");
+  lua_pushinteger(L, (lua_Integer)info->refactors); lua_setfield(L, res, "refactors");
+  lua_pushinteger(L, (lua_Integer)info->fallbacks); lua_setfield(L, res, "fallbacks");
+  count = lua_newuserdatauv(L, 2 * (m ? m : 1) * sizeof *count, 0);
+  memset(count, 0, 2 * (m ? m : 1) * sizeof *count);
+  for (w = 0; w < info->nwarn; w++) count[2 * info->warn[w].dev + (size_t)info->warn[w].kind]++;
+  lua_newtable(L);
+  list = lua_gettop(L);
+  for (g = 0; g < 2 * m; g++) {
+    lsw_array *a;
+    size_t dev = g / 2, pos = 0;
+    if (count[g] == 0) continue;
+    lua_createtable(L, 0, 4);
+    lua_pushstring(L, n->net.el[n->net.dev[dev].el].name); lua_setfield(L, -2, "device");
+    lua_pushstring(L, g % 2 == SW_NW_RANGE ? "range" : "pmax"); lua_setfield(L, -2, "kind");
+    a = lsw_newarray(L, count[g]);
+    for (w = 0; w < info->nwarn; w++)
+      if (2 * info->warn[w].dev + (size_t)info->warn[w].kind == g) a->data[pos++] = (double)info->warn[w].index + 1;
+    lua_setfield(L, -2, "indices");
+    lua_rawseti(L, list, ++nl);
+  }
+  lua_setfield(L, res, "warnings");
+  lua_pop(L, 1); /* count */
+}
+
 static int l_sweep_arrays(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
-  size_t nv, el, nq, j, w, m;
+  size_t nv, el, nq;
   const double *vals;
   double max_states;
   int *start = NULL, rc, res;
-  sw_net_quant *q;
-  size_t *count;
+  sw_net_quant *q = NULL;
   lsw_hold *h;
   sw_err err = { 0, "" };
+  nq = 0;
   lua_settop(L, 7);
   vals = sweep_values(L, 3, &nv);
   max_states = luaL_optnumber(L, 5, 1e6);
   luaL_checktype(L, 6, LUA_TTABLE);
   el = sweep_target(L, n, &start);
-  m = n->net.ndev;
-  nq = (size_t)luaL_len(L, 6);
-  if (nq == 0) return luaL_error(L, "segwise.network:sweep: out must list at least one quantity");
-  q = lua_newuserdatauv(L, nq * sizeof *q, 0);
-  lua_createtable(L, (int)nq, (int)nq + 6);
-  res = lua_gettop(L);
-  for (j = 0; j < nq; j++) {
-    lsw_array *a;
-    lua_geti(L, 6, (lua_Integer)j + 1);
-    if (lua_type(L, -1) != LUA_TSTRING) return luaL_error(L, "segwise.network:sweep: out[%d] must be a string (got %s)", (int)j + 1, luaL_typename(L, -1));
-    parse_quant(L, &n->net, (int)j + 1, lua_tostring(L, -1), &q[j]);
-    a = lsw_newarray(L, nv);
-    q[j].out = a->data;
-    lua_pushvalue(L, -1);
-    lua_rawseti(L, res, (lua_Integer)j + 1);
-    lua_rawset(L, res);  /* res[name] = array */
-  }
+  res = push_quant_arrays(L, n, 6, nv, "sweep", &q, &nq);
   h = new_hold(L);
   n->net.refactor_always = lua_isboolean(L, 7) && !lua_toboolean(L, 7);
   rc = sw_net_sweep_arrays(&n->net, el, vals, nv, start, max_states, q, nq, &h->sweep, &err);
   n->net.refactor_always = 0;
   if (rc) return lsw_raise(L, "network:sweep", &err);
-  lua_pushinteger(L, (lua_Integer)h->sweep.iterations); lua_setfield(L, res, "iterations");
-  lua_pushinteger(L, (lua_Integer)h->sweep.updates); lua_setfield(L, res, "lowrank_updates");
-  lua_pushinteger(L, (lua_Integer)h->sweep.refactors); lua_setfield(L, res, "refactors");
-  lua_pushinteger(L, (lua_Integer)h->sweep.fallbacks); lua_setfield(L, res, "fallbacks");
-  /* warnings grouped by device and kind, indices 1-based in point order */
-  count = lua_newuserdatauv(L, 2 * (m ? m : 1) * sizeof *count, 0);
-  memset(count, 0, 2 * (m ? m : 1) * sizeof *count);
-  for (w = 0; w < h->sweep.nwarn; w++) count[2 * h->sweep.warn[w].dev + (size_t)h->sweep.warn[w].kind]++;
-  lua_newtable(L);
-  {
-    int list = lua_gettop(L), nl = 0;
-    size_t g;
-    for (g = 0; g < 2 * m; g++) {
-      lsw_array *a;
-      size_t dev = g / 2, pos = 0;
-      if (count[g] == 0) continue;
-      lua_createtable(L, 0, 4);
-      lua_pushstring(L, n->net.el[n->net.dev[dev].el].name); lua_setfield(L, -2, "device");
-      lua_pushstring(L, g % 2 == SW_NW_RANGE ? "range" : "pmax"); lua_setfield(L, -2, "kind");
-      a = lsw_newarray(L, count[g]);
-      for (w = 0; w < h->sweep.nwarn; w++)
-        if (2 * h->sweep.warn[w].dev + (size_t)h->sweep.warn[w].kind == g) a->data[pos++] = (double)h->sweep.warn[w].index + 1;
-      lua_setfield(L, -2, "indices");
-      lua_rawseti(L, list, ++nl);
-    }
-    lua_setfield(L, res, "warnings");
-  }
+  push_loop_info(L, n, res, &h->sweep);
   lua_pushvalue(L, res);
   return 1;
+}
+
+/* The arguments both Monte Carlo forms share: (n, names, tols, gauss,
+ * runs, seed) at stack indices 1..6. */
+typedef struct mc_args {
+  size_t k, runs;
+  size_t *el;
+  double *tol;
+  int *gauss;
+  lua_Integer seed;
+} mc_args;
+
+static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
+{
+  size_t nt, q;
+  lua_Integer nr = luaL_checkinteger(L, 5);
+  a->seed = luaL_checkinteger(L, 6);
+  luaL_checktype(L, 2, LUA_TTABLE);
+  luaL_checktype(L, 4, LUA_TTABLE);
+  a->k = (size_t)luaL_len(L, 2);
+  a->tol = lsw_checkdoubles(L, 3, "tol", &nt, 0);
+  if (nt != a->k || a->k == 0)
+    luaL_error(L, "segwise.network:montecarlo: %d names but %d tolerances", (int)a->k, (int)nt);
+  if (nr < 1 || nr > 100000000)
+    luaL_error(L, "segwise.network:montecarlo: runs must be in 1..1e8 (got %d)", (int)nr);
+  a->runs = (size_t)nr;
+  a->el = lua_newuserdatauv(L, a->k * sizeof *a->el, 0);
+  a->gauss = lua_newuserdatauv(L, a->k * sizeof *a->gauss, 0);
+  for (q = 0; q < a->k; q++) {
+    const char *name;
+    lua_geti(L, 2, (lua_Integer)q + 1);
+    name = luaL_checkstring(L, -1);
+    a->el[q] = sw_net_find(&n->net, name);
+    if (a->el[q] == SW_NET_NONE || n->net.el[a->el[q]].kind == SW_NET_DEV)
+      luaL_error(L, "segwise.network:montecarlo: no source, gain or resistor named '%s'", name);
+    lua_pop(L, 1);
+    lua_geti(L, 4, (lua_Integer)q + 1);
+    a->gauss[q] = lua_toboolean(L, -1);
+    lua_pop(L, 1);
+  }
 }
 
 /* n:montecarlo(names, tols, gauss, runs, seed, max_states) -> list of ops,
@@ -560,40 +620,20 @@ static int l_sweep_arrays(lua_State *L)
 static int l_montecarlo(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
-  size_t k, nt, q, r, runs;
-  double *tol;
-  lua_Integer nr = luaL_checkinteger(L, 5), seed = luaL_checkinteger(L, 6);
-  double max_states = luaL_optnumber(L, 7, 1e6), *drawn;
+  size_t k, q, r, runs;
+  double max_states = luaL_optnumber(L, 7, 1e6), *drawn, *tol;
   size_t *el;
   int *gauss;
   lsw_hold *h;
+  mc_args a;
   sw_err err = { 0, "" };
-  luaL_checktype(L, 2, LUA_TTABLE);
-  luaL_checktype(L, 4, LUA_TTABLE);
-  k = (size_t)luaL_len(L, 2);
-  tol = lsw_checkdoubles(L, 3, "tol", &nt, 0);
-  if (nt != k || k == 0) return luaL_error(L, "segwise.network:montecarlo: %d names but %d tolerances", (int)k, (int)nt);
-  if (nr < 1 || nr > 100000000) return luaL_error(L, "segwise.network:montecarlo: runs must be in 1..1e8 (got %d)", (int)nr);
-  runs = (size_t)nr;
-  el = lua_newuserdatauv(L, k * sizeof *el, 0);
-  gauss = lua_newuserdatauv(L, k * sizeof *gauss, 0);
-  for (q = 0; q < k; q++) {
-    const char *name;
-    lua_geti(L, 2, (lua_Integer)q + 1);
-    name = luaL_checkstring(L, -1);
-    el[q] = sw_net_find(&n->net, name);
-    if (el[q] == SW_NET_NONE || n->net.el[el[q]].kind == SW_NET_DEV)
-      return luaL_error(L, "segwise.network:montecarlo: no source, gain or resistor named '%s'", name);
-    lua_pop(L, 1);
-    lua_geti(L, 4, (lua_Integer)q + 1);
-    gauss[q] = lua_toboolean(L, -1);
-    lua_pop(L, 1);
-  }
+  check_mc_args(L, n, &a);
+  k = a.k; runs = a.runs; el = a.el; tol = a.tol; gauss = a.gauss;
   prepare(L, n, "network:montecarlo");
   drawn = lsw_scratch(L, runs * k);
   h = new_hold(L);
   hold_ops(L, h, runs);
-  if (sw_net_montecarlo(&n->net, el, tol, gauss, k, runs, (unsigned long)seed, max_states, h->ops, drawn, &err))
+  if (sw_net_montecarlo(&n->net, el, tol, gauss, k, runs, (unsigned long)a.seed, max_states, h->ops, drawn, &err))
     return lsw_raise(L, "network:montecarlo", &err);
   lua_createtable(L, (int)runs, 0);
   for (r = 0; r < runs; r++) {
@@ -603,6 +643,41 @@ static int l_montecarlo(lua_State *L)
     lua_setfield(L, -2, "values");
     lua_rawseti(L, -2, (lua_Integer)r + 1);
   }
+  return 1;
+}
+
+/* n:montecarlo_arrays(names, tols, gauss, runs, seed, max_states, out) ->
+ * res as for sweep_arrays, plus res.values = {name = array of drawn values} */
+static int l_montecarlo_arrays(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  double max_states, **drawn;
+  sw_net_quant *q = NULL;
+  size_t nq = 0, j;
+  int res, vals, rc;
+  lsw_hold *h;
+  mc_args a;
+  sw_err err = { 0, "" };
+  lua_settop(L, 8);
+  max_states = luaL_optnumber(L, 7, 1e6);
+  check_mc_args(L, n, &a);
+  prepare(L, n, "network:montecarlo");
+  res = push_quant_arrays(L, n, 8, a.runs, "montecarlo", &q, &nq);
+  drawn = lua_newuserdatauv(L, a.k * sizeof *drawn, 0);
+  lua_createtable(L, 0, (int)a.k);
+  vals = lua_gettop(L);
+  for (j = 0; j < a.k; j++) {
+    lsw_array *arr = lsw_newarray(L, a.runs);
+    drawn[j] = arr->data;
+    lua_setfield(L, vals, n->net.el[a.el[j]].name);
+  }
+  lua_setfield(L, res, "values");
+  h = new_hold(L);
+  rc = sw_net_montecarlo_arrays(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed, max_states,
+                                drawn, q, nq, &h->sweep, &err);
+  if (rc) return lsw_raise(L, "network:montecarlo", &err);
+  push_loop_info(L, n, res, &h->sweep);
+  lua_pushvalue(L, res);
   return 1;
 }
 
@@ -666,7 +741,7 @@ static int l_info(lua_State *L)
 
 static const luaL_Reg net_methods[] = {
   { "add", l_add }, { "device", l_device }, { "set", l_set }, { "solve", l_solve },
-  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "sweep_arrays", l_sweep_arrays }, { "montecarlo", l_montecarlo }, { "segments", l_segments },
+  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "sweep_arrays", l_sweep_arrays }, { "montecarlo", l_montecarlo }, { "montecarlo_arrays", l_montecarlo_arrays }, { "segments", l_segments },
   { "info", l_info }, { "free", net_release }, { NULL, NULL }
 };
 

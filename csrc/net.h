@@ -241,7 +241,13 @@ int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
 /* Current of element k from a full unknown vector y (net_mna.c). */
 double sw_net_el_current(const sw_net *net, const double *y, size_t k);
 
-/* Seeded Monte Carlo over element values (see net_sweep.c). */
+/* Seeded Monte Carlo over element values (see net_sweep.c): full operating
+ * points, or chosen quantities into arrays (drawn[q] holds n values). */
+int sw_net_montecarlo_arrays(sw_net *net, const size_t *el, const double *tol,
+                             const int *gauss, size_t k, size_t n, unsigned long seed,
+                             double max_states, double *const *drawn,
+                             const sw_net_quant *q, size_t nq,
+                             sw_net_sweep_info *info, sw_err *err);
 int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
                       const int *gauss, size_t k, size_t n, unsigned long seed,
                       double max_states, sw_net_op *ops, double *drawn,

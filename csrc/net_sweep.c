@@ -158,14 +158,60 @@ static int write_point(const sw_net *net, sweep_ws *w, const double *z, size_t k
   return SW_OK;
 }
 
+/* The workspace for a prepared network (sizes fixed by its topology). */
+static int ws_init(sw_net *net, sweep_ws *w, sw_err *err)
+{
+  size_t m = net->ndev, N = net->nunk;
+  memset(w, 0, sizeof *w);
+  w->max_iter = sw_net_assumed_max_iter(net);
+  w->yp0 = sw_alloc(2 * N + 4 * m + 1, sizeof *w->yp0, err);
+  w->y = sw_alloc(N + 1, sizeof *w->y, err);
+  w->work = sw_alloc(5 * m + 1, sizeof *w->work, err);
+  w->state = sw_alloc(m + 1, sizeof *w->state, err);
+  w->hist = sw_alloc((w->max_iter + 1) * m + 1, sizeof *w->hist, err);
+  if (!w->yp0 || !w->y || !w->work || !w->state || !w->hist || sw_net_lr_init(&w->lr, m, err)) {
+    ws_free(w);
+    return SW_ENOMEM;
+  }
+  w->dyp = w->yp0 + N; w->vp0 = w->dyp + N; w->dvp = w->vp0 + m; w->ip0 = w->dvp + m; w->dip = w->ip0 + m;
+  return SW_OK;
+}
+
+/* Solves point k of the set-up network, warm from the states in w (*have:
+ * they hold a previous point's), and writes its quantities.  Errors come
+ * back without the point's name; the caller prefixes it. */
+static int solve_point(sw_net *net, sweep_ws *w, size_t k, int *have, double max_states,
+                       const sw_net_quant *q, size_t nq, sw_net_sweep_info *info, sw_err *err)
+{
+  size_t m = net->ndev, it, nf;
+  double *z = w->work + 4 * m;
+  const char *used;
+  int rc;
+  if (!*have) sw_net_default_start(net, w->state);
+  if (m == 1 && *have && load_line_holds(net, w->state[0], z)) {
+    info->iterations++;
+  } else if (sw_net_assumed_run(net, &w->lr, w->hist, w->work, w->state, w->max_iter, w->state, &it, NULL,
+                                err) != SW_OK) {
+    if (err->code == SW_ENOMEM) return SW_ENOMEM;
+    info->fallbacks++;
+    if ((rc = sw_net_auto(net, w->state, max_states, w->state, &nf, &nf, &used, err)) ||
+        (rc = sw_net_lr_solve(net, &w->lr, w->state, z, err)))
+      return rc;
+  } else {
+    info->iterations += it;
+  }
+  *have = 1;
+  return write_point(net, w, z, k, q, nq, info, err);
+}
+
 int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
                         const int *start, double max_states,
                         const sw_net_quant *q, size_t nq,
                         sw_net_sweep_info *info, sw_err *err)
 {
-  size_t m = net->ndev, N, k, r, it, nf;
+  size_t m = net->ndev, N, k, r;
   double keep = net->el[el].value;
-  const char *name = net->el[el].name, *used;
+  const char *name = net->el[el].name;
   int source = net->el[el].kind == SW_NET_V || net->el[el].kind == SW_NET_I;
   int rc = SW_OK, have = 0;
   sweep_ws w;
@@ -173,21 +219,10 @@ int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
   memset(info, 0, sizeof *info);
   if (sw_net_prepare(net, err)) return err->code;
   N = net->nunk;
-  w.max_iter = sw_net_assumed_max_iter(net);
-  w.yp0 = sw_alloc(2 * N + 4 * m + 1, sizeof *w.yp0, err);
-  w.y = sw_alloc(N + 1, sizeof *w.y, err);
-  w.work = sw_alloc(5 * m + 1, sizeof *w.work, err);
-  w.state = sw_alloc(m + 1, sizeof *w.state, err);
-  w.hist = sw_alloc((w.max_iter + 1) * m + 1, sizeof *w.hist, err);
-  if (!w.yp0 || !w.y || !w.work || !w.state || !w.hist || sw_net_lr_init(&w.lr, m, err)) {
-    ws_free(&w);
-    return SW_ENOMEM;
-  }
-  w.dyp = w.yp0 + N; w.vp0 = w.dyp + N; w.dvp = w.vp0 + m; w.ip0 = w.dvp + m; w.dip = w.ip0 + m;
+  if (ws_init(net, &w, err)) return SW_ENOMEM;
   if (start) { memcpy(w.state, start, m * sizeof *w.state); have = 1; }
   if (source && (rc = source_basis(net, name, &w, err))) goto done;
   for (k = 0; k < n; k++) {
-    double *z = w.work + 4 * m;
     if (source) {  /* only the particular solution moves */
       double val = values[k];
       if (!sw_isfinite(val)) { rc = sw_err_set(err, SW_EINVAL, "value %zu is not finite", k + 1); break; }
@@ -200,21 +235,8 @@ int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
       }
       w.lr.valid = 0;
     }
-    if (!have) sw_net_default_start(net, w.state);
-    if (m == 1 && have && load_line_holds(net, w.state[0], z)) {
-      info->iterations++;
-    } else if (sw_net_assumed_run(net, &w.lr, w.hist, w.work, w.state, w.max_iter, w.state, &it, NULL, err) != SW_OK) {
-      if (err->code == SW_ENOMEM) { rc = SW_ENOMEM; break; }
-      info->fallbacks++;
-      if ((rc = sw_net_auto(net, w.state, max_states, w.state, &nf, &nf, &used, err)) ||
-          (rc = sw_net_lr_solve(net, &w.lr, w.state, z, err))) {
-        sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
-        break;
-      }
-    } else info->iterations += it;
-    have = 1;
-    if ((rc = write_point(net, &w, z, k, q, nq, info, err))) {
-      sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
+    if ((rc = solve_point(net, &w, k, &have, max_states, q, nq, info, err))) {
+      if (rc != SW_ENOMEM) sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
       break;
     }
   }
@@ -227,6 +249,15 @@ done:
   }
   ws_free(&w);
   return rc;
+}
+
+/* One drawn value: nominal * (1 + tol * u), u uniform on [-1, 1] or
+ * standard normal.  Both Monte Carlo forms draw in the same order, so a
+ * seed gives the same runs in either. */
+static double mc_draw(gsl_rng *rng, double nominal, double tol, int gauss)
+{
+  double u = gauss ? gsl_ran_gaussian(rng, 1.0) : 2 * gsl_rng_uniform(rng) - 1;
+  return nominal * (1 + tol * u);
 }
 
 /* Seeded Monte Carlo: run r draws value k of element el[k] as
@@ -252,8 +283,7 @@ int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
   for (q = 0; q < k; q++) keep[q] = net->el[el[q]].value;
   for (r = 0; r < n && rc == SW_OK; r++) {
     for (q = 0; q < k && rc == SW_OK; q++) {
-      double u = gauss[q] ? gsl_ran_gaussian(rng, 1.0) : 2 * gsl_rng_uniform(rng) - 1;
-      drawn[r * k + q] = keep[q] * (1 + tol[q] * u);
+      drawn[r * k + q] = mc_draw(rng, keep[q], tol[q], gauss[q]);
       rc = sw_net_set(net, net->el[el[q]].name, drawn[r * k + q], err);
     }
     if (rc || (rc = sw_net_prepare(net, err))) { sw_err_prefix(err, "run %zu: ", r + 1); break; }
@@ -267,5 +297,50 @@ int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
   }
   for (q = 0; q < k; q++) { sw_err e2; sw_net_set(net, net->el[el[q]].name, keep[q], &e2); }
   free(keep); free(state); gsl_rng_free(rng);
+  return rc;
+}
+
+/* The same runs into arrays: drawn[q][r] the value of el[q] in run r, and
+ * the quantities q of every run, with no allocation per run (each run
+ * rebuilds the reduction, as a resistor sweep does). */
+int sw_net_montecarlo_arrays(sw_net *net, const size_t *el, const double *tol,
+                             const int *gauss, size_t k, size_t n, unsigned long seed,
+                             double max_states, double *const *drawn,
+                             const sw_net_quant *q, size_t nq,
+                             sw_net_sweep_info *info, sw_err *err)
+{
+  size_t r, j;
+  double *keep;
+  gsl_rng *rng;
+  sweep_ws w;
+  int rc = SW_OK, have = 0;
+  memset(info, 0, sizeof *info);
+  if (sw_net_prepare(net, err)) return err->code;
+  keep = sw_alloc(k, sizeof *keep, err);
+  rng = gsl_rng_alloc(gsl_rng_mt19937);
+  if (!keep || !rng || ws_init(net, &w, err)) {
+    free(keep);
+    gsl_rng_free(rng);
+    return sw_err_set(err, SW_ENOMEM, "out of memory in montecarlo");
+  }
+  gsl_rng_set(rng, seed);
+  for (j = 0; j < k; j++) keep[j] = net->el[el[j]].value;
+  for (r = 0; r < n && rc == SW_OK; r++) {
+    for (j = 0; j < k && rc == SW_OK; j++) {
+      drawn[j][r] = mc_draw(rng, keep[j], tol[j], gauss[j]);
+      rc = sw_net_set(net, net->el[el[j]].name, drawn[j][r], err);
+    }
+    if (!rc && !(rc = sw_net_prepare(net, err))) {
+      w.lr.valid = 0;
+      rc = solve_point(net, &w, r, &have, max_states, q, nq, info, err);
+    }
+    if (rc && rc != SW_ENOMEM) sw_err_prefix(err, "run %zu: ", r + 1);
+  }
+  info->updates = w.lr.updates;
+  info->refactors = w.lr.refactors;
+  for (j = 0; j < k; j++) { sw_err e2; sw_net_set(net, net->el[el[j]].name, keep[j], &e2); }
+  free(keep);
+  gsl_rng_free(rng);
+  ws_free(&w);
   return rc;
 }

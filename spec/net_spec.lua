@@ -617,6 +617,54 @@ describe("segwise.network", function()
       assert.has_error(function() net:montecarlo({ RX = 0.1 }) end)
       assert.has_error(function() net:montecarlo({ R = { tol = 1, sd = 1 } }) end)
     end)
+
+    it("into arrays: the same runs as the tables, with statistics", function()
+      local net = one_device(5, 1000)
+      local vary = { E = 0.1, R = { sd = 0.05 } }
+      local mc = net:montecarlo(vary, { runs = 300, seed = 11 })
+      local a = net:montecarlo(vary, { runs = 300, seed = 11, out = { "i.D1", "vd.D1", "p.D1", "state.D1" } })
+      assert.are.equal(300, a.n)
+      assert.are.equal(300, #a["i.D1"])
+      assert.are.equal(a[1], a["i.D1"])
+      local sum = 0
+      for k = 1, 300 do
+        local op = mc.runs[k]
+        -- the same draws, in the same order, from the same seed
+        assert.are.equal(op.values.E, a.values.E[k])
+        assert.are.equal(op.values.R, a.values.R[k])
+        -- i = (E - 0.6)/(R + 10) for the drawn values (hand algebra)
+        assert.is.near((a.values.E[k] - 0.6) / (a.values.R[k] + 10), a["i.D1"][k], 1e-15)
+        assert.is.near(op.i.D1, a["i.D1"][k], 1e-15)
+        assert.is.near(op.vd.D1 * op.i.D1, a["p.D1"][k], 1e-15)
+        sum = sum + a["i.D1"][k]
+      end
+      local st = a.stats["i.D1"]
+      assert.is.near(sum / 300, st.mean, 1e-15)
+      assert.is.near(mc.mean.i.D1, st.mean, 1e-15)
+      assert.is.near(mc.sd.i.D1, st.sd, 1e-12 * mc.sd.i.D1)
+      -- (the two forms solve by different routes: equal to rounding)
+      assert.is.near(mc.min.i.D1, st.min, 1e-15)
+      assert.is.near(mc.max.i.D1, st.max, 1e-15)
+      -- values restored afterwards
+      assert.is.near((5 - 0.6) / 1010, net:solve().i.D1, 1e-15)
+    end)
+
+    it("into arrays: warnings count runs, bad quantities are named", function()
+      -- about 11 mA at 0.6 V: near 7 mW against a 1 mW rating in every run
+      local net = one_device(12, 1000, nil, { pmax = 1e-3 })
+      local a = net:montecarlo({ R = 0.05 }, { runs = 50, out = { "i.D1" } })
+      assert.are.equal(50, #a["i.D1"])
+      assert.are.equal(1, #a.warnings)
+      assert.are.equal("pmax", a.warnings[1].kind)
+      assert.are.equal(50, a.warnings[1].count)
+      assert.matches("in 50 of 50 runs", tostring(a.warnings[1]))
+      local ok, msg = pcall(net.montecarlo, net, { R = 0.05 }, { runs = 5, out = { "i.NOPE" } })
+      assert.is_false(ok)
+      assert.matches("NOPE", msg)
+      ok, msg = pcall(net.montecarlo, net, { R = 0.05 }, { runs = 5, out = {} })
+      assert.is_false(ok)
+      assert.matches("at least one quantity", msg)
+    end)
   end)
 
   describe("exact comparison", function()

@@ -226,14 +226,15 @@ return function(sw, core)
   end
 
   -- Warnings of an array sweep: one per device and kind, naming the points.
-  local function sweep_warnings(self, res, values, name)
+  -- where(n, first, last): the text saying which points a warning covers
+  local function loop_warnings(self, res, where_of)
     local elements = {}
     for _, e in ipairs(self:info().elements) do elements[e.name] = e end
     local mt = { __tostring = function(w) return w.message end }
     for _, w in ipairs(res.warnings) do
       local e, idx = elements[w.device], w.indices
       local n, first, last = #idx, math.tointeger(idx[1]), math.tointeger(idx[#idx])
-      local where = ("at %d of %d points (indices %d..%d; first at %s = %s)"):format(n, #values, first, last, name, fmt(values[first]))
+      local where = where_of(n, first, last)
       w.count = n
       if w.kind == "range" then
         w.message = ("%s operates outside its model's knots [%s, %s] %s: the model is extrapolated there, so refit over a range that covers these points"):format(
@@ -256,13 +257,31 @@ return function(sw, core)
     if opts.out then
       local res = call("network:sweep", self._c.sweep_arrays, self._c, name, values, opts.start, opts.max_states, opts.out, opts.lowrank)
       res.n = res[1] and #res[1] or 0
-      sweep_warnings(self, res, values, name)
+      loop_warnings(self, res, function(n, first, last)
+        return ("at %d of %d points (indices %d..%d; first at %s = %s)"):format(n, #values, first, last, name, fmt(values[first]))
+      end)
       return res
     end
     local rows = call("network:sweep", self._c.sweep, self._c, name, values, opts.start, opts.max_states, opts.lowrank)
     local elements = self:info().elements
     for k, op in ipairs(rows) do rows[k] = finish_op(self, op, { method = "sweep" }, elements) end
     return rows
+  end
+
+  -- min, max, mean and (sample) standard deviation of an array, by
+  -- Welford's update (no cancellation when the spread is small)
+  local function array_stats(a)
+    local n, mean, m2, lo, hi = 0, 0, 0, math.huge, -math.huge
+    for i = 1, #a do
+      local x = a[i]
+      n = n + 1
+      local d = x - mean
+      mean = mean + d / n
+      m2 = m2 + d * (x - mean)
+      if x < lo then lo = x end
+      if x > hi then hi = x end
+    end
+    return { min = lo, max = hi, mean = mean, sd = n > 1 and math.sqrt(m2 / (n - 1)) or 0 }
   end
 
   -- Every corner of the given ranges {name = {lo, hi}, ...}; min and max of
@@ -312,9 +331,13 @@ return function(sw, core)
   -- a number or {tol = t}: uniform within +-t relative; {sd = s}: normal with
   -- relative standard deviation s.  Returns {runs = {op...} (each with
   -- .values), min, max, mean, sd = {v = {}, i = {}, p = {}}} per element.
+  --   net:montecarlo(vary, {runs = 1e5, out = {"i.D1", "p.D1"}}): no table
+  -- per run but one sw.array per quantity (as net:sweep's out), the drawn
+  -- values as arrays in res.values, and res.stats[quantity] = {min, max,
+  -- mean, sd}.
   function Network:montecarlo(vary, opts)
     if type(vary) ~= "table" then error("segwise.network:montecarlo: expected a table {name = tol, ...}", 2) end
-    opts = check_opts("network:montecarlo", opts, { runs = "number", seed = "number", max_states = "number" })
+    opts = check_opts("network:montecarlo", opts, { runs = "number", seed = "number", max_states = "number", out = "table" })
     local names, tols, gauss = {}, {}, {}
     for name in pairs(vary) do
       if type(name) ~= "string" then error("segwise.network:montecarlo: keys must be element names", 2) end
@@ -334,6 +357,17 @@ return function(sw, core)
     end
     local runs = opts.runs or 1000
     if runs ~= math.floor(runs) then error("segwise.network:montecarlo: runs must be an integer", 2) end
+    if opts.out then
+      local res = call("network:montecarlo", self._c.montecarlo_arrays, self._c, names, tols, gauss, math.tointeger(runs),
+        math.tointeger(opts.seed or 1) or 1, opts.max_states, opts.out)
+      res.n = math.tointeger(runs)
+      res.stats = {}
+      for k, q in ipairs(opts.out) do res.stats[q] = array_stats(res[k]) end
+      loop_warnings(self, res, function(n, first, last)
+        return ("in %d of %d runs (runs %d..%d)"):format(n, runs, first, last)
+      end)
+      return res
+    end
     local list = call("network:montecarlo", self._c.montecarlo, self._c, names, tols, gauss, math.tointeger(runs), math.tointeger(opts.seed or 1) or 1, opts.max_states)
     local out = { runs = list, min = { v = {}, i = {}, p = {} }, max = { v = {}, i = {}, p = {} },
                   mean = { v = {}, i = {}, p = {} }, sd = { v = {}, i = {}, p = {} } }

@@ -462,6 +462,15 @@ static int sc_sweep(double *fp, sw_err *err)
   if ((rc = sw_net_sweep_arrays(&net, 1, rs, 6, NULL, 1e4, q, 4, &info, err))) goto done;
   for (k = 0; k < 6; k++) *fp += i1[k] + s1[k];
   *fp += (double)info.nwarn;
+  sw_net_sweep_info_free(&info);
+  { /* seeded Monte Carlo into arrays: R1 and V1 drawn */
+    size_t el[2] = {1, 0};
+    double tol[2] = {0.05, 0.02}, d1[6], d0[6], *drawn[2];
+    int gauss[2] = {0, 1};
+    drawn[0] = d1; drawn[1] = d0;
+    if ((rc = sw_net_montecarlo_arrays(&net, el, tol, gauss, 2, 6, 5, 1e4, drawn, q, 4, &info, err))) goto done;
+    for (k = 0; k < 6; k++) *fp += d1[k] + d0[k] + i1[k] + p1[k];
+  }
 done:
   sw_net_sweep_info_free(&info);
   sw_net_free(&net);
