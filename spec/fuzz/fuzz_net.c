@@ -127,6 +127,24 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
       else
         for (k = 0; k < nv; k++) sw_net_op_free(&ops[k]); /* must be safe on zeroed or partial ops */
     }
+    if (net.ndev > 0) { /* the array loops: a sweep and a Monte Carlo run */
+      double values[4], o1[4], o2[4], d0[4], tol = fuzz_double(&in), *drawn[1];
+      size_t el = fuzz_u8(&in) % net.nel, nv = fuzz_count(&in, 1, 4);
+      int gauss = fuzz_u8(&in) & 1;
+      sw_net_quant q[2];
+      sw_net_sweep_info info;
+      drawn[0] = d0;
+      fuzz_doubles(&in, values, nv);
+      q[0].kind = SW_NQ_I; q[0].idx = net.dev[0].el; q[0].out = o1;
+      q[1].kind = SW_NQ_STATE; q[1].idx = 0; q[1].out = o2;
+      if (net.el[el].kind != SW_NET_DEV && sw_net_prepare(&net, &err) == SW_OK) {
+        (void)sw_net_sweep_arrays(&net, el, values, nv, NULL, 256, q, 2, &info, &err);
+        sw_net_sweep_info_free(&info);
+        (void)sw_net_montecarlo_arrays(&net, &el, &tol, &gauss, 1, nv, fuzz_u8(&in), 256, drawn, q, 2, &info,
+                                       &err);
+        sw_net_sweep_info_free(&info);
+      }
+    }
   }
   sw_net_free(&net);
   return 0;
