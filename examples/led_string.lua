@@ -79,5 +79,19 @@ say(sw.report.table(rows, {
 say(("the ±10 %% bus swing moves the LED current from %s to %s (%.0f %% of the nominal current)"):format(
   sw.si(rows[1].i, "A"), sw.si(rows[#rows].i, "A"), (rows[#rows].i - rows[1].i) / rows[4].i * 100))
 
+-- 4. Tolerances: the ballast within ±5 % (uniform) and the bus with a 3 %
+--    standard deviation (normal), 20000 seeded runs written into arrays.
+local RUNS = 20000
+local mc = net:montecarlo({ RB = 0.05, VB = { sd = 0.03 } }, { runs = RUNS, seed = 24, out = { "i.L1", "p.L1" } })
+local st, above = mc.stats["i.L1"], 0
+for k = 1, RUNS do
+  if mc["i.L1"][k] > 1.25 * TARGET then above = above + 1 end
+end
+say(("tolerance study, %d runs: LED current %s ± %s (sd), %s .. %s; %.2f %% of the runs above %s"):format(
+  RUNS, sw.si(st.mean, "A"), sw.si(st.sd, "A"), sw.si(st.min, "A"), sw.si(st.max, "A"),
+  above / RUNS * 100, sw.si(1.25 * TARGET, "A")))
+say(("largest LED dissipation in those runs: %s (check it against the LED's rating)"):format(
+  sw.si(mc.stats["p.L1"].max, "W")))
+
 return { model = model, law = law, r = r, r_calc = r_calc, nled = NLED, target = TARGET, rows = rows,
-         vs_law = vs_law }
+         vs_law = vs_law, mc = mc, above = above }

@@ -139,6 +139,22 @@ describe("segwise examples", function()
       end
     end)
 
+    it("every tolerance run obeys KVL with its own drawn values", function()
+      local mc = r.mc
+      assert.are.equal(20000, #mc["i.L1"])
+      for k = 1, 20000, 997 do
+        local vb, rb, i = mc.values.VB[k], mc.values.RB[k], mc["i.L1"][k]
+        near_rel(vb, rb * i + 3 * r.model(i), 1e-10, "KVL in run " .. k)
+        near_rel(r.model(i) * i, mc["p.L1"][k], 1e-10, "P = v i in run " .. k)
+        assert.is_true(math.abs(rb / r.r - 1) <= 0.05, "ballast within 5 %")
+      end
+      local above = 0
+      for k = 1, 20000 do if mc["i.L1"][k] > 1.25 * r.target then above = above + 1 end end
+      assert.are.equal(above, r.above)
+      local st = mc.stats["i.L1"]
+      assert.is_true(st.min < st.mean and st.mean < st.max)
+    end)
+
     it("the exact column is the root of VB = R i + 3 v_law(i) (bisection here)", function()
       for _, row in ipairs(r.rows) do
         local i = bisect(function(x) return row.vb - r.r * x - 3 * v_law(x) end, 1e-6, 0.1)
