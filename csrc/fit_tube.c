@@ -507,12 +507,14 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
 }
 
 /* Segment count at level e: greedy for discontinuous models and convex
- * data, reachable sets for other continuous ones; knots into kx when given. */
-static int count_at(const fit_data *d, double e, int continuous, const fit_cons *k, size_t maxseg,
-                    tube_ws *w, rec_list *R, double *kx, double *ky, size_t *m, sw_err *err)
+ * data, reachable sets (reach, decided once by the caller: it scans the
+ * data) for other continuous ones; knots into kx when given. */
+static int count_at(const fit_data *d, double e, int reach, int continuous, const fit_cons *k,
+                    size_t maxseg, tube_ws *w, rec_list *R, double *kx, double *ky, size_t *m,
+                    sw_err *err)
 {
   int st = SW_OK;
-  if (continuous && (!convex_data(d) || (k && k->has_last))) {
+  if (reach) {
     if (greedy_settles(d, e, k, maxseg, w, kx ? R : NULL, m, &st, err)) {
       if (st) return st;
       if (*m == SIZE_MAX) *m = maxseg + 1;
@@ -541,13 +543,43 @@ static int count_at(const fit_data *d, double e, int continuous, const fit_cons 
  * a dozen passes over all samples instead of forty.  Every decision is
  * still taken on the full data, so the guess affects the time only. */
 
+/* The smallest level whose greedy count is at most nseg, to relative
+ * precision rtol, above the infeasible *elo: unless *ehi is known to meet
+ * the count it doubles until it does (at most 200 times, while finite;
+ * else *found = 0).  *steps gets the bisection's step count. */
+static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fit_cons *k, tube_ws *w,
+                        double rtol, int known, double *elo, double *ehi, int *found, size_t *steps,
+                        sw_err *err)
+{
+  size_t m, it;
+  int st = SW_OK, tries;
+  *found = 0;
+  *steps = 0;
+  for (tries = 0; !known && tries < 200 && sw_isfinite(*ehi); tries++) {
+    m = greedy(d, *ehi, continuous, k, nseg, w, NULL, &st, err);
+    if (st) return st;
+    if (m <= nseg) known = 1;
+    else { *elo = *ehi; *ehi *= 2; }
+  }
+  if (!known) return SW_OK;
+  for (it = 0; it < FIT_BISECT_STEPS && *ehi - *elo > rtol * *ehi; it++) {
+    double mid = fit_mid_level(*elo, *ehi);
+    m = greedy(d, mid, continuous, k, nseg, w, NULL, &st, err);
+    if (st) return st;
+    if (m <= nseg) *ehi = mid; else *elo = mid;
+  }
+  *steps = it;
+  *found = 1;
+  return SW_OK;
+}
+
 static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
                        tube_ws *w, double rtol, double *g, sw_err *err)
 {
   fit_data s;
-  size_t step, i, m, it;
+  size_t step, i, it;
   double elo = 0, ehi;
-  int st = SW_OK, tries;
+  int st = SW_OK, found;
   *g = 0;
   if (d->n < GUESS_MIN) return SW_OK;
   step = d->n / GUESS_SAMPLES;
@@ -555,21 +587,8 @@ static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit
   for (i = 0; i < d->n; i += step) subset_take(&s, d, i);
   if (s.x[s.n - 1] < d->x[d->n - 1]) subset_take(&s, d, d->n - 1);
   ehi = fit_start_level(&s);
-  for (tries = 0; tries < 200 && sw_isfinite(ehi); tries++) {
-    m = greedy(&s, ehi, continuous, k, nseg, w, NULL, &st, err);
-    if (st) goto done;
-    if (m <= nseg) break;
-    elo = ehi;
-    ehi *= 2;
-  }
-  if (tries == 200 || !sw_isfinite(ehi)) goto done; /* no guess: the full search decides */
-  for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
-    double mid = fit_mid_level(elo, ehi);
-    m = greedy(&s, mid, continuous, k, nseg, w, NULL, &st, err);
-    if (st) goto done;
-    if (m <= nseg) ehi = mid; else elo = mid;
-  }
-  *g = ehi;
+  st = greedy_level(&s, nseg, continuous, k, w, rtol, 0, &elo, &ehi, &found, &it, err);
+  if (!st && found) *g = ehi; /* else no guess: the full search decides */
 done:
   free(s.x); free(s.y); free(s.s);
   return st;
@@ -621,7 +640,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   rec_list R;
   double elo = 0, ehi = fit_start_level(d), *kx = NULL, *ky = NULL, lower;
   size_t m, it, j, *idx = NULL;
-  int st, tries, reach;
+  int st, tries, reach, found;
   memset(&R, 0, sizeof R);
   memset(&w, 0, sizeof w);
   kx = sw_alloc(d->n + 1, sizeof *kx, err);
@@ -639,11 +658,8 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
     int use_greedy = !(k && k->has_last), known;
     if ((st = level_guess(d, nseg, 0, NULL, &w, 1e-5, &g, err))) goto done;
     if (g > 0 && (st = bracket_guess(d, nseg, 0, NULL, &w, g, &elo, &ehi, &known, err))) goto done;
-    for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
-      double mid = fit_mid_level(elo, ehi);
-      if ((st = count_at(d, mid, 0, NULL, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
-      if (m <= nseg) ehi = mid; else elo = mid;
-    }
+    /* known = 1: without constraints the start level meets any count */
+    if ((st = greedy_level(d, nseg, 0, NULL, &w, 1e-4, 1, &elo, &ehi, &found, &it, err))) goto done;
     *iters += it;
     ehi = elo;
     lower = elo; /* the discontinuous bound holds for every continuous model */
@@ -652,23 +668,11 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
       int gknown = 0;
       if ((st = level_guess(d, nseg, 1, k, &w, 1e-8, &g, err))) goto done;
       if (g > 0 && (st = bracket_guess(d, nseg, 1, k, &w, g, &gl, &eg, &gknown, err))) goto done;
-      for (tries = 0; !gknown && tries < 200; tries++) {
-        m = greedy(d, eg, 1, k, nseg, &w, NULL, &st, err);
-        if (st) goto done;
-        if (m <= nseg) break;
-        gl = eg;
-        eg *= 2;
-      }
-      for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && eg - gl > 1e-6 * eg; it++) {
-        double mid = fit_mid_level(gl, eg);
-        m = greedy(d, mid, 1, k, nseg, &w, NULL, &st, err);
-        if (st) goto done;
-        if (m <= nseg) eg = mid; else gl = mid;
-      }
-      if (tries < 200) ehi = eg;
+      if ((st = greedy_level(d, nseg, 1, k, &w, 1e-6, gknown, &gl, &eg, &found, &it, err))) goto done;
+      if (found) ehi = eg;
     }
     for (tries = 0; tries < 200; tries++) {
-      if ((st = count_at(d, ehi, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if ((st = count_at(d, ehi, 1, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) break;
       elo = ehi;
       ehi *= 1.25;
@@ -678,33 +682,25 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
      * would spend a dozen reachable-set passes all finding no model */
     if (tries < 200 && ehi * (1 - 0.9e-4) > elo) {
       double probe = ehi * (1 - 0.9e-4); /* an infeasible probe ends the bisection */
-      if ((st = count_at(d, probe, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if ((st = count_at(d, probe, 1, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = probe; else elo = probe;
     }
     for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
       double mid = fit_mid_level(elo, ehi);
-      if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
+      if ((st = count_at(d, mid, 1, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
       if (m <= nseg) ehi = mid; else elo = mid;
     }
+    found = tries < 200;
   } else {
     double g;
     int known = 0;
     if ((st = level_guess(d, nseg, continuous, k, &w, 1e-8, &g, err))) goto done;
     if (g > 0 && (st = bracket_guess(d, nseg, continuous, k, &w, g, &elo, &ehi, &known, err)))
       goto done;
-    for (tries = 0; !known && tries < 200; tries++) {
-      if ((st = count_at(d, ehi, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
-      if (m <= nseg) break;
-      elo = ehi;
-      ehi *= 2;
-    }
-    for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && ehi - elo > 1e-7 * ehi; it++) {
-      double mid = fit_mid_level(elo, ehi);
-      if ((st = count_at(d, mid, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
-      if (m <= nseg) ehi = mid; else elo = mid;
-    }
+    if ((st = greedy_level(d, nseg, continuous, k, &w, 1e-7, known, &elo, &ehi, &found, &it, err)))
+      goto done;
   }
-  if (tries == 200) {
+  if (!found) {
     st = sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
                     "be met with %zu segments", nseg);
     goto done;
@@ -712,7 +708,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   *e_lo = reach ? lower : elo; /* the greedy counts are exact: elo is infeasible for any knots */
   *e_hi = ehi;
   *iters += it;
-  if ((st = count_at(d, ehi, continuous, k, nseg, &w, &R, kx, ky, &m, err))) goto done;
+  if ((st = count_at(d, ehi, reach, continuous, k, nseg, &w, &R, kx, ky, &m, err))) goto done;
   if (m > nseg) { st = sw_err_set(err, SW_ENUMERIC, "segment count search did not settle"); goto done; }
   /* split the segment with most samples at its middle sample until nseg */
   idx = sw_alloc(nseg + 1, sizeof *idx, err);
