@@ -527,8 +527,6 @@ static int measure(fit_job *J, const sw_pwl *m, double *e, sw_err *err)
   return SW_OK;
 }
 
-/* Fewest segments within tol for optimal minimax or interpolation: the
- * greedy tube on the samples, rechecked against the curve. */
 /* The fewest-segment model against the caller's cap (freed when above). */
 static int within_cap(const sw_fit_opts *o, sw_pwl *out, sw_err *err)
 {
@@ -538,6 +536,9 @@ static int within_cap(const sw_fit_opts *o, sw_pwl *out, sw_err *err)
   return sw_err_set(err, SW_ENOSOL, "tol = %g needs %zu segments with this scheme, more than "
                     "max_segments = %zu", o->tol, n, o->max_segments);
 }
+
+/* Fewest segments within tol for optimal minimax or interpolation: the
+ * greedy tube on the samples, rechecked against the curve. */
 
 static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
 {

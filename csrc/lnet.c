@@ -483,9 +483,6 @@ static void parse_quant(lua_State *L, const sw_net *net, int j, const char *s, s
   q->idx = idx;
 }
 
-/* n:sweep_arrays(name, values, start, max_states, out, lowrank)
- * -> {[k] = array, [out[k]] = array, iterations=, lowrank_updates=,
- *     refactors=, fallbacks=, warnings = {{device=, kind=, indices=}...}} */
 /* The result table of an array loop: for each name in the list at index
  * outidx, an array of n values, at res[j] and res[name]; *q the parsed
  * quantities.  Leaves res on the stack and returns its index. */
@@ -548,6 +545,9 @@ static void push_loop_info(lua_State *L, lsw_net *n, int res, const sw_net_sweep
   lua_pop(L, 1); /* count */
 }
 
+/* n:sweep_arrays(name, values, start, max_states, out, lowrank)
+ * -> {[k] = array, [out[k]] = array, iterations=, lowrank_updates=,
+ *     refactors=, fallbacks=, warnings = {{device=, kind=, indices=}...}} */
 static int l_sweep_arrays(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
@@ -620,26 +620,24 @@ static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
 static int l_montecarlo(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
-  size_t k, q, r, runs;
-  double max_states = luaL_optnumber(L, 7, 1e6), *drawn, *tol;
-  size_t *el;
-  int *gauss;
+  size_t q, r;
+  double max_states = luaL_optnumber(L, 7, 1e6), *drawn;
   lsw_hold *h;
   mc_args a;
   sw_err err = { 0, "" };
   check_mc_args(L, n, &a);
-  k = a.k; runs = a.runs; el = a.el; tol = a.tol; gauss = a.gauss;
   prepare(L, n, "network:montecarlo");
-  drawn = lsw_scratch(L, runs * k);
+  drawn = lsw_scratch(L, a.runs * a.k);
   h = new_hold(L);
-  hold_ops(L, h, runs);
-  if (sw_net_montecarlo(&n->net, el, tol, gauss, k, runs, (unsigned long)a.seed, max_states, h->ops, drawn, &err))
+  hold_ops(L, h, a.runs);
+  if (sw_net_montecarlo(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed, max_states, h->ops,
+                        drawn, &err))
     return lsw_raise(L, "network:montecarlo", &err);
-  lua_createtable(L, (int)runs, 0);
-  for (r = 0; r < runs; r++) {
+  lua_createtable(L, (int)a.runs, 0);
+  for (r = 0; r < a.runs; r++) {
     push_op(L, &n->net, &h->ops[r]);
-    lua_createtable(L, 0, (int)k);
-    for (q = 0; q < k; q++) setnum(L, n->net.el[el[q]].name, drawn[r * k + q]);
+    lua_createtable(L, 0, (int)a.k);
+    for (q = 0; q < a.k; q++) setnum(L, n->net.el[a.el[q]].name, drawn[r * a.k + q]);
     lua_setfield(L, -2, "values");
     lua_rawseti(L, -2, (lua_Integer)r + 1);
   }
