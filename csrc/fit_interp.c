@@ -7,7 +7,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-
 /* Greedy farthest chord at level e; knots (sample indices) into idx when
  * given.  Returns the count, stopping once above maxseg. */
 static size_t chord_greedy(const fit_data *d, double e, size_t maxseg, size_t *idx)

@@ -225,7 +225,8 @@ return function(sw, core)
     return list
   end
 
-  -- Warnings of an array sweep: one per device and kind, naming the points.
+  -- Warnings of an array loop (sweep or Monte Carlo): one per device and
+  -- kind, naming the points.
   -- where(n, first, last): the text saying which points a warning covers
   local function loop_warnings(self, res, where_of)
     local elements = {}
@@ -357,10 +358,12 @@ return function(sw, core)
     end
     local runs = opts.runs or 1000
     if runs ~= math.floor(runs) then error("segwise.network:montecarlo: runs must be an integer", 2) end
+    runs = math.tointeger(runs)
+    local seed = math.tointeger(opts.seed or 1) or 1
     if opts.out then
-      local res = call("network:montecarlo", self._c.montecarlo_arrays, self._c, names, tols, gauss, math.tointeger(runs),
-        math.tointeger(opts.seed or 1) or 1, opts.max_states, opts.out)
-      res.n = math.tointeger(runs)
+      local res = call("network:montecarlo", self._c.montecarlo_arrays, self._c, names, tols, gauss, runs, seed,
+        opts.max_states, opts.out)
+      res.n = runs
       res.stats = {}
       for k, q in ipairs(opts.out) do res.stats[q] = array_stats(res[k]) end
       loop_warnings(self, res, function(n, first, last)
@@ -368,7 +371,7 @@ return function(sw, core)
       end)
       return res
     end
-    local list = call("network:montecarlo", self._c.montecarlo, self._c, names, tols, gauss, math.tointeger(runs), math.tointeger(opts.seed or 1) or 1, opts.max_states)
+    local list = call("network:montecarlo", self._c.montecarlo, self._c, names, tols, gauss, runs, seed, opts.max_states)
     local out = { runs = list, min = { v = {}, i = {}, p = {} }, max = { v = {}, i = {}, p = {} },
                   mean = { v = {}, i = {}, p = {} }, sd = { v = {}, i = {}, p = {} } }
     local s1, s2 = { v = {}, i = {}, p = {} }, { v = {}, i = {}, p = {} }
