@@ -8,11 +8,15 @@ WARN     := -std=c99 -Wall -Wextra -pedantic -Wmissing-prototypes -Wshadow
 OPT      ?= -O2 -g
 PKGCFG    = $(shell pkg-config --cflags lua5.4 gsl 2>/dev/null)
 GSLLIBS   = $(shell pkg-config --libs gsl 2>/dev/null || echo -lgsl -lgslcblas)
-CFLAGS   += $(WARN) $(OPT) -fPIC -fvisibility=hidden -D_POSIX_C_SOURCE=200809L $(PKGCFG) $(EXTRA_CFLAGS)
+CFLAGS   += $(WARN) $(OPT) -fPIC -fvisibility=hidden -D_POSIX_C_SOURCE=200809L -Icsrc/core \
+            $(PKGCFG) $(EXTRA_CFLAGS)
 LDFLAGS  += -shared $(EXTRA_LDFLAGS)
 
-CORE_SRC := $(filter-out csrc/l%.c,$(wildcard csrc/*.c))
-BIND_SRC := $(wildcard csrc/l*.c)
+# The core (csrc/core/<area>/) knows nothing of Lua; csrc/bind/ is the only
+# C that includes Lua's headers (checked by `make check-layers`).
+CORE_SRC := $(wildcard csrc/core/*/*.c)
+CORE_HDR := $(wildcard csrc/core/*/*.h)
+BIND_SRC := $(wildcard csrc/bind/*.c)
 BUILDDIR ?= build
 OBJ      := $(patsubst csrc/%.c,$(BUILDDIR)/%.o,$(CORE_SRC) $(BIND_SRC))
 MODULE   := $(BUILDDIR)/segwise/core.so
@@ -20,11 +24,12 @@ MODULE   := $(BUILDDIR)/segwise/core.so
 export LUA_PATH  := ./lua/?.lua;./lua/?/init.lua;$(LUA_PATH);;
 export LUA_CPATH := ./$(BUILDDIR)/?.so;$(LUA_CPATH);;
 
-.PHONY: all deps test demo bench clean check-exports
+.PHONY: all deps test demo bench clean check-exports check-layers
 
 all: $(MODULE)
 
-$(BUILDDIR)/%.o: csrc/%.c $(wildcard csrc/*.h) | $(BUILDDIR)/segwise
+$(BUILDDIR)/%.o: csrc/%.c $(CORE_HDR) csrc/bind/bind.h | $(BUILDDIR)/segwise
+	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS) -c $< -o $@
 
 $(BUILDDIR)/segwise:
@@ -56,8 +61,14 @@ check-exports: $(MODULE)
 	@und=$$(nm -D --undefined-only $(MODULE) | awk '{print $$2}' | grep -E '^(sw_|lsw_)' || true); \
 	if [ -n "$$und" ]; then echo "undefined symbols: $$und" >&2; exit 1; fi
 
+# The layers: no core file includes a Lua header.
+check-layers:
+	@bad=$$(grep -lE '^[[:space:]]*#[[:space:]]*include[[:space:]]*[<"](lua|lauxlib|lualib|luaconf)\.h' \
+	  $(CORE_SRC) $(CORE_HDR) || true); \
+	if [ -n "$$bad" ]; then echo "core files include Lua headers: $$bad" >&2; exit 1; fi
+
 test: deps
-	@$(MAKE) --no-print-directory all check-exports
+	@$(MAKE) --no-print-directory all check-exports check-layers
 	@$(LUA) rockspec/generate.lua --check || echo "segwise: warning: the rockspec is out of date (CI fails on this)" >&2
 	@$(LUA) spec/run.lua $(LUA) $$(command -v busted) --cpath='./$(BUILDDIR)/?.so' $(SPEC)
 

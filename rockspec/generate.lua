@@ -10,7 +10,7 @@ local function list(cmd)
   return out
 end
 
-local csrc = list("ls csrc/*.c")
+local csrc = list("ls csrc/core/*/*.c csrc/bind/*.c")
 local luafiles = list("find lua -name '*.lua'")
 local lines = {}
 local function add(s) lines[#lines + 1] = s end
@@ -35,7 +35,7 @@ add('      sources = {')
 for _, f in ipairs(csrc) do add(('        "%s",'):format(f)) end
 add('      },')
 add('      defines = { "_POSIX_C_SOURCE=200809L" },')
-add('      incdirs = { "csrc", "$(GSL_INCDIR)" },')
+add('      incdirs = { "csrc/core", "$(GSL_INCDIR)" },')
 add('      libdirs = { "$(GSL_LIBDIR)" },')
 add('      libraries = { "gsl", "gslcblas", "m" },')
 add('    },')

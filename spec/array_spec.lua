@@ -1,4 +1,4 @@
--- sw.array: contiguous doubles in a userdata (csrc/larray.c, csrc/lread.c).
+-- sw.array: contiguous doubles in a userdata (csrc/bind/array.c, csrc/bind/read.c).
 local sw = require "segwise"
 
 local raises = require("spec_files").raises

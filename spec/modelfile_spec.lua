@@ -1,4 +1,4 @@
--- m:save / sw.pwl.load (csrc/pwl_io.c): the model file format, its exact
+-- m:save / sw.pwl.load (csrc/core/pwl/pwl_io.c): the model file format, its exact
 -- round trip, validation on load, and the write-then-rename rule.
 local sw = require "segwise"
 

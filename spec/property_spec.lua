@@ -356,7 +356,7 @@ describe("segwise properties", function()
       end)
 
       -- Long sample sets take shortcuts (a level search on a subset first;
-      -- csrc/fit_tube.c): they must not change the answer.  Optimality of
+      -- csrc/core/fit/fit_minimax.c): they must not change the answer.  Optimality of
       -- the n-segment minimax level E (the fewest-segments argument): within
       -- 0.1 % below E the fewest-segment fit needs more than n segments,
       -- within 0.1 % above it needs at most n.  20001 samples of a curve

@@ -1,4 +1,4 @@
--- sw.curve.read and the text reader under it (csrc/textread.c).
+-- sw.curve.read and the text reader under it (csrc/core/text/textread.c).
 -- Expected numbers come from Lua's own tonumber/%.17g on the text the spec
 -- writes, a parser independent of the reader under test.
 local sw = require "segwise"

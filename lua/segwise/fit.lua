@@ -1,6 +1,6 @@
 -- sw.fit(curve, opts): one call for every criterion and breakpoint scheme.
 -- Checks option names and types, fills the defaults, and hands the work to
--- core.fit (csrc/fit*.c).  The model keeps how it was made: m:fit_info().
+-- core.fit (csrc/core/fit/).  The model keeps how it was made: m:fit_info().
 local util = require "segwise.util"
 
 local MAX_SEGMENTS, MAX_GRID = 100000, 10000000

@@ -1,7 +1,7 @@
 -- Networks of linear elements and PWL devices: argument shaping, the
 -- readable trace of the assumed-state method, warnings, corners and the
 -- comparison of two operating points.  Every numeric step runs in C
--- (csrc/net*.c through csrc/lnet.c).
+-- (csrc/core/net/ through csrc/bind/net.c).
 --
 -- Automatic method (method = "auto", the default): one device -> its load
 -- line against every segment (all crossings found; the first is returned and
@@ -251,7 +251,7 @@ return function(sw, core)
   -- Without opts.out: one operating point (a table) per value.  With
   -- opts.out = {"i.D1", "vd.D1", "p.D1", "v.a", "state.D1", ...}: one
   -- sw.array per quantity, filled by a C loop that allocates nothing per
-  -- point (see the sweep notes in docs/API.md and csrc/net_sweep.c).
+  -- point (see the sweep notes in docs/API.md and csrc/core/net/net_sweep.c).
   function Network:sweep(name, values, opts)
     name = name_arg("network:sweep", "name", name)
     opts = check_opts("network:sweep", opts, { start = "table", max_states = "number", out = "table", lowrank = "boolean" })

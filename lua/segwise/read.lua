@@ -1,7 +1,7 @@
 -- Files in and out: sw.curve.read (a curve from two columns of a text file),
 -- sw.array (contiguous doubles, with .read for one file column) and
 -- sw.pwl.load (a model saved by m:save).  The reading itself is C
--- (csrc/textread.c); columns go straight into arrays, never Lua tables.
+-- (csrc/core/text/textread.c); columns go straight into arrays, never Lua tables.
 local util = require "segwise.util"
 
 return function(sw, core)

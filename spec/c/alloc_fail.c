@@ -30,17 +30,17 @@
 #include <gsl/gsl_rng.h>
 #include <gsl/gsl_vector.h>
 
-#include "sw_err.h"
-#include "curve.h"
-#include "pwl.h"
+#include "err/sw_err.h"
+#include "curve/curve.h"
+#include "pwl/pwl.h"
 #ifdef HAVE_TEXTREAD
-#include "textread.h"
+#include "text/textread.h"
 #endif
 #ifdef HAVE_FIT
-#include "fit.h"
+#include "fit/fit.h"
 #endif
 #ifdef HAVE_NET
-#include "net.h"
+#include "net/net.h"
 #endif
 
 /* ---- the allocation hook (test-only state) ------------------------------ */
@@ -332,7 +332,7 @@ done:
 }
 
 /* A longer sample set with an inflection: the level searches' subset
- * shortcuts (csrc/fit_tube.c; this test's build starts them at 64 samples)
+ * shortcuts (csrc/core/fit/fit_minimax.c; this test's build starts them at 64 samples)
  * run, continuous and not. */
 static int sc_fit_long(double *fp, sw_err *err)
 {

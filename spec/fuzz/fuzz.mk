@@ -10,18 +10,18 @@ FUZZ_SAN     := -fsanitize=fuzzer,address,undefined -fno-sanitize-recover=undefi
 # The fit shortcuts for long sample sets start at 64 samples here, so the
 # harnesses' small inputs reach them too.
 SHORTCUTS    := -DGUESS_MIN=64 -DGUESS_SAMPLES=16
-FUZZ_CFLAGS  := -std=c99 -g -O1 -fno-omit-frame-pointer -D_POSIX_C_SOURCE=200809L -Icsrc \
+FUZZ_CFLAGS  := -std=c99 -g -O1 -fno-omit-frame-pointer -D_POSIX_C_SOURCE=200809L -Icsrc/core \
                 $(SHORTCUTS) $(shell pkg-config --cflags gsl 2>/dev/null)
 # FUZZ_SKIP: core files left out (e.g. one still being written).
 FUZZ_SKIP    ?=
-FUZZ_CORE    := $(filter-out csrc/l%.c $(FUZZ_SKIP),$(wildcard csrc/*.c))
-FUZZ_OBJ     := $(patsubst csrc/%.c,$(FUZZ_DIR)/core/%.o,$(FUZZ_CORE))
+FUZZ_CORE    := $(filter-out $(FUZZ_SKIP),$(wildcard csrc/core/*/*.c))
+FUZZ_OBJ     := $(patsubst csrc/core/%.c,$(FUZZ_DIR)/core/%.o,$(FUZZ_CORE))
 FUZZ_LIB     := $(FUZZ_DIR)/libswcore.a
 FUZZ_NAMES   := curve pwl \
-                $(if $(filter csrc/textread.c,$(FUZZ_CORE)),text) \
-                $(if $(filter csrc/fit.c,$(FUZZ_CORE)),fit) \
-                $(if $(filter csrc/net.c,$(FUZZ_CORE)),net) \
-                $(if $(filter csrc/pwl_io.c,$(FUZZ_CORE)),model)
+                $(if $(filter csrc/core/text/textread.c,$(FUZZ_CORE)),text) \
+                $(if $(filter csrc/core/fit/fit.c,$(FUZZ_CORE)),fit) \
+                $(if $(filter csrc/core/net/net.c,$(FUZZ_CORE)),net) \
+                $(if $(filter csrc/core/pwl/pwl_io.c,$(FUZZ_CORE)),model)
 FUZZ_BINS    := $(patsubst %,$(FUZZ_DIR)/fuzz_%,$(FUZZ_NAMES))
 
 .PHONY: fuzz fuzz-build fuzz-deps ctest
@@ -29,7 +29,7 @@ FUZZ_BINS    := $(patsubst %,$(FUZZ_DIR)/fuzz_%,$(FUZZ_NAMES))
 fuzz-deps:
 	@$(MAKE) --no-print-directory deps EXTRA_PKGS="clang libclang-rt-14-dev"
 
-$(FUZZ_DIR)/core/%.o: csrc/%.c $(wildcard csrc/*.h)
+$(FUZZ_DIR)/core/%.o: csrc/core/%.c $(CORE_HDR)
 	@mkdir -p $(dir $@)
 	$(FUZZ_CC) $(FUZZ_CFLAGS) -fsanitize=fuzzer-no-link,address,undefined -fno-sanitize-recover=undefined $(FUZZ_CMP) -c $< -o $@
 
@@ -37,7 +37,7 @@ $(FUZZ_DIR)/core/%.o: csrc/%.c $(wildcard csrc/*.h)
 # compare doubles millions of times a fit; tracing those comparisons made
 # some fits 40x slower under the fuzzer and guides nothing (they are
 # geometry, not input parsing).
-$(FUZZ_DIR)/core/fit_poly.o $(FUZZ_DIR)/core/fit_tube.o $(FUZZ_DIR)/core/fit_reach.o: \
+$(FUZZ_DIR)/core/fit/fit_scan.o $(FUZZ_DIR)/core/fit/fit_minimax.o $(FUZZ_DIR)/core/fit/fit_reach.o: \
   FUZZ_CMP := -fno-sanitize-coverage=trace-cmp
 
 # An archive, so each harness pulls only the core objects it needs.
@@ -75,16 +75,16 @@ CTEST_GSL_OBJ := gsl_matrix gsl_vector gsl_vector_complex gsl_permutation gsl_mi
 CTEST_WRAP := -Wl,--wrap=malloc,--wrap=calloc,--wrap=realloc,--wrap=free \
               $(foreach o,$(CTEST_GSL_OBJ),-Wl,--wrap=$(o)_alloc,--wrap=$(o)_free) \
               $(foreach o,gsl_matrix gsl_vector gsl_permutation,-Wl,--wrap=$(o)_calloc)
-CTEST_DEFS := $(if $(filter csrc/textread.c,$(FUZZ_CORE)),-DHAVE_TEXTREAD) \
-              $(if $(filter csrc/fit.c,$(FUZZ_CORE)),-DHAVE_FIT) \
-              $(if $(filter csrc/net.c,$(FUZZ_CORE)),-DHAVE_NET)
-CTEST_OBJ  := $(patsubst csrc/%.c,$(CTEST_DIR)/%.o,$(FUZZ_CORE))
+CTEST_DEFS := $(if $(filter csrc/core/text/textread.c,$(FUZZ_CORE)),-DHAVE_TEXTREAD) \
+              $(if $(filter csrc/core/fit/fit.c,$(FUZZ_CORE)),-DHAVE_FIT) \
+              $(if $(filter csrc/core/net/net.c,$(FUZZ_CORE)),-DHAVE_NET)
+CTEST_OBJ  := $(patsubst csrc/core/%.c,$(CTEST_DIR)/%.o,$(FUZZ_CORE))
 CTEST_LIB  := $(CTEST_DIR)/libswcore.a
 
-$(CTEST_DIR)/%.o: csrc/%.c $(wildcard csrc/*.h)
+$(CTEST_DIR)/%.o: csrc/core/%.c $(CORE_HDR)
 	@mkdir -p $(dir $@)
 	$(CC) $(WARN) -O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined \
-	  -D_POSIX_C_SOURCE=200809L $(SHORTCUTS) $(shell pkg-config --cflags gsl 2>/dev/null) -c $< -o $@
+	  -D_POSIX_C_SOURCE=200809L -Icsrc/core $(SHORTCUTS) $(shell pkg-config --cflags gsl 2>/dev/null) -c $< -o $@
 
 # The GSL constructors the core calls are wrapped too (see spec/c/alloc_fail.c).
 $(CTEST_LIB): $(CTEST_OBJ)
@@ -93,7 +93,7 @@ $(CTEST_LIB): $(CTEST_OBJ)
 
 $(CTEST_DIR)/alloc_fail: spec/c/alloc_fail.c $(CTEST_LIB)
 	$(CC) $(WARN) -O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined \
-	  -D_POSIX_C_SOURCE=200809L -Icsrc $(CTEST_DEFS) $< $(CTEST_LIB) $(CTEST_WRAP) \
+	  -D_POSIX_C_SOURCE=200809L -Icsrc/core $(CTEST_DEFS) $< $(CTEST_LIB) $(CTEST_WRAP) \
 	  -lgsl -lgslcblas -lm -o $@
 
 ctest: deps

@@ -6,7 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "curve.h"
+#include "curve/curve.h"
 #include "fuzz_input.h"
 
 #define MAX_SAMPLES 64

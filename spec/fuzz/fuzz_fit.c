@@ -8,7 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "fit.h"
+#include "fit/fit.h"
 #include "fuzz_input.h"
 
 #define MAX_SAMPLES 40

@@ -8,8 +8,8 @@
 
 #include <gsl/gsl_errno.h>
 
-#include "pwl.h"
-#include "pwl_io.h"
+#include "pwl/pwl.h"
+#include "pwl/pwl_io.h"
 
 #define MAX_FILE (16 * 1024)
 

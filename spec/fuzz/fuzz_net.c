@@ -8,7 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "net.h"
+#include "net/net.h"
 #include "fuzz_input.h"
 
 #define MAX_EL 8

@@ -6,8 +6,8 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "curve.h"
-#include "pwl.h"
+#include "curve/curve.h"
+#include "pwl/pwl.h"
 #include "fuzz_input.h"
 
 #define MAX_KNOTS 48

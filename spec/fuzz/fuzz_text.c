@@ -4,7 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "textread.h"
+#include "text/textread.h"
 #include "fuzz_input.h"
 
 #define MAX_TEXT (64 * 1024)

@@ -1,0 +1,761 @@
+/* Binding of networks: the network userdata (its models and exact curves
+ * kept alive in its user values), solving, all solutions, sweeps.  Results
+ * of the core are held in a GC-owned holder while they are turned into Lua
+ * tables, so a Lua error at any point frees them. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "bind.h"
+#include "net/net.h"
+
+#define LSW_NET_MT "segwise.Network"
+#define LSW_HOLD_MT "segwise.NetResults"
+
+typedef struct lsw_net {
+  sw_net net;
+  int freed;
+  int busy;  /* > 0 while Newton calls back into Lua (exact curves) */
+} lsw_net;
+
+/* Everything a solve may allocate, freed by __gc. */
+typedef struct lsw_hold {
+  sw_net_op *ops;
+  size_t nops;
+  sw_net_trace trace;
+  int *states;
+  sw_net_sweep_info sweep;
+} lsw_hold;
+
+static int hold_gc(lua_State *L)
+{
+  lsw_hold *h = luaL_checkudata(L, 1, LSW_HOLD_MT);
+  size_t k;
+  for (k = 0; k < h->nops; k++) sw_net_op_free(&h->ops[k]);
+  free(h->ops); h->ops = NULL; h->nops = 0;
+  sw_net_trace_free(&h->trace);
+  free(h->states); h->states = NULL;
+  sw_net_sweep_info_free(&h->sweep);
+  return 0;
+}
+
+static lsw_hold *new_hold(lua_State *L)
+{
+  lsw_hold *h = lua_newuserdatauv(L, sizeof *h, 0);
+  memset(h, 0, sizeof *h);
+  luaL_setmetatable(L, LSW_HOLD_MT);
+  return h;
+}
+
+static void hold_ops(lua_State *L, lsw_hold *h, size_t n)
+{
+  sw_err err = { 0, "" };
+  h->ops = sw_alloc(n, sizeof *h->ops, &err);
+  if (!h->ops) lsw_raise(L, "network", &err);
+  h->nops = n;
+}
+
+static lsw_net *check_net(lua_State *L, int idx)
+{
+  lsw_net *n = luaL_checkudata(L, idx, LSW_NET_MT);
+  if (n->freed) luaL_error(L, "segwise.network: network used after free()");
+  return n;
+}
+
+static int net_gc(lua_State *L)
+{
+  lsw_net *n = luaL_checkudata(L, 1, LSW_NET_MT);
+  if (!n->freed) {
+    sw_net_free(&n->net);
+    n->freed = 1;
+  }
+  return 0;
+}
+
+/* :free() and __close: refused while a solve calls back into Lua. */
+static int net_release(lua_State *L)
+{
+  lsw_net *n = luaL_checkudata(L, 1, LSW_NET_MT);
+  if (n->busy > 0 && !n->freed) return lsw_refuse_busy(L, "network");
+  return net_gc(L);
+}
+
+/* core.net_new(): user value 1 holds the models, 2 the exact curves, both
+ * indexed by device number (1-based). */
+static int l_net_new(lua_State *L)
+{
+  lsw_net *n = lua_newuserdatauv(L, sizeof *n, 2);
+  memset(n, 0, sizeof *n);
+  sw_net_init(&n->net);
+  luaL_setmetatable(L, LSW_NET_MT);
+  lua_newtable(L); lua_setiuservalue(L, -2, 1);
+  lua_newtable(L); lua_setiuservalue(L, -2, 2);
+  return 1;
+}
+
+static const char *node_arg(lua_State *L, int idx, const char *what)
+{
+  if (lua_type(L, idx) == LUA_TNUMBER) {
+    lua_pushvalue(L, idx);
+    lua_replace(L, idx);
+    return lua_tostring(L, idx); /* converts in place: numbers name nodes too */
+  }
+  if (lua_type(L, idx) != LUA_TSTRING)
+    luaL_error(L, "segwise.network: %s must be a node name (string or number, got %s)", what, luaL_typename(L, idx));
+  return lua_tostring(L, idx);
+}
+
+/* n:add(kind, name, n1, n2, n3, n4, ctrl, value) */
+static int l_add(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  static const char *const kinds[] = { "r", "v", "i", "vcvs", "vccs", "ccvs", "cccs", NULL };
+  static const sw_net_kind codes[] = { SW_NET_R, SW_NET_V, SW_NET_I, SW_NET_VCVS, SW_NET_VCCS, SW_NET_CCVS, SW_NET_CCCS };
+  int k = luaL_checkoption(L, 2, NULL, kinds);
+  const char *name = luaL_checkstring(L, 3), *nodes[4], *ctrl = NULL;
+  double value = luaL_checknumber(L, 9);
+  sw_err err = { 0, "" };
+  int j, nn = (codes[k] == SW_NET_VCVS || codes[k] == SW_NET_VCCS) ? 4 : 2;
+  static const char *const what[] = { "first node", "second node", "first control node", "second control node" };
+  for (j = 0; j < nn; j++) nodes[j] = node_arg(L, 4 + j, what[j]);
+  if (codes[k] == SW_NET_CCVS || codes[k] == SW_NET_CCCS) ctrl = luaL_checkstring(L, 8);
+  if (sw_net_add(&n->net, codes[k], name, nodes, ctrl, value, &err)) return lsw_raise(L, "network:add", &err);
+  return 0;
+}
+
+/* n:device(name, na, nb, model, x_is_i, pmax [, curve]) */
+static int l_device(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  const char *name = luaL_checkstring(L, 2);
+  const char *na = node_arg(L, 3, "first node"), *nb = node_arg(L, 4, "second node");
+  lsw_model *m = lsw_checkmodel(L, 5);
+  int x_is_i = lua_toboolean(L, 6);
+  double pmax = luaL_optnumber(L, 7, 0);
+  sw_err err = { 0, "" };
+  if (!lua_isnoneornil(L, 8)) lsw_checkcurve(L, 8);
+  if (sw_net_add_device(&n->net, name, na, nb, &m->m, x_is_i, pmax, &err)) return lsw_raise(L, "network:element", &err);
+  lua_getiuservalue(L, 1, 1);
+  lua_pushvalue(L, 5);
+  lua_rawseti(L, -2, (lua_Integer)n->net.ndev);
+  lua_getiuservalue(L, 1, 2);
+  lua_pushvalue(L, 8);
+  lua_rawseti(L, -2, (lua_Integer)n->net.ndev);
+  return 0;
+}
+
+static int l_set(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  sw_err err = { 0, "" };
+  if (sw_net_set(&n->net, luaL_checkstring(L, 2), luaL_checknumber(L, 3), &err)) return lsw_raise(L, "network:set", &err);
+  return 0;
+}
+
+static void prepare(lua_State *L, lsw_net *n, const char *fname)
+{
+  sw_err err = { 0, "" };
+  if (sw_net_prepare(&n->net, &err)) lsw_raise(L, fname, &err);
+}
+
+/* Fills a start array from the table at tidx. */
+static void fill_start(lua_State *L, int tidx, const sw_net *net, int *st)
+{
+  lua_pushnil(L);
+  while (lua_next(L, tidx)) {
+    const char *name;
+    size_t el, s;
+    lua_Integer label;
+    if (lua_type(L, -2) != LUA_TSTRING) luaL_error(L, "segwise.network:solve: start keys must be device names");
+    name = lua_tostring(L, -2);
+    el = sw_net_find(net, name);
+    if (el == SW_NET_NONE || net->el[el].kind != SW_NET_DEV) luaL_error(L, "segwise.network:solve: start: no device named '%s'", name);
+    if (!lua_isinteger(L, -1)) luaL_error(L, "segwise.network:solve: start.%s must be an integer segment number", name);
+    label = lua_tointeger(L, -1);
+    {
+      const sw_net_dev *d = &net->dev[net->el[el].dev];
+      for (s = 0; s < d->nseg; s++) if (d->seg[s].label == label) break;
+      if (s == d->nseg)
+        luaL_error(L, "segwise.network:solve: start.%s = %d is not a segment of its model (segments %d..%d)", name, (int)label, d->seg[0].label, d->seg[d->nseg - 1].label);
+      st[net->el[el].dev] = (int)s;
+    }
+    lua_pop(L, 1);
+  }
+}
+
+static void setnum(lua_State *L, const char *key, double v) { lua_pushnumber(L, v); lua_setfield(L, -2, key); }
+
+static const char *stability_name(int s)
+{
+  switch (s) {
+  case SW_NET_STABLE: return "stable";
+  case SW_NET_UNSTABLE: return "unstable";
+  case SW_NET_MARGINAL: return "marginal";
+  }
+  return "unknown";
+}
+
+static void push_op(lua_State *L, const sw_net *net, const sw_net_op *op)
+{
+  size_t k;
+  lua_createtable(L, 0, 10);
+  lua_createtable(L, 0, (int)net->nnodes);
+  for (k = 0; k < net->nnodes; k++) setnum(L, net->node[k], op->vnode[k]);
+  lua_pushnumber(L, 0); lua_setfield(L, -2, "gnd");
+  lua_setfield(L, -2, "v");
+  lua_createtable(L, 0, (int)net->nel);
+  for (k = 0; k < net->nel; k++) setnum(L, net->el[k].name, op->i[k]);
+  lua_setfield(L, -2, "i");
+  lua_createtable(L, 0, (int)net->nel);
+  for (k = 0; k < net->nel; k++) setnum(L, net->el[k].name, op->p[k]);
+  lua_setfield(L, -2, "p");
+  lua_createtable(L, 0, (int)net->nel);
+  for (k = 0; k < net->nel; k++) setnum(L, net->el[k].name, op->v[k]);
+  lua_setfield(L, -2, "vd");
+  lua_createtable(L, 0, (int)net->ndev);
+  for (k = 0; k < net->ndev; k++) {
+    lua_pushinteger(L, net->dev[k].seg[op->state[k]].label);
+    lua_setfield(L, -2, net->el[net->dev[k].el].name);
+  }
+  lua_setfield(L, -2, "state");
+  lua_createtable(L, 0, (int)net->ndev);
+  for (k = 0; k < net->ndev; k++) {
+    lua_pushboolean(L, op->on_bp[k]);
+    lua_setfield(L, -2, net->el[net->dev[k].el].name);
+  }
+  lua_setfield(L, -2, "on_breakpoint");
+  lua_pushinteger(L, (lua_Integer)op->iterations);
+  lua_setfield(L, -2, "iterations");
+}
+
+static void push_trace(lua_State *L, const sw_net *net, const sw_net_trace *t)
+{
+  size_t a, k, m = net->ndev;
+  static const char *const ev[] = { "solved", "singular", "cycle" };
+  lua_createtable(L, (int)t->n, 0);
+  for (a = 0; a < t->n; a++) {
+    lua_createtable(L, 0, 6);
+    lua_pushstring(L, ev[t->event[a]]); lua_setfield(L, -2, "event");
+    {
+      static const char *const keys[] = { "state", "v", "i", "x", "excess" };
+      int f;
+      for (f = 0; f < 5; f++) {
+        lua_createtable(L, 0, (int)m);
+        for (k = 0; k < m; k++) {
+          size_t q = a * m + k;
+          if (f == 0) lua_pushinteger(L, net->dev[k].seg[t->state[q]].label);
+          else lua_pushnumber(L, f == 1 ? t->v[q] : f == 2 ? t->i[q] : f == 3 ? t->x[q] : t->excess[q]);
+          lua_setfield(L, -2, net->el[net->dev[k].el].name);
+        }
+        lua_setfield(L, -2, keys[f]);
+      }
+    }
+    lua_rawseti(L, -2, (lua_Integer)a + 1);
+  }
+}
+
+/* Binds the exact curves (user value 2) and runs Newton from op. */
+static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_iter)
+{
+  size_t m = n->net.ndev, k;
+  const sw_curve **ptr;
+  sw_curve *copies;
+  lsw_callctx *ctx;
+  int top, rc;
+  sw_err err = { 0, "" };
+  ptr = lua_newuserdatauv(L, (m ? m : 1) * sizeof *ptr, 0);
+  copies = lua_newuserdatauv(L, (m ? m : 1) * sizeof *copies, 0);
+  ctx = lua_newuserdatauv(L, (m ? m : 1) * sizeof *ctx, 0);
+  lua_getiuservalue(L, 1, 2);
+  top = lua_gettop(L);
+  for (k = 0; k < m; k++) {
+    lua_rawgeti(L, top, (lua_Integer)k + 1);
+    if (lua_isnil(L, -1)) { lua_pop(L, 1); ptr[k] = NULL; continue; }
+    lsw_curve_bind(L, -1, &copies[k], &ctx[k]);
+    ptr[k] = &copies[k];
+  }
+  n->busy++;
+  rc = sw_net_exact(&n->net, ptr, op, max_iter > 0 ? (size_t)max_iter : 0, &err);
+  n->busy--;
+  for (k = m; k-- > 0;) if (ptr[k]) { lsw_curve_done(L, &ctx[k]); lua_pop(L, 1); }
+  lua_settop(L, top - 4);
+  if (rc) lsw_raise(L, "network:solve", &err);
+}
+
+/* n:solve(method, start, trace, max_states, exact, max_iter, lowrank)
+ * -> op, info {method=, nfound=, pmatrix=, pmatrix_test=, trace=} */
+static int l_solve(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  static const char *const methods[] = { "auto", "assumed", "enumerate", "lcp", NULL };
+  int method = luaL_checkoption(L, 2, "auto", methods);
+  int want_trace = lua_toboolean(L, 4), exact = lua_toboolean(L, 6), rc = SW_OK, pm = -1;
+  double max_states = luaL_optnumber(L, 5, 1e6);
+  lua_Integer max_iter = luaL_optinteger(L, 7, 0);
+  const sw_net *net = &n->net;
+  size_t m, it = 0, nfound = 0, count = 0, updates = 0;
+  const char *used = methods[method], *how = NULL;
+  int *start = NULL, *state;
+  lsw_hold *h;
+  sw_err err = { 0, "" };
+  lua_settop(L, 8);
+  prepare(L, n, "network:solve");
+  m = net->ndev;
+  if (!lua_isnil(L, 3)) {
+    luaL_checktype(L, 3, LUA_TTABLE);
+    start = lua_newuserdatauv(L, (m ? m : 1) * sizeof *start, 0);
+    sw_net_default_start(net, start);
+    fill_start(L, 3, net, start);
+  }
+  h = new_hold(L);
+  hold_ops(L, h, 1);
+  h->states = sw_alloc(m ? m : 1, sizeof(int), &err);
+  if (!h->states) return lsw_raise(L, "network:solve", &err);
+  state = h->states;
+  switch (method) {
+  case 0: rc = sw_net_auto(net, start, max_states, state, &it, &nfound, &used, &err); break;
+  case 1:
+    n->net.refactor_always = lua_isboolean(L, 8) && !lua_toboolean(L, 8);
+    rc = sw_net_assumed(net, start, 0, state, &it, want_trace ? &h->trace : NULL, &updates, &err);
+    n->net.refactor_always = 0;
+    break;
+  case 2: {
+    int *all = NULL;
+    rc = sw_net_enumerate(net, max_states, &all, &count, &it, &err);
+    if (rc == SW_OK && count == 0)
+      rc = sw_err_set(&err, SW_ENOSOL, "no consistent state exists: enumeration of all %zu states found none", it);
+    if (rc == SW_OK) memcpy(state, all, m * sizeof *state);
+    free(all);
+    nfound = count;
+    break;
+  }
+  case 3: rc = sw_net_lcp(net, state, &it, &pm, &how, &err); break;
+  }
+  if (rc) {
+    if (want_trace && h->trace.n) { /* the attempts are part of the answer */
+      push_trace(L, net, &h->trace);
+      lua_pushfstring(L, "segwise.network:solve: %s", err.msg);
+      lua_setfield(L, -2, "error");
+      return lua_error(L);
+    }
+    return lsw_raise(L, "network:solve", &err);
+  }
+  if (sw_net_op_from_state(net, state, &h->ops[0], &err)) return lsw_raise(L, "network:solve", &err);
+  h->ops[0].iterations = it;
+  if (exact) run_exact(L, n, &h->ops[0], max_iter);
+  push_op(L, net, &h->ops[0]);
+  lua_createtable(L, 0, 5);
+  lua_pushstring(L, exact ? "exact" : used); lua_setfield(L, -2, "method");
+  lua_pushinteger(L, (lua_Integer)nfound); lua_setfield(L, -2, "nfound");
+  if (method == 3) {
+    if (pm >= 0) { lua_pushboolean(L, pm); lua_setfield(L, -2, "pmatrix"); }
+    lua_pushstring(L, how); lua_setfield(L, -2, "pmatrix_test");
+  }
+  if (method == 1) { lua_pushinteger(L, (lua_Integer)updates); lua_setfield(L, -2, "lowrank_updates"); }
+  if (want_trace && method == 1) { push_trace(L, net, &h->trace); lua_setfield(L, -2, "trace"); }
+  return 2;
+}
+
+/* n:solve_all(max_states) -> list of ops with stability */
+static int l_solve_all(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  double max_states = luaL_optnumber(L, 2, 1e6);
+  const sw_net *net = &n->net;
+  size_t count = 0, visited = 0, k, m;
+  int *all = NULL;
+  lsw_hold *h;
+  sw_err err = { 0, "" };
+  prepare(L, n, "network:solve_all");
+  m = net->ndev;
+  h = new_hold(L);
+  if (sw_net_enumerate(net, max_states, &all, &count, &visited, &err)) return lsw_raise(L, "network:solve_all", &err);
+  h->states = all;
+  if (count) hold_ops(L, h, count);
+  for (k = 0; k < count; k++) {
+    int s;
+    if (sw_net_op_from_state(net, all + k * m, &h->ops[k], &err)) return lsw_raise(L, "network:solve_all", &err);
+    h->ops[k].iterations = visited;
+    s = sw_net_stability(net, &h->ops[k], &err);
+    if (s < 0) return lsw_raise(L, "network:solve_all", &err);
+    h->ops[k].stability = s;
+  }
+  lua_createtable(L, (int)count, 0);
+  for (k = 0; k < count; k++) {
+    push_op(L, net, &h->ops[k]);
+    lua_pushstring(L, stability_name(h->ops[k].stability));
+    lua_setfield(L, -2, "stability");
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 1;
+}
+
+/* Checks the swept element (arg 2) and reads the start states (arg 4). */
+static size_t sweep_target(lua_State *L, lsw_net *n, int **start)
+{
+  const char *name = luaL_checkstring(L, 2);
+  size_t el = sw_net_find(&n->net, name);
+  *start = NULL;
+  if (el == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: no element named '%s'", name);
+  if (n->net.el[el].kind == SW_NET_DEV) luaL_error(L, "segwise.network:sweep: '%s' is a device; sweep a source, gain or resistor", name);
+  prepare(L, n, "network:sweep");
+  if (!lua_isnoneornil(L, 4)) {
+    luaL_checktype(L, 4, LUA_TTABLE);
+    *start = lua_newuserdatauv(L, (n->net.ndev ? n->net.ndev : 1) * sizeof **start, 0);
+    sw_net_default_start(&n->net, *start);
+    fill_start(L, 4, &n->net, *start);
+  }
+  return el;
+}
+
+/* n:sweep(name, values, start, max_states, lowrank) -> list of ops */
+static int l_sweep(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  size_t nv, k, el;
+  double *vals, max_states;
+  int *start = NULL, rc;
+  lsw_hold *h;
+  sw_err err = { 0, "" };
+  lua_settop(L, 6);  /* scratch buffers pushed below must not land in argument slots */
+  vals = lsw_checkdoubles(L, 3, "values", &nv, 0);
+  max_states = luaL_optnumber(L, 5, 1e6);
+  el = sweep_target(L, n, &start);
+  h = new_hold(L);
+  if (nv) hold_ops(L, h, nv);
+  n->net.refactor_always = lua_isboolean(L, 6) && !lua_toboolean(L, 6);
+  rc = sw_net_sweep(&n->net, el, vals, nv, start, max_states, h->ops, &err);
+  n->net.refactor_always = 0;
+  if (rc) return lsw_raise(L, "network:sweep", &err);
+  lua_createtable(L, (int)nv, 0);
+  for (k = 0; k < nv; k++) {
+    push_op(L, &n->net, &h->ops[k]);
+    setnum(L, "value", vals[k]);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 1;
+}
+
+/* The swept values: an array is read in place (a copy of 1e5 values costs
+ * more in fresh-page faults than the sweep itself); a table is copied. */
+static const double *sweep_values(lua_State *L, int idx, size_t *n)
+{
+  lsw_array *a = lsw_toarray(L, idx);
+  size_t k;
+  if (!a || a->freed) return lsw_checkdoubles(L, idx, "values", n, 0);
+  for (k = 0; k < a->n; k++)
+    if (!sw_isfinite(a->data[k])) luaL_error(L, "segwise.network:sweep: values[%d] is not finite (%f)", (int)(k + 1), a->data[k]);
+  *n = a->n;
+  return a->data;
+}
+
+static size_t find_node(const sw_net *net, const char *name)
+{
+  size_t k;
+  if (strcmp(name, "gnd") == 0) return 0;
+  for (k = 0; k < net->nnodes; k++) if (strcmp(net->node[k], name) == 0) return k;
+  return SW_NET_NONE;
+}
+
+/* Parses out[j] = "i.D1", "vd.R", "p.D1", "v.a" or "state.D1". */
+static void parse_quant(lua_State *L, const sw_net *net, int j, const char *s, sw_net_quant *q)
+{
+  static const char *const keys[] = { "i", "vd", "p", "v", "state" };
+  static const sw_net_qkind kinds[] = { SW_NQ_I, SW_NQ_VD, SW_NQ_P, SW_NQ_V, SW_NQ_STATE };
+  const char *dot = strchr(s, '.'), *what;
+  size_t f, len = dot ? (size_t)(dot - s) : 0, idx;
+  for (f = 0; f < 5; f++) if (dot && strlen(keys[f]) == len && strncmp(s, keys[f], len) == 0) break;
+  if (f == 5)
+    luaL_error(L, "segwise.network:sweep: out[%d] = '%s': expected \"i.<element>\", \"vd.<element>\", \"p.<element>\", \"v.<node>\" or \"state.<device>\"", j, s);
+  what = dot + 1;
+  q->kind = kinds[f];
+  if (q->kind == SW_NQ_V) {
+    idx = find_node(net, what);
+    if (idx == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': no node named '%s'", j, s, what);
+  } else {
+    idx = sw_net_find(net, what);
+    if (idx == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': no element named '%s'", j, s, what);
+    if (q->kind == SW_NQ_STATE) {
+      if (net->el[idx].kind != SW_NET_DEV) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': '%s' is not a PWL device", j, s, what);
+      idx = net->el[idx].dev;
+    }
+  }
+  q->idx = idx;
+}
+
+/* The result table of an array loop: for each name in the list at index
+ * outidx, an array of n values, at res[j] and res[name]; *q the parsed
+ * quantities.  Leaves res on the stack and returns its index. */
+static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_points, const char *fname,
+                             sw_net_quant **q, size_t *nq)
+{
+  size_t j;
+  int res;
+  luaL_checktype(L, outidx, LUA_TTABLE);
+  *nq = (size_t)luaL_len(L, outidx);
+  if (*nq == 0) return luaL_error(L, "segwise.network:%s: out must list at least one quantity", fname);
+  *q = lua_newuserdatauv(L, *nq * sizeof **q, 0);
+  lua_createtable(L, (int)*nq, (int)*nq + 6);
+  res = lua_gettop(L);
+  for (j = 0; j < *nq; j++) {
+    lsw_array *a;
+    lua_geti(L, outidx, (lua_Integer)j + 1);
+    if (lua_type(L, -1) != LUA_TSTRING)
+      return luaL_error(L, "segwise.network:%s: out[%d] must be a string (got %s)", fname, (int)j + 1,
+                        luaL_typename(L, -1));
+    parse_quant(L, &n->net, (int)j + 1, lua_tostring(L, -1), &(*q)[j]);
+    a = lsw_newarray(L, n_points);
+    (*q)[j].out = a->data;
+    lua_pushvalue(L, -1);
+    lua_rawseti(L, res, (lua_Integer)j + 1);
+    lua_rawset(L, res);  /* res[name] = array */
+  }
+  return res;
+}
+
+/* The counters and the warnings of an array loop into res: warnings
+ * grouped by device and kind, indices 1-based in point order. */
+static void push_loop_info(lua_State *L, lsw_net *n, int res, const sw_net_sweep_info *info)
+{
+  size_t m = n->net.ndev, w, g, *count;
+  int list, nl = 0;
+  lua_pushinteger(L, (lua_Integer)info->iterations); lua_setfield(L, res, "iterations");
+  lua_pushinteger(L, (lua_Integer)info->updates); lua_setfield(L, res, "lowrank_updates");
+  lua_pushinteger(L, (lua_Integer)info->refactors); lua_setfield(L, res, "refactors");
+  lua_pushinteger(L, (lua_Integer)info->fallbacks); lua_setfield(L, res, "fallbacks");
+  count = lua_newuserdatauv(L, 2 * (m ? m : 1) * sizeof *count, 0);
+  memset(count, 0, 2 * (m ? m : 1) * sizeof *count);
+  for (w = 0; w < info->nwarn; w++) count[2 * info->warn[w].dev + (size_t)info->warn[w].kind]++;
+  lua_newtable(L);
+  list = lua_gettop(L);
+  for (g = 0; g < 2 * m; g++) {
+    lsw_array *a;
+    size_t dev = g / 2, pos = 0;
+    if (count[g] == 0) continue;
+    lua_createtable(L, 0, 4);
+    lua_pushstring(L, n->net.el[n->net.dev[dev].el].name); lua_setfield(L, -2, "device");
+    lua_pushstring(L, g % 2 == SW_NW_RANGE ? "range" : "pmax"); lua_setfield(L, -2, "kind");
+    a = lsw_newarray(L, count[g]);
+    for (w = 0; w < info->nwarn; w++)
+      if (2 * info->warn[w].dev + (size_t)info->warn[w].kind == g) a->data[pos++] = (double)info->warn[w].index + 1;
+    lua_setfield(L, -2, "indices");
+    lua_rawseti(L, list, ++nl);
+  }
+  lua_setfield(L, res, "warnings");
+  lua_pop(L, 1); /* count */
+}
+
+/* n:sweep_arrays(name, values, start, max_states, out, lowrank)
+ * -> {[k] = array, [out[k]] = array, iterations=, lowrank_updates=,
+ *     refactors=, fallbacks=, warnings = {{device=, kind=, indices=}...}} */
+static int l_sweep_arrays(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  size_t nv, el, nq;
+  const double *vals;
+  double max_states;
+  int *start = NULL, rc, res;
+  sw_net_quant *q = NULL;
+  lsw_hold *h;
+  sw_err err = { 0, "" };
+  nq = 0;
+  lua_settop(L, 7);
+  vals = sweep_values(L, 3, &nv);
+  max_states = luaL_optnumber(L, 5, 1e6);
+  luaL_checktype(L, 6, LUA_TTABLE);
+  el = sweep_target(L, n, &start);
+  res = push_quant_arrays(L, n, 6, nv, "sweep", &q, &nq);
+  h = new_hold(L);
+  n->net.refactor_always = lua_isboolean(L, 7) && !lua_toboolean(L, 7);
+  rc = sw_net_sweep_arrays(&n->net, el, vals, nv, start, max_states, q, nq, &h->sweep, &err);
+  n->net.refactor_always = 0;
+  if (rc) return lsw_raise(L, "network:sweep", &err);
+  push_loop_info(L, n, res, &h->sweep);
+  lua_pushvalue(L, res);
+  return 1;
+}
+
+/* The arguments both Monte Carlo forms share: (n, names, tols, gauss,
+ * runs, seed) at stack indices 1..6. */
+typedef struct mc_args {
+  size_t k, runs;
+  size_t *el;
+  double *tol;
+  int *gauss;
+  lua_Integer seed;
+} mc_args;
+
+static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
+{
+  size_t nt, q;
+  lua_Integer nr = luaL_checkinteger(L, 5);
+  a->seed = luaL_checkinteger(L, 6);
+  luaL_checktype(L, 2, LUA_TTABLE);
+  luaL_checktype(L, 4, LUA_TTABLE);
+  a->k = (size_t)luaL_len(L, 2);
+  a->tol = lsw_checkdoubles(L, 3, "tol", &nt, 0);
+  if (nt != a->k || a->k == 0)
+    luaL_error(L, "segwise.network:montecarlo: %d names but %d tolerances", (int)a->k, (int)nt);
+  if (nr < 1 || nr > 100000000)
+    luaL_error(L, "segwise.network:montecarlo: runs must be in 1..1e8 (got %d)", (int)nr);
+  a->runs = (size_t)nr;
+  a->el = lua_newuserdatauv(L, a->k * sizeof *a->el, 0);
+  a->gauss = lua_newuserdatauv(L, a->k * sizeof *a->gauss, 0);
+  for (q = 0; q < a->k; q++) {
+    const char *name;
+    lua_geti(L, 2, (lua_Integer)q + 1);
+    name = luaL_checkstring(L, -1);
+    a->el[q] = sw_net_find(&n->net, name);
+    if (a->el[q] == SW_NET_NONE || n->net.el[a->el[q]].kind == SW_NET_DEV)
+      luaL_error(L, "segwise.network:montecarlo: no source, gain or resistor named '%s'", name);
+    lua_pop(L, 1);
+    lua_geti(L, 4, (lua_Integer)q + 1);
+    a->gauss[q] = lua_toboolean(L, -1);
+    lua_pop(L, 1);
+  }
+}
+
+/* n:montecarlo(names, tols, gauss, runs, seed, max_states) -> list of ops,
+ * each with .values = {name = drawn value} */
+static int l_montecarlo(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  size_t q, r;
+  double max_states = luaL_optnumber(L, 7, 1e6), *drawn;
+  lsw_hold *h;
+  mc_args a;
+  sw_err err = { 0, "" };
+  check_mc_args(L, n, &a);
+  prepare(L, n, "network:montecarlo");
+  drawn = lsw_scratch(L, a.runs * a.k);
+  h = new_hold(L);
+  hold_ops(L, h, a.runs);
+  if (sw_net_montecarlo(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed, max_states, h->ops,
+                        drawn, &err))
+    return lsw_raise(L, "network:montecarlo", &err);
+  lua_createtable(L, (int)a.runs, 0);
+  for (r = 0; r < a.runs; r++) {
+    push_op(L, &n->net, &h->ops[r]);
+    lua_createtable(L, 0, (int)a.k);
+    for (q = 0; q < a.k; q++) setnum(L, n->net.el[a.el[q]].name, drawn[r * a.k + q]);
+    lua_setfield(L, -2, "values");
+    lua_rawseti(L, -2, (lua_Integer)r + 1);
+  }
+  return 1;
+}
+
+/* n:montecarlo_arrays(names, tols, gauss, runs, seed, max_states, out) ->
+ * res as for sweep_arrays, plus res.values = {name = array of drawn values} */
+static int l_montecarlo_arrays(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  double max_states, **drawn;
+  sw_net_quant *q = NULL;
+  size_t nq = 0, j;
+  int res, vals, rc;
+  lsw_hold *h;
+  mc_args a;
+  sw_err err = { 0, "" };
+  lua_settop(L, 8);
+  max_states = luaL_optnumber(L, 7, 1e6);
+  check_mc_args(L, n, &a);
+  prepare(L, n, "network:montecarlo");
+  res = push_quant_arrays(L, n, 8, a.runs, "montecarlo", &q, &nq);
+  drawn = lua_newuserdatauv(L, a.k * sizeof *drawn, 0);
+  lua_createtable(L, 0, (int)a.k);
+  vals = lua_gettop(L);
+  for (j = 0; j < a.k; j++) {
+    lsw_array *arr = lsw_newarray(L, a.runs);
+    drawn[j] = arr->data;
+    lua_setfield(L, vals, n->net.el[a.el[j]].name);
+  }
+  lua_setfield(L, res, "values");
+  h = new_hold(L);
+  rc = sw_net_montecarlo_arrays(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed, max_states,
+                                drawn, q, nq, &h->sweep, &err);
+  if (rc) return lsw_raise(L, "network:montecarlo", &err);
+  push_loop_info(L, n, res, &h->sweep);
+  lua_pushvalue(L, res);
+  return 1;
+}
+
+/* n:segments(name) -> {{label=, lo=, hi=, slope=, intercept=}, ...} */
+static int l_segments(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  const char *name = luaL_checkstring(L, 2);
+  size_t el = sw_net_find(&n->net, name), k;
+  const sw_net_dev *d;
+  if (el == SW_NET_NONE || n->net.el[el].kind != SW_NET_DEV) return luaL_error(L, "segwise.network: no device named '%s'", name);
+  d = &n->net.dev[n->net.el[el].dev];
+  lua_createtable(L, (int)d->nseg, 0);
+  for (k = 0; k < d->nseg; k++) {
+    lua_createtable(L, 0, 5);
+    lua_pushinteger(L, d->seg[k].label); lua_setfield(L, -2, "label");
+    setnum(L, "lo", d->seg[k].lo); setnum(L, "hi", d->seg[k].hi);
+    setnum(L, "slope", d->seg[k].slope); setnum(L, "intercept", d->seg[k].icpt);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 1;
+}
+
+/* n:info() -> {nodes = {...}, elements = {{name=, kind=, nodes={...}, ctrl=, value=, pmax=, x=}}} */
+static int l_info(lua_State *L)
+{
+  lsw_net *n = check_net(L, 1);
+  const sw_net *net = &n->net;
+  size_t k;
+  lua_createtable(L, 0, 2);
+  lua_createtable(L, (int)net->nnodes, 0);
+  for (k = 0; k < net->nnodes; k++) { lua_pushstring(L, net->node[k]); lua_rawseti(L, -2, (lua_Integer)k + 1); }
+  lua_setfield(L, -2, "nodes");
+  lua_createtable(L, (int)net->nel, 0);
+  for (k = 0; k < net->nel; k++) {
+    const sw_net_el *e = &net->el[k];
+    static const char *const kn[] = { "", "resistor", "vsource", "isource", "vcvs", "vccs", "ccvs", "cccs", "element" };
+    int nn = (e->kind == SW_NET_VCVS || e->kind == SW_NET_VCCS) ? 4 : 2, j;
+    size_t idx[4];
+    idx[0] = e->na; idx[1] = e->nb; idx[2] = e->cp; idx[3] = e->cm;
+    lua_createtable(L, 0, 7);
+    lua_pushstring(L, e->name); lua_setfield(L, -2, "name");
+    lua_pushstring(L, kn[e->kind]); lua_setfield(L, -2, "kind");
+    lua_createtable(L, nn, 0);
+    for (j = 0; j < nn; j++) { lua_pushstring(L, net->node[idx[j]]); lua_rawseti(L, -2, j + 1); }
+    lua_setfield(L, -2, "nodes");
+    if (e->ctrl_name) { lua_pushstring(L, e->ctrl_name); lua_setfield(L, -2, "ctrl"); }
+    if (e->kind == SW_NET_DEV) {
+      const sw_net_dev *d = &net->dev[e->dev];
+      setnum(L, "pmax", d->pmax);
+      lua_pushstring(L, d->x_is_i ? "i" : "v"); lua_setfield(L, -2, "x");
+      lua_pushinteger(L, (lua_Integer)d->model.nseg); lua_setfield(L, -2, "nseg");
+      setnum(L, "lo", d->model.x[0]); /* the model's knot range, for range warnings */
+      setnum(L, "hi", d->model.x[d->model.nseg]);
+    } else setnum(L, "value", e->value);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  lua_setfield(L, -2, "elements");
+  return 1;
+}
+
+static const luaL_Reg net_methods[] = {
+  { "add", l_add }, { "device", l_device }, { "set", l_set }, { "solve", l_solve },
+  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "sweep_arrays", l_sweep_arrays }, { "montecarlo", l_montecarlo }, { "montecarlo_arrays", l_montecarlo_arrays }, { "segments", l_segments },
+  { "info", l_info }, { "free", net_release }, { NULL, NULL }
+};
+
+void lsw_open_net(lua_State *L)
+{
+  if (luaL_newmetatable(L, LSW_HOLD_MT)) {
+    lua_pushcfunction(L, hold_gc); lua_setfield(L, -2, "__gc");
+  }
+  lua_pop(L, 1);
+  if (luaL_newmetatable(L, LSW_NET_MT)) {
+    luaL_newlib(L, net_methods);
+    lua_setfield(L, -2, "__index");
+    lua_pushcfunction(L, net_gc); lua_setfield(L, -2, "__gc");
+    lua_pushcfunction(L, net_release); lua_setfield(L, -2, "__close");
+  }
+  lua_pop(L, 1);
+  lua_pushcfunction(L, l_net_new);
+  lua_setfield(L, -2, "net_new");
+}

@@ -1,0 +1,411 @@
+/* Binding of the PWL model: constructors, evaluation, companions, compare. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "bind.h"
+
+static const char *const extend_names[] = {"line", "hold", "error", NULL};
+
+lsw_model *lsw_checkmodel(lua_State *L, int idx)
+{
+  lsw_model *m = luaL_testudata(L, idx, LSW_MODEL_MT);
+  if (!m) lsw_error(L, "argument #%d must be a segwise model (got %s)", idx, luaL_typename(L, idx));
+  if (m->freed) lsw_error(L, "model used after free() (argument #%d)", idx);
+  return m;
+}
+
+lsw_model *lsw_newmodel(lua_State *L)
+{
+  lsw_model *m = lua_newuserdatauv(L, sizeof *m, 1);
+  memset(m, 0, sizeof *m);
+  luaL_setmetatable(L, LSW_MODEL_MT);
+  return m;
+}
+
+static int model_gc(lua_State *L)
+{
+  lsw_model *m = luaL_checkudata(L, 1, LSW_MODEL_MT);
+  if (!m->freed) {
+    sw_pwl_free(&m->m);
+    m->freed = 1;
+  }
+  return 0;
+}
+
+/* :free() and __close: refused while a computation uses the model. */
+static int model_release(lua_State *L)
+{
+  lsw_model *m = luaL_checkudata(L, 1, LSW_MODEL_MT);
+  if (m->busy > 0 && !m->freed) return lsw_refuse_busy(L, "model");
+  return model_gc(L);
+}
+
+static sw_extend check_extend(lua_State *L, int idx)
+{
+  const char *s = lua_isnoneornil(L, idx) ? "line" : lua_tostring(L, idx);
+  int k;
+  if (lua_type(L, idx) != LUA_TSTRING && !lua_isnoneornil(L, idx))
+    lsw_error(L, "the extension rule must be \"line\", \"hold\" or \"error\" (got %s)", luaL_typename(L, idx));
+  for (k = 0; extend_names[k]; k++)
+    if (strcmp(s, extend_names[k]) == 0) return (sw_extend)k;
+  return (sw_extend)lsw_error(L, "the extension rule must be \"line\", \"hold\" or \"error\" (got \"%s\")", s);
+}
+
+/* core.pwl_points(xs, ys, extend) */
+static int l_pwl_points(lua_State *L)
+{
+  size_t nx, ny;
+  double *x = lsw_checkdoubles(L, 1, "x", &nx, 0);
+  double *y = lsw_checkdoubles(L, 2, "y", &ny, 0);
+  sw_extend ext = check_extend(L, 3);
+  sw_err err;
+  lsw_model *m;
+  if (nx != ny) return luaL_error(L, "segwise.pwl: x has %d values but y has %d", (int)nx, (int)ny);
+  m = lsw_newmodel(L);
+  if (sw_pwl_from_points(&m->m, x, y, nx, &err)) return lsw_raise(L, "pwl", &err);
+  m->m.extend = ext;
+  return 1;
+}
+
+/* core.pwl_segments(lo, hi, slope, icpt, extend) */
+static int l_pwl_segments(lua_State *L)
+{
+  size_t n[4];
+  double *lo = lsw_checkdoubles(L, 1, "lo", &n[0], 0);
+  double *hi = lsw_checkdoubles(L, 2, "hi", &n[1], 0);
+  double *sl = lsw_checkdoubles(L, 3, "slope", &n[2], 0);
+  double *ic = lsw_checkdoubles(L, 4, "intercept", &n[3], 0);
+  sw_extend ext = check_extend(L, 5);
+  sw_err err;
+  lsw_model *m;
+  if (n[0] != n[1] || n[0] != n[2] || n[0] != n[3]) return luaL_error(L, "segwise.pwl.segments: field lists differ in length");
+  m = lsw_newmodel(L);
+  if (sw_pwl_from_segments(&m->m, lo, hi, sl, ic, n[0], &err)) return lsw_raise(L, "pwl.segments", &err);
+  m->m.extend = ext;
+  return 1;
+}
+
+/* Evaluates a number, a table or an array at index 2; m:eval(x, out) writes
+ * into the array out (which may be x itself) and returns it. */
+static int l_eval(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  sw_err err;
+  if (lua_type(L, 2) == LUA_TNUMBER) {
+    double y;
+    if (sw_pwl_eval(&m->m, lua_tonumber(L, 2), &y, &err)) return lsw_raise(L, "model:eval", &err);
+    lua_pushnumber(L, y);
+    return 1;
+  } else {
+    size_t n;
+    lsw_array *in = lsw_toarray(L, 2), *out = NULL;
+    double *x, *y;
+    if (!lua_isnoneornil(L, 3)) {
+      out = lsw_toarray(L, 3);
+      if (!out) return luaL_error(L, "segwise.model:eval: out must be a segwise array (got %s)", luaL_typename(L, 3));
+      if (out->freed) return luaL_error(L, "segwise.model:eval: out used after free()");
+    }
+    if (in && !in->freed) { /* straight from the array: no copy */
+      if (out && out->n < in->n)
+        return luaL_error(L, "segwise.model:eval: out has %d values but x has %d", (int)out->n, (int)in->n);
+      if (!out) out = lsw_newarray(L, in->n);
+      else lua_pushvalue(L, 3);
+      if (sw_pwl_eval_many(&m->m, in->data, out->data, in->n, &err)) return lsw_raise(L, "model:eval", &err);
+      return 1;
+    }
+    x = lsw_checkdoubles(L, 2, "x", &n, 1);
+    if (out) {
+      if (out->n < n) return luaL_error(L, "segwise.model:eval: out has %d values but x has %d", (int)out->n, (int)n);
+      if (sw_pwl_eval_many(&m->m, x, out->data, n, &err)) return lsw_raise(L, "model:eval", &err);
+      lua_pushvalue(L, 3);
+      return 1;
+    }
+    y = lsw_scratch(L, n);
+    if (sw_pwl_eval_many(&m->m, x, y, n, &err)) return lsw_raise(L, "model:eval", &err);
+    lsw_pushdoubles(L, y, n);
+    return 1;
+  }
+}
+
+static double check_x(lua_State *L, int idx)
+{
+  double x = luaL_checknumber(L, idx);
+  if (isnan(x)) luaL_error(L, "bad argument #%d (x is NaN)", idx);
+  return x;
+}
+
+static int l_slope(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  double s;
+  sw_err err;
+  if (sw_pwl_slope_at(&m->m, check_x(L, 2), &s, &err)) return lsw_raise(L, "model:slope", &err);
+  lua_pushnumber(L, s);
+  return 1;
+}
+
+static int l_segment(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  double x = check_x(L, 2), y;
+  sw_err err;
+  if (sw_pwl_eval(&m->m, x, &y, &err)) return lsw_raise(L, "model:segment", &err); /* honours extend */
+  lua_pushinteger(L, (lua_Integer)sw_pwl_locate(&m->m, x) + 1);
+  return 1;
+}
+
+static int l_nseg(lua_State *L)
+{
+  lua_pushinteger(L, (lua_Integer)lsw_checkmodel(L, 1)->m.nseg);
+  return 1;
+}
+
+/* m:knots() -> xs, ys (value at each knot; right-hand value at a jump),
+ * and ys_left (the left-hand limits) as a third result. */
+static int l_knots(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  size_t k, n = m->m.nseg;
+  lsw_pushdoubles(L, m->m.x, n + 1);
+  lua_createtable(L, (int)(n + 1), 0);
+  lua_createtable(L, (int)(n + 1), 0);
+  for (k = 0; k <= n; k++) {
+    lua_pushnumber(L, k < n ? m->m.ya[k] : m->m.yb[n - 1]);
+    lua_rawseti(L, -3, (lua_Integer)k + 1);
+    lua_pushnumber(L, k > 0 ? m->m.yb[k - 1] : m->m.ya[0]);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 3;
+}
+
+static size_t check_seg(lua_State *L, lsw_model *m, int idx)
+{
+  lua_Integer k = luaL_checkinteger(L, idx);
+  if (k < 1 || (lua_Unsigned)k > m->m.nseg)
+    lsw_error(L, "segment index %d is outside 1..%d", (int)k, (int)m->m.nseg);
+  return (size_t)(k - 1);
+}
+
+static void set_num(lua_State *L, const char *key, double v)
+{
+  lua_pushnumber(L, v);
+  lua_setfield(L, -2, key);
+}
+
+static int l_seg(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  size_t k = check_seg(L, m, 2);
+  double e, r;
+  sw_pwl_thevenin(&m->m, k, &e, &r);
+  lua_createtable(L, 0, 6);
+  set_num(L, "lo", m->m.x[k]);
+  set_num(L, "hi", m->m.x[k + 1]);
+  set_num(L, "slope", r);
+  set_num(L, "intercept", e);
+  set_num(L, "y_lo", m->m.ya[k]);
+  set_num(L, "y_hi", m->m.yb[k]);
+  return 1;
+}
+
+static int l_thevenin(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  size_t k = check_seg(L, m, 2);
+  double e, r;
+  sw_pwl_thevenin(&m->m, k, &e, &r);
+  lua_pushnumber(L, e);
+  lua_pushnumber(L, r);
+  return 2;
+}
+
+static int l_norton(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  size_t k = check_seg(L, m, 2);
+  double j, g;
+  sw_err err;
+  if (sw_pwl_norton(&m->m, k, &j, &g, &err)) return lsw_raise(L, "model:norton", &err);
+  lua_pushnumber(L, j);
+  lua_pushnumber(L, g);
+  return 2;
+}
+
+static int l_inverse(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_model *out = lsw_newmodel(L);
+  sw_err err;
+  if (sw_pwl_inverse(&m->m, &out->m, &err)) return lsw_raise(L, "model:inverse", &err);
+  return 1;
+}
+
+static int l_copy(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_model *out = lsw_newmodel(L);
+  sw_err err;
+  if (sw_pwl_copy(&m->m, &out->m, &err)) return lsw_raise(L, "model:copy", &err);
+  return 1;
+}
+
+static int l_canonical(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  size_t n = m->m.nseg;
+  double a, b, *c = lsw_scratch(L, n), *beta = lsw_scratch(L, n);
+  sw_err err;
+  if (sw_pwl_canonical(&m->m, &a, &b, c, beta, &err)) return lsw_raise(L, "model:canonical", &err);
+  lua_pushnumber(L, a);
+  lua_pushnumber(L, b);
+  lsw_pushdoubles(L, c, n - 1);
+  lsw_pushdoubles(L, beta, n - 1);
+  return 4;
+}
+
+/* Reads an optional finite number field of the options table at idx. */
+static double opt_field(lua_State *L, int idx, const char *key, double dflt)
+{
+  double v;
+  int isnum;
+  if (lua_isnoneornil(L, idx)) return dflt;
+  if (lua_getfield(L, idx, key) == LUA_TNIL) { lua_pop(L, 1); return dflt; }
+  v = lua_tonumberx(L, -1, &isnum);
+  if (!isnum || !isfinite(v)) lsw_error(L, "option %s must be a finite number", key);
+  lua_pop(L, 1);
+  return v;
+}
+
+/* m:compare(curve [, {lo=, hi=, n=, rel_floor=}]) */
+static int l_compare(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_curve *c = lsw_checkcurve(L, 2);
+  double lo, hi, n, floor;
+  sw_compare out;
+  sw_curve copy;
+  lsw_callctx ctx;
+  sw_err err;
+  int st;
+  if (!lua_isnoneornil(L, 3)) {
+    static const char *const known[] = {"lo", "hi", "n", "rel_floor", NULL};
+    if (!lua_istable(L, 3)) return lsw_error(L, "options must be a table (got %s)", luaL_typename(L, 3));
+    lua_pushnil(L);
+    while (lua_next(L, 3)) {
+      int k, ok = 0;
+      lua_pop(L, 1);
+      for (k = 0; known[k]; k++) ok |= lua_type(L, -1) == LUA_TSTRING && strcmp(lua_tostring(L, -1), known[k]) == 0;
+      if (!ok) return lsw_error(L, "unknown option '%s' (known: lo, hi, n, rel_floor)", luaL_tolstring(L, -1, NULL));
+    }
+  }
+  lo = c->c.lo > m->m.x[0] ? c->c.lo : m->m.x[0];
+  hi = c->c.hi < m->m.x[m->m.nseg] ? c->c.hi : m->m.x[m->m.nseg];
+  lo = opt_field(L, 3, "lo", lo);
+  hi = opt_field(L, 3, "hi", hi);
+  n = opt_field(L, 3, "n", 2001);
+  floor = opt_field(L, 3, "rel_floor", 0);
+  if (n < 2 || n > 1e8) return luaL_error(L, "segwise.model:compare: n = %f must be between 2 and 1e8", n);
+  lua_settop(L, 3);
+  lsw_curve_bind(L, 2, &copy, &ctx);
+  m->busy++;
+  st = sw_pwl_compare(&m->m, &copy, lo, hi, (size_t)n, floor, &out, &err);
+  m->busy--;
+  lsw_curve_done(L, &ctx);
+  if (st) return lsw_raise(L, "model:compare", &err);
+  lua_createtable(L, 0, 8);
+  set_num(L, "max_abs", out.max_abs);
+  set_num(L, "x_abs", out.x_abs);
+  set_num(L, "rms", out.rms);
+  if (!out.rel_undefined) {
+    set_num(L, "max_rel", out.max_rel);
+    set_num(L, "x_rel", out.x_rel);
+  } else {
+    lua_pushfstring(L, "relative error undefined: the curve is 0 near x = %f (give rel_floor)", out.x_zero);
+    lua_setfield(L, -2, "rel_note");
+  }
+  lua_pushinteger(L, (lua_Integer)out.npoints);
+  lua_setfield(L, -2, "points");
+  set_num(L, "lo", lo);
+  set_num(L, "hi", hi);
+  return 1;
+}
+
+static int l_fit_info(lua_State *L)
+{
+  lsw_checkmodel(L, 1);
+  lua_getiuservalue(L, 1, 1);
+  return 1;
+}
+
+static int l_extend(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  if (!lua_isnoneornil(L, 2)) {
+    m->m.extend = check_extend(L, 2);
+    lua_settop(L, 1);
+    return 1;
+  }
+  lua_pushstring(L, extend_names[m->m.extend]);
+  return 1;
+}
+
+static int l_continuous(lua_State *L)
+{
+  lua_pushboolean(L, lsw_checkmodel(L, 1)->m.continuous);
+  return 1;
+}
+
+static int l_tostring(lua_State *L)
+{
+  lsw_model *m = luaL_checkudata(L, 1, LSW_MODEL_MT);
+  luaL_Buffer b;
+  char line[160];
+  size_t k;
+  if (m->freed) { lua_pushliteral(L, "segwise model (freed)"); return 1; }
+  luaL_buffinit(L, &b);
+  snprintf(line, sizeof line, "segwise model: %zu segment%s, %s, outside the knots: %s\n", m->m.nseg,
+           m->m.nseg == 1 ? "" : "s", m->m.continuous ? "continuous" : "with jumps", extend_names[m->m.extend]);
+  luaL_addstring(&b, line);
+  snprintf(line, sizeof line, "%4s %13s %13s %13s %13s\n", "seg", "from x", "to x", "slope", "y at x=0");
+  luaL_addstring(&b, line);
+  for (k = 0; k < m->m.nseg; k++) {
+    double e, r;
+    sw_pwl_thevenin(&m->m, k, &e, &r);
+    snprintf(line, sizeof line, "%4zu %13.6g %13.6g %13.6g %13.6g\n", k + 1, m->m.x[k], m->m.x[k + 1], r, e);
+    luaL_addstring(&b, line);
+  }
+  luaL_pushresult(&b);
+  return 1;
+}
+
+static int l_len(lua_State *L) { return l_nseg(L); }
+
+static const luaL_Reg model_methods[] = {
+  {"eval", l_eval}, {"slope", l_slope}, {"segment", l_segment}, {"nseg", l_nseg},
+  {"knots", l_knots}, {"seg", l_seg}, {"thevenin", l_thevenin}, {"norton", l_norton},
+  {"inverse", l_inverse}, {"canonical", l_canonical}, {"compare", l_compare},
+  {"fit_info", l_fit_info}, {"extend", l_extend}, {"is_continuous", l_continuous},
+  {"copy", l_copy}, {"free", model_release}, {NULL, NULL}
+};
+
+static const luaL_Reg model_meta[] = {
+  {"__gc", model_gc}, {"__close", model_release}, {"__tostring", l_tostring},
+  {"__call", l_eval}, {"__len", l_len}, {NULL, NULL}
+};
+
+static const luaL_Reg pwl_funcs[] = {
+  {"pwl_points", l_pwl_points}, {"pwl_segments", l_pwl_segments}, {NULL, NULL}
+};
+
+void lsw_open_pwl(lua_State *L)
+{
+  luaL_newmetatable(L, LSW_MODEL_MT);
+  luaL_setfuncs(L, model_meta, 0);
+  luaL_newlib(L, model_methods);
+  lua_pushvalue(L, -1);
+  lua_setfield(L, -4, "model_methods"); /* so Lua can add methods */
+  lua_setfield(L, -2, "__index");
+  lua_pop(L, 1);
+  luaL_setfuncs(L, pwl_funcs, 0);
+}

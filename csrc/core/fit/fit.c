@@ -1,0 +1,699 @@
+/* sw_fit, the dispatcher on top of the fitting folder: options, the sample
+ * set, the choice of method, and the error report.  It calls the methods
+ * (fit_minimax.c, fit_interp.c, fit_lsq.c, fit_knots.c) and none of them
+ * calls back: what they share lives in the leaf fit_data.c. */
+#include "fit/fit.h"
+#include "fit/fit_check.h"
+#include "fit/fit_data.h"
+#include "fit/fit_grid.h"
+#include "fit/fit_interp.h"
+#include "fit/fit_knots.h"
+#include "fit/fit_lsq.h"
+#include "fit/fit_minimax.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define DEFAULT_GRID 4001
+#define COMPARE_GRID 2001
+#define TOL_RETRIES 8
+#define TOL_POINTS_PER_SEG 64
+#define POLISH_RTOL 1e-2 /* the polish only centres the lines: a coarse level will do */
+#define TOL_MAX_GRID 2000001
+
+void sw_fit_opts_init(sw_fit_opts *o)
+{
+  memset(o, 0, sizeof *o);
+  o->segments = 4;
+  o->knots = SW_KNOTS_UNIFORM;
+  o->criterion = SW_FIT_MINIMAX;
+  o->continuous = 1;
+}
+
+/* The sample set of curve c on [lo, hi] with tube scales and weights. */
+static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err *err)
+{
+  size_t i, n, k = 0;
+  int st = SW_OK;
+  memset(d, 0, sizeof *d);
+  if (c->kind == SW_CURVE_SAMPLES) {
+    size_t a = 0, b;
+    while (a < c->n && c->x[a] <= o->lo) a++;
+    b = a;
+    while (b < c->n && c->x[b] < o->hi) b++;
+    n = b - a + 2;
+  } else {
+    n = o->grid ? o->grid : DEFAULT_GRID;
+    /* optimal knots sit on grid points: keep ~400 points per segment */
+    if (!o->grid && o->knots == SW_KNOTS_OPTIMAL && n < 400 * o->segments + 1)
+      n = 400 * o->segments + 1 < 100001 ? 400 * o->segments + 1 : 100001;
+    if (n < 8 * o->segments + 1) n = 8 * o->segments + 1;
+    if (n < 3) n = 3;
+  }
+  if (c->kind != SW_CURVE_SAMPLES) {
+    if ((st = fit_grid_analytic(c, o->lo, o->hi, n, o->rel, o->rel_floor, o->tol, &d->x, &n, err)))
+      return st;
+    d->analytic = 1;
+  } else {
+    d->x = sw_alloc(n, sizeof(double), err);
+  }
+  d->y = sw_alloc(n, sizeof(double), err);
+  d->s = sw_alloc(n, sizeof(double), err);
+  d->w = sw_alloc(n, sizeof(double), err);
+  if (!d->x || !d->y || !d->s || !d->w) { fit_data_free(d); return SW_ENOMEM; }
+  d->n = n;
+  if (c->kind == SW_CURVE_SAMPLES) {
+    d->x[k] = o->lo;
+    d->w[k++] = 0;
+    for (i = 0; i < c->n; i++)
+      if (c->x[i] > o->lo && c->x[i] < o->hi) { d->x[k] = c->x[i]; d->y[k] = c->y[i]; d->w[k++] = 1; }
+      else if (c->x[i] == o->lo) d->w[0] = 1;
+      else if (c->x[i] == o->hi) d->w[n - 1] = 1;
+    d->x[k++] = o->hi;
+  } else {
+    for (i = 0; i < n; i++)
+      d->w[i] = 0.5 * ((i + 1 < n ? d->x[i + 1] : d->x[i]) - (i > 0 ? d->x[i - 1] : d->x[i]));
+  }
+  for (i = 0; i < n; i++) {
+    /* a sample's own value is taken as it is (x is unique and sorted) */
+    int own = c->kind == SW_CURVE_SAMPLES && i > 0 && i + 1 < n;
+    if (!own && (st = sw_curve_eval(c, d->x[i], &d->y[i], err))) goto fail;
+    if (!sw_isfinite(d->y[i])) {
+      st = sw_err_set(err, SW_ENUMERIC, "the curve is not finite at x = %g", d->x[i]);
+      goto fail;
+    }
+    if (o->rel && !(o->rel_floor > 0) &&
+        (d->y[i] == 0 || (i > 0 && (d->y[i] > 0) != (d->y[i - 1] > 0)))) {
+      st = sw_err_set(err, SW_EINVAL, "relative error is undefined where the curve is 0 "
+                      "(near x = %g); give rel_floor or a range that avoids it", d->x[i]);
+      goto fail;
+    }
+    d->s[i] = fit_scale_of(d->y[i], o->rel, o->rel_floor);
+  }
+  if (o->nthrough) {
+    double *ss = sw_alloc(o->nthrough, sizeof *ss, err);
+    if (!ss) { st = SW_ENOMEM; goto fail; }
+    st = fit_data_merge(d, o->through_x, o->through_y, ss, 0, o->nthrough, 1, err);
+    free(ss);
+    if (st) goto fail;
+  }
+  { /* level searches double from this start: keep them far from overflow */
+    double lvl = fit_start_level(d);
+    if (!sw_isfinite(lvl) || lvl > 1e250) {
+      st = sw_err_set(err, SW_ERANGE, "the curve's values over their error scale reach %g%s: "
+                      "rescale the data%s", lvl, o->rel ? " (relative error)" : "",
+                      o->rel ? " or raise rel_floor" : "");
+      goto fail;
+    }
+  }
+  return SW_OK;
+fail:
+  fit_data_free(d);
+  return st;
+}
+
+/* ---- Validation ----------------------------------------------------------- */
+
+static int validate(const sw_curve *c, const sw_fit_opts *o, sw_err *err)
+{
+  size_t i;
+  if (!sw_isfinite(o->lo) || !sw_isfinite(o->hi))
+    return sw_err_set(err, SW_EINVAL, "the range must be finite (lo = %g, hi = %g); give lo and hi",
+                      o->lo, o->hi);
+  if (!(o->lo < o->hi))
+    return sw_err_set(err, SW_EINVAL, "lo (%g) must be below hi (%g)", o->lo, o->hi);
+  if (o->lo < c->lo || o->hi > c->hi)
+    return sw_err_set(err, SW_ERANGE, "range [%g, %g] is outside the curve's domain [%g, %g]",
+                      o->lo, o->hi, c->lo, c->hi);
+  if (o->tol > 0 && o->knots == SW_KNOTS_LIST)
+    return sw_err_set(err, SW_EINVAL, "tol and an explicit knot list exclude each other");
+  if (!(o->tol > 0) && o->segments < 1)
+    return sw_err_set(err, SW_EINVAL, "segments must be at least 1");
+  if (o->tol < 0 || !(o->tol == o->tol)) return sw_err_set(err, SW_EINVAL, "tol must be positive");
+  if (o->knots == SW_KNOTS_LIST) {
+    if (o->nknot_list < 2)
+      return sw_err_set(err, SW_EINVAL, "the knot list needs at least lo and hi");
+    for (i = 0; i < o->nknot_list; i++) {
+      if (!sw_isfinite(o->knot_list[i]) || o->knot_list[i] < o->lo || o->knot_list[i] > o->hi)
+        return sw_err_set(err, SW_EINVAL, "knots[%zu] = %g is outside the range [%g, %g]", i + 1,
+                          o->knot_list[i], o->lo, o->hi);
+      if (i > 0 && !(o->knot_list[i] > o->knot_list[i - 1]))
+        return sw_err_set(err, SW_EINVAL, "knots must be strictly increasing (knots[%zu] = %g "
+                          "after knots[%zu] = %g)", i + 1, o->knot_list[i], i, o->knot_list[i - 1]);
+    }
+    if (o->knot_list[0] != o->lo || o->knot_list[o->nknot_list - 1] != o->hi)
+      return sw_err_set(err, SW_EINVAL, "the knot list must start at lo and end at hi");
+  }
+  for (i = 0; i < o->nthrough; i++) {
+    if (!sw_isfinite(o->through_x[i]) || !sw_isfinite(o->through_y[i]))
+      return sw_err_set(err, SW_EINVAL, "through[%zu] must be finite", i + 1);
+    if (o->through_x[i] < o->lo || o->through_x[i] > o->hi)
+      return sw_err_set(err, SW_EINVAL, "through[%zu] (x = %g) is outside the range [%g, %g]",
+                        i + 1, o->through_x[i], o->lo, o->hi);
+    if (i > 0 && o->through_x[i] < o->through_x[i - 1])
+      return sw_err_set(err, SW_EINVAL, "through points must be sorted by x (through[%zu])", i + 1);
+  }
+  if (o->criterion == SW_FIT_TANGENT) {
+    if (!o->has_at) return sw_err_set(err, SW_EINVAL, "criterion 'tangent' needs at (the operating point)");
+    if (!(o->at >= o->lo && o->at <= o->hi))
+      return sw_err_set(err, SW_EINVAL, "at (%g) must lie in the range [%g, %g]", o->at, o->lo, o->hi);
+    if (o->knots == SW_KNOTS_OPTIMAL || o->knots == SW_KNOTS_CURVATURE ||
+        o->knots == SW_KNOTS_GEOMETRIC || o->knots == SW_KNOTS_LIST)
+      return sw_err_set(err, SW_EINVAL, "knots have no meaning for criterion 'tangent' (one "
+                        "segment at the operating point)");
+    if (o->tol > 0 || o->segments != 1)
+      return sw_err_set(err, SW_EINVAL, "criterion 'tangent' gives one segment (no segments > 1, no tol)");
+  }
+  if (o->criterion != SW_FIT_MINIMAX && o->criterion != SW_FIT_LSQ &&
+      (o->nthrough || o->has_slope_first || o->has_slope_last || o->monotone))
+    return sw_err_set(err, SW_EINVAL, "through, slope_first, slope_last and monotone apply to "
+                      "criterion 'minimax' or 'lsq' only");
+  if (o->monotone && !o->continuous)
+    return sw_err_set(err, SW_EINVAL, "monotone with continuous = false is not supported yet");
+  if (o->rel && o->rel_floor < 0) return sw_err_set(err, SW_EINVAL, "rel_floor must not be negative");
+  return SW_OK;
+}
+
+/* ---- Methods by criterion ------------------------------------------------ */
+
+typedef struct fit_job {
+  const sw_curve *c;
+  const sw_fit_opts *o;
+  fit_data d;
+  fit_cons k;
+  size_t iters;
+  double internal;
+  sw_compare cmp;   /* the last recheck, and 1 when it is of the model returned */
+  int have_cmp;
+} fit_job;
+
+/* Closed form of the best line to a convex or concave law on [lo, hi]: the
+ * chord's slope, touching the curve's parallel tangent halfway (Chebyshev
+ * equioscillation at lo, the tangent point and hi).  Returns 1 when used. */
+static int one_segment_closed(fit_job *J, sw_pwl *out, int *st, sw_err *err)
+{
+  const sw_curve *c = J->c;
+  const sw_fit_opts *o = J->o;
+  double fa, fb, m, a, b, xi, fx, icpt;
+  int sign = 0, i;
+  *st = SW_OK;
+  if (c->kind == SW_CURVE_SAMPLES || o->rel || o->nthrough || o->has_slope_first ||
+      o->has_slope_last || o->monotone)
+    return 0;
+  for (i = 1; i < 64; i++) {
+    double f2, x = o->lo + (o->hi - o->lo) * (double)i / 64.0;
+    if ((*st = sw_curve_deriv2(c, x, &f2, err))) return 1;
+    if (!sw_isfinite(f2) || f2 == 0) continue;
+    if (sign == 0) sign = f2 > 0 ? 1 : -1;
+    else if ((f2 > 0 ? 1 : -1) != sign) return 0;
+  }
+  if (sign == 0) return 0;
+  if ((*st = sw_curve_eval(c, o->lo, &fa, err)) || (*st = sw_curve_eval(c, o->hi, &fb, err))) return 1;
+  m = (fb - fa) / (o->hi - o->lo);
+  a = o->lo;
+  b = o->hi;
+  for (i = 0; i < 200 && b - a > 1e-15 * (fabs(a) + fabs(b)); i++) {
+    double mid = 0.5 * (a + b), d1;
+    if ((*st = sw_curve_deriv(c, mid, &d1, err))) return 1;
+    if ((d1 - m) * sign < 0) a = mid; else b = mid;
+  }
+  J->iters += (size_t)i;
+  xi = 0.5 * (a + b);
+  if ((*st = sw_curve_eval(c, xi, &fx, err))) return 1;
+  icpt = 0.5 * ((fa - m * o->lo) + (fx - m * xi));
+  J->internal = 0.5 * fabs((fx - m * xi) - (fa - m * o->lo));
+  if ((*st = sw_pwl_alloc(out, 1, err))) return 1;
+  out->x[0] = o->lo;
+  out->x[1] = o->hi;
+  out->ya[0] = m * o->lo + icpt;
+  out->yb[0] = m * o->hi + icpt;
+  if ((*st = sw_pwl_finish(out, err))) sw_pwl_free(out);
+  return 1;
+}
+
+/* A failure an optional refinement may fall back from: numeric trouble
+ * yes; out of memory and callback errors never. */
+static int absorbable(int st)
+{
+  return st != SW_ENOMEM && st != SW_ECALLBACK;
+}
+
+static int knots_for(fit_job *J, size_t n, double *K, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  switch (o->knots) {
+  case SW_KNOTS_LIST:
+    memcpy(K, o->knot_list, (n + 1) * sizeof *K);
+    return SW_OK;
+  case SW_KNOTS_GEOMETRIC:
+    return fit_knots_geometric(o->lo, o->hi, o->offset, n, K, err);
+  case SW_KNOTS_CURVATURE:
+  case SW_KNOTS_OPTIMAL:
+    return fit_knots_curvature(J->c, &J->d, o->lo, o->hi, n,
+                               o->criterion == SW_FIT_LSQ ? 0.4 : 0.5, K, err);
+  default:
+    return fit_knots_uniform(o->lo, o->hi, n, K, err);
+  }
+}
+
+static int interp_model(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_err *err)
+{
+  size_t j;
+  double *yk = sw_alloc(n + 1, sizeof *yk, err);
+  int st;
+  if (!yk) return SW_ENOMEM;
+  for (j = 0; j <= n; j++)
+    if ((st = sw_curve_eval(J->c, K[j], &yk[j], err))) { free(yk); return st; }
+  if ((st = sw_pwl_alloc(out, n, err))) { free(yk); return st; }
+  for (j = 0; j <= n; j++) out->x[j] = K[j];
+  for (j = 0; j < n; j++) {
+    out->ya[j] = yk[j];
+    out->yb[j] = yk[j + 1];
+  }
+  free(yk);
+  if ((st = sw_pwl_finish(out, err))) { sw_pwl_free(out); return st; }
+  J->internal = fit_data_maxerr(&J->d, out);
+  return SW_OK;
+}
+
+/* Error of m at x in the fit's measure, against the curve itself. */
+static int true_error(fit_job *J, const sw_pwl *m, double x, double *e, sw_err *err)
+{
+  double y, v;
+  int st = sw_curve_eval(J->c, x, &y, err);
+  if (st) return st;
+  sw_pwl_eval(m, x, &v, NULL);
+  *e = J->o->rel ? fabs(v - y) / (fabs(y) > J->o->rel_floor ? fabs(y) : J->o->rel_floor)
+                 : fabs(v - y);
+  if (!(*e == *e)) *e = 0;
+  return SW_OK;
+}
+
+/* Exchange step for analytic curves: finds the curve's true error peaks of
+ * m between grid points (golden section around each grid maximum) and adds
+ * them to the sample set, so the next fit sees them.  *peak gets the largest. */
+static int refine_peaks(fit_job *J, const sw_pwl *m, double *peak, size_t *added, sw_err *err)
+{
+  fit_data *d = &J->d;
+  size_t i, cnt = 0;
+  double *e = sw_alloc(d->n, sizeof *e, err), *xs = sw_alloc(d->n, sizeof *xs, err), emax = 0;
+  int st = SW_OK;
+  *added = 0;
+  *peak = 0;
+  if (!e || !xs) { st = SW_ENOMEM; goto done; }
+  for (i = 0; i < d->n; i++) {
+    double v;
+    sw_pwl_eval(m, d->x[i], &v, NULL);
+    e[i] = d->s[i] > 0 ? fabs(v - d->y[i]) / d->s[i] : 0;
+    if (e[i] > emax) emax = e[i];
+  }
+  *peak = emax;
+  for (i = 1; i + 1 < d->n; i++) {
+    const double g = 0.6180339887498949;
+    double a = d->x[i - 1], b = d->x[i + 1], x1, x2, f1, f2;
+    int it;
+    if (!(e[i] >= e[i - 1] && e[i] >= e[i + 1] && e[i] > 0.5 * emax)) continue;
+    x1 = b - g * (b - a);
+    x2 = a + g * (b - a);
+    if ((st = true_error(J, m, x1, &f1, err)) || (st = true_error(J, m, x2, &f2, err))) goto done;
+    for (it = 0; it < 40 && b - a > 1e-14 * (fabs(a) + fabs(b)); it++) {
+      if (f1 >= f2) { b = x2; x2 = x1; f2 = f1; x1 = b - g * (b - a); if ((st = true_error(J, m, x1, &f1, err))) goto done; }
+      else { a = x1; x1 = x2; f1 = f2; x2 = a + g * (b - a); if ((st = true_error(J, m, x2, &f2, err))) goto done; }
+    }
+    if ((f1 > f2 ? f1 : f2) > *peak) *peak = f1 > f2 ? f1 : f2;
+    if ((f1 > f2 ? f1 : f2) > e[i] * (1 + 1e-9)) xs[cnt++] = f1 > f2 ? x1 : x2;
+  }
+  if (cnt) {
+    size_t k = 0;
+    for (i = 0; i < cnt; i++) /* sorted already, drop repeats */
+      if (k == 0 || xs[i] > xs[k - 1]) xs[k++] = xs[i];
+    st = fit_data_insert(d, J->c, xs, k, J->o->rel, J->o->rel_floor, err);
+    *added = k;
+  }
+done:
+  free(e);
+  free(xs);
+  return st;
+}
+
+#define EXCHANGE_ROUNDS 4
+
+static int minimax_fixed(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_err *err)
+{
+  int st, round;
+  if (n == 1 && one_segment_closed(J, out, &st, err)) return st;
+  if ((st = fit_data_insert(&J->d, J->c, K, n + 1, J->o->rel, J->o->rel_floor, err))) return st;
+  for (round = 0;; round++) {
+    double peak;
+    size_t added;
+    st = fit_minimax_fixed(&J->d, K, n, J->o->continuous, &J->k, out, &J->internal, &J->iters, err);
+    if (st || !J->d.analytic || round == EXCHANGE_ROUNDS) return st;
+    if ((st = refine_peaks(J, out, &peak, &added, err))) { sw_pwl_free(out); return st; }
+    if (!added || peak <= J->internal * (1 + 1e-6)) return SW_OK;
+    sw_pwl_free(out);
+  }
+}
+
+/* A model with exactly n segments under the chosen scheme and criterion. */
+static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  double *K = sw_alloc(n + 1, sizeof *K, err);
+  int st;
+  if (!K) return SW_ENOMEM;
+  if (o->knots == SW_KNOTS_OPTIMAL && o->criterion == SW_FIT_MINIMAX) {
+    sw_pwl alt;
+    double e_alt;
+    memset(&alt, 0, sizeof alt);
+    if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->k, out, &J->internal, &J->iters, err)))
+      goto done;
+    if (J->d.analytic) { /* exchange steps on the found knots */
+      sw_pwl r;
+      memset(&r, 0, sizeof r);
+      memcpy(K, out->x, (n + 1) * sizeof *K);
+      if ((st = minimax_fixed(J, K, n, &r, err))) goto done;
+      sw_pwl_free(out);
+      *out = r;
+    }
+    /* never worse than the curvature scheme's minimax on its knots; that
+     * alternative may fail numerically (a knot without samples), which
+     * keeps the optimal answer, but out of memory is passed up */
+    if (n > 1) {
+      st = knots_for(J, n, K, err);
+      if (!st) st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err);
+      /* only a level below the optimal knots' one matters: capped there */
+      if (!st) st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->k, 0, J->internal, 1e-11,
+                                           1, &alt, &e_alt, &J->iters, err);
+      if (!st && e_alt == INFINITY) {
+        /* the curvature knots cannot reach that level: nothing to compare */
+      } else if (!st) {
+        if (e_alt < J->internal) { sw_pwl_free(out); *out = alt; J->internal = e_alt; }
+        else sw_pwl_free(&alt);
+      } else if (absorbable(st)) {
+        st = SW_OK;
+      } else {
+        sw_pwl_free(out);
+      }
+    }
+    goto done;
+  }
+  if (o->knots == SW_KNOTS_OPTIMAL && (o->criterion == SW_FIT_INTERP || o->criterion == SW_FIT_CHORD)) {
+    st = fit_interp_count(&J->d, n, out, &J->internal, &J->iters, err);
+    goto done;
+  }
+  if ((st = knots_for(J, n, K, err))) goto done;
+  if (o->knots == SW_KNOTS_OPTIMAL && o->criterion == SW_FIT_LSQ) {
+    double *start = sw_alloc(n + 1, sizeof *start, err);
+    if (!start) { st = SW_ENOMEM; goto done; }
+    memcpy(start, K, (n + 1) * sizeof *K);
+    st = fit_lsq_optimal(&J->d, o->lo, o->hi, n, o->continuous, start, K, &J->iters, err);
+    free(start);
+    if (st) goto done;
+  }
+  switch (o->criterion) {
+  case SW_FIT_MINIMAX:
+    st = minimax_fixed(J, K, n, out, err);
+    break;
+  case SW_FIT_LSQ:
+    st = fit_lsq_fixed(&J->d, K, n, o->continuous, &J->k, o->through_x, o->through_y, o->nthrough,
+                       out, &J->internal, err);
+    if (!st) J->internal = fit_data_maxerr(&J->d, out);
+    break;
+  default:
+    st = interp_model(J, K, n, out, err);
+    break;
+  }
+done:
+  free(K);
+  return st;
+}
+
+/* Error of m in the fit's measure, rechecked against the curve. */
+static int measure(fit_job *J, const sw_pwl *m, double *e, sw_err *err)
+{
+  int st = fit_recheck(m, J->c, J->o->lo, J->o->hi, COMPARE_GRID, J->o->rel_floor, &J->cmp, err);
+  J->have_cmp = 0;
+  if (st) return st;
+  *e = J->o->rel ? J->cmp.max_rel : J->cmp.max_abs;
+  if (!(*e == *e)) *e = INFINITY;
+  return SW_OK;
+}
+
+/* The fewest-segment model against the caller's cap (freed when above). */
+static int within_cap(const sw_fit_opts *o, sw_pwl *out, sw_err *err)
+{
+  size_t n = out->nseg;
+  if (!o->max_segments || n <= o->max_segments) return SW_OK;
+  sw_pwl_free(out);
+  return sw_err_set(err, SW_ENOSOL, "tol = %g needs %zu segments with this scheme, more than "
+                    "max_segments = %zu", o->tol, n, o->max_segments);
+}
+
+/* Fewest segments within tol for optimal minimax or interpolation: the
+ * greedy tube on the samples, rechecked against the curve. */
+
+static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  double tol = o->tol, e_int = tol, e;
+  int st, tries;
+  for (tries = 0; tries < TOL_RETRIES; tries++) {
+    if (o->criterion == SW_FIT_MINIMAX) {
+      st = fit_minimax_tol(&J->d, e_int, o->continuous, &J->k, out, err);
+      /* polish: the best lines on the greedy knots (continuous models; the
+       * discontinuous greedy already takes each polygon's centroid line) */
+      if (!st && o->continuous) {
+        sw_pwl p;
+        double ep;
+        memset(&p, 0, sizeof p);
+        st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, o->continuous, &J->k, 0.5 * e_int,
+                                    e_int, POLISH_RTOL, 0, &p, &ep, &J->iters, err);
+        if (!st) {
+          if (ep <= e_int) { sw_pwl_free(out); *out = p; }
+          else sw_pwl_free(&p);
+        } else if (absorbable(st)) {
+          st = SW_OK; /* the greedy model stands */
+        } else {
+          sw_pwl_free(out);
+        }
+      }
+    } else {
+      st = fit_interp_tol(&J->d, e_int, out, err);
+    }
+    if (st) return st;
+    J->internal = fit_data_maxerr(&J->d, out);
+    J->iters++;
+    if ((st = measure(J, out, &e, err))) { sw_pwl_free(out); return st; }
+    if (e <= tol * (1 + 1e-9)) { J->have_cmp = 1; return SW_OK; } /* the report reuses it */
+    if (J->d.analytic && tries < TOL_RETRIES / 2) {
+      /* the grid missed a peak: add the curve's true error peaks as
+       * samples and redo at the same level (keeps the count optimal) */
+      double peak;
+      size_t added;
+      st = refine_peaks(J, out, &peak, &added, err);
+      sw_pwl_free(out);
+      if (st) return st;
+      if (added) continue;
+    } else {
+      sw_pwl_free(out);
+    }
+    e_int *= 0.98 * tol / e; /* no new samples helped: tighten and redo */
+  }
+  return sw_err_set(err, SW_ENUMERIC, "could not meet tol = %g on the curve itself between its "
+                    "samples; give a denser grid (or rel_floor for relative error)", tol);
+}
+
+/* Fewest segments within tol: the greedy tube for optimal minimax and
+ * interpolation; a search over the count for every other scheme. */
+static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  double tol = o->tol, e;
+  size_t lo, hi, nmax, i;
+  int st;
+  for (i = 0; i < o->nthrough; i++) { /* a point off the band cannot be met */
+    double f;
+    if ((st = sw_curve_eval(J->c, o->through_x[i], &f, err))) return st;
+    if (fabs(o->through_y[i] - f) > tol * fit_scale_of(f, o->rel, o->rel_floor))
+      return sw_err_set(err, SW_ENOSOL, "through[%zu] = (%g, %g) lies farther than tol = %g from "
+                        "the curve (%g there)", i + 1, o->through_x[i], o->through_y[i], tol, f);
+  }
+  if (o->knots == SW_KNOTS_OPTIMAL && o->criterion != SW_FIT_LSQ) {
+    if ((st = tol_greedy(J, out, err))) return st;
+    if ((st = within_cap(o, out, err))) return st;
+    /* knots sit on samples: an analytic curve needing many segments gets
+     * a grid of TOL_POINTS_PER_SEG points a segment and a second pass */
+    if (J->d.analytic && !o->grid && J->d.n < TOL_POINTS_PER_SEG * out->nseg) {
+      sw_fit_opts o2 = *o;
+      fit_data nd;
+      size_t want = TOL_POINTS_PER_SEG * out->nseg + 1;
+      o2.grid = want < TOL_MAX_GRID ? want : TOL_MAX_GRID;
+      if (o2.grid > J->d.n) {
+        if ((st = prepare(J->c, &o2, &nd, err))) { sw_pwl_free(out); return st; }
+        fit_data_free(&J->d);
+        J->d = nd;
+        sw_pwl_free(out);
+        if ((st = tol_greedy(J, out, err))) return st;
+        return within_cap(o, out, err);
+      }
+    }
+    return SW_OK;
+  }
+  /* search the count: doubling, then bisection */
+  nmax = J->d.n > 1 ? J->d.n - 1 : 1;
+  if (nmax > 4096) nmax = 4096;
+  if (o->max_segments && nmax > o->max_segments) nmax = o->max_segments;
+  lo = 0;
+  hi = 1;
+  for (;;) {
+    memset(out, 0, sizeof *out);
+    st = fit_count(J, hi, out, err);
+    J->iters++;
+    if (!st) st = measure(J, out, &e, err);
+    if (st) { sw_pwl_free(out); return st; }
+    sw_pwl_free(out);
+    if (e <= tol) break;
+    lo = hi;
+    if (hi >= nmax)
+      return sw_err_set(err, SW_ENOSOL, "no model of up to %zu segments meets tol = %g with this "
+                        "scheme%s", nmax, tol, nmax == o->max_segments ? " (max_segments)" : "");
+    hi = hi * 2 > nmax ? nmax : hi * 2;
+  }
+  while (hi - lo > 1) {
+    size_t mid = (lo + hi) / 2;
+    memset(out, 0, sizeof *out);
+    st = fit_count(J, mid, out, err);
+    J->iters++;
+    if (!st) st = measure(J, out, &e, err);
+    sw_pwl_free(out);
+    if (!absorbable(st)) return st;
+    if (!st && e <= tol) hi = mid; else lo = mid;
+  }
+  return fit_count(J, hi, out, err);
+}
+
+static int fit_tangent(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  double f, s;
+  int st;
+  if ((st = sw_curve_eval(J->c, o->at, &f, err)) || (st = sw_curve_deriv(J->c, o->at, &s, err)))
+    return st;
+  if (!sw_isfinite(s))
+    return sw_err_set(err, SW_ENUMERIC, "the curve's slope at at = %g is not finite", o->at);
+  if ((st = sw_pwl_alloc(out, 1, err))) return st;
+  out->x[0] = o->lo;
+  out->x[1] = o->hi;
+  out->ya[0] = f + s * (o->lo - o->at);
+  out->yb[0] = f + s * (o->hi - o->at);
+  if ((st = sw_pwl_finish(out, err))) sw_pwl_free(out);
+  return st;
+}
+
+static size_t distinct_x(const fit_data *d)
+{
+  size_t i, m = d->n ? 1 : 0;
+  for (i = 1; i < d->n; i++) m += d->x[i] > d->x[i - 1];
+  return m;
+}
+
+int sw_fit(const sw_curve *c, const sw_fit_opts *o, sw_pwl *out, sw_fit_info *info, sw_err *err)
+{
+  fit_job J;
+  sw_compare cmp;
+  int st;
+  memset(out, 0, sizeof *out);
+  memset(info, 0, sizeof *info);
+  memset(&J, 0, sizeof J);
+  if ((st = validate(c, o, err))) return st;
+  J.c = c;
+  J.o = o;
+  if ((st = prepare(c, o, &J.d, err))) return st;
+  if (c->kind == SW_CURVE_SAMPLES && !(o->tol > 0) && o->knots != SW_KNOTS_LIST &&
+      o->segments + 1 > distinct_x(&J.d)) {
+    st = sw_err_set(err, SW_EINVAL, "segments (%zu) needs at least %zu samples in [%g, %g]; the "
+                    "curve has %zu there (counting the range ends)", o->segments, o->segments + 1,
+                    o->lo, o->hi, distinct_x(&J.d));
+    goto done;
+  }
+  J.k.has_first = o->has_slope_first;
+  J.k.slope_first = o->slope_first;
+  J.k.has_last = o->has_slope_last;
+  J.k.slope_last = o->slope_last;
+  if (o->monotone) J.k.dir = J.d.y[J.d.n - 1] >= J.d.y[0] ? 1 : -1;
+  if (o->criterion == SW_FIT_TANGENT) st = fit_tangent(&J, out, err);
+  else if (o->tol > 0) st = fit_tol(&J, out, err);
+  else st = fit_count(&J, o->knots == SW_KNOTS_LIST ? o->nknot_list - 1 : o->segments, out, err);
+  if (st) goto done;
+  if (J.have_cmp) cmp = J.cmp;
+  else if ((st = fit_recheck(out, c, o->lo, o->hi, COMPARE_GRID, o->rel_floor, &cmp, err))) goto done;
+  info->max_abs = cmp.max_abs;
+  info->x_abs = cmp.x_abs;
+  info->max_rel = cmp.rel_undefined ? NAN : cmp.max_rel;
+  info->x_rel = cmp.rel_undefined ? NAN : cmp.x_rel;
+  info->rms = cmp.rms;
+  info->iterations = J.iters;
+  info->internal = J.internal;
+done:
+  if (st) sw_pwl_free(out);
+  fit_data_free(&J.d);
+  return st;
+}
+
+int sw_fit_segment_errors(const sw_pwl *m, const sw_curve *c, double rel_floor, double *max_abs,
+                          double *x_abs, double *max_rel, sw_err *err)
+{
+  size_t k, i;
+  for (k = 0; k < m->nseg; k++) {
+    double a = m->x[k], b = m->x[k + 1];
+    max_abs[k] = 0;
+    x_abs[k] = a;
+    max_rel[k] = 0;
+    if (c->kind == SW_CURVE_SAMPLES) {
+      /* the segment's line against the samples inside and the curve at its
+       * ends; the samples inside found by bisection (x is sorted) */
+      size_t first = 0, hi_i = c->n;
+      while (first < hi_i) {
+        size_t mid = first + (hi_i - first) / 2;
+        if (c->x[mid] <= a) first = mid + 1; else hi_i = mid;
+      }
+      for (i = 0; i <= c->n + 1; i++) {
+        double x, y, v, r;
+        int st;
+        if (i == 1 && first > 0) i = first + 1; /* skip to the first sample past a */
+        x = i == 0 ? a : i == c->n + 1 ? b : c->x[i - 1];
+        if (i > 0 && i <= c->n && x >= b) { i = c->n; continue; }
+        if (i > 0 && i <= c->n && x <= a) continue;
+        if (i == 0 || i == c->n + 1) { if ((st = sw_curve_eval(c, x, &y, err))) return st; }
+        else y = c->y[i - 1];
+        v = fabs(sw_pwl_line(m, k, x) - y);
+        if (v > max_abs[k]) { max_abs[k] = v; x_abs[k] = x; }
+        if (rel_floor > 0 || y != 0) {
+          r = v / (fabs(y) > rel_floor ? fabs(y) : rel_floor);
+          if (max_rel[k] == max_rel[k] && r > max_rel[k]) max_rel[k] = r;
+        } else {
+          max_rel[k] = NAN;
+        }
+      }
+    } else {
+      sw_pwl one;
+      sw_compare cmp;
+      int st;
+      memset(&one, 0, sizeof one);
+      if ((st = sw_pwl_alloc(&one, 1, err))) return st;
+      one.x[0] = a;
+      one.x[1] = b;
+      one.ya[0] = m->ya[k];
+      one.yb[0] = m->yb[k];
+      st = sw_pwl_finish(&one, err);
+      if (!st) st = sw_pwl_compare(&one, c, a, b, 201, rel_floor, &cmp, err);
+      sw_pwl_free(&one);
+      if (st) return st;
+      max_abs[k] = cmp.max_abs;
+      x_abs[k] = cmp.x_abs;
+      max_rel[k] = cmp.rel_undefined ? NAN : cmp.max_rel;
+    }
+  }
+  return SW_OK;
+}

@@ -1,0 +1,22 @@
+/* Model files beyond pwl.h's sw_pwl_save/sw_pwl_load: loading that also
+ * hands back the units written in the file's header. */
+#ifndef SW_PWL_IO_H
+#define SW_PWL_IO_H
+
+#include <stddef.h>
+#include "pwl/pwl.h"
+
+/* The program version written into model files. */
+#ifndef SW_VERSION
+#define SW_VERSION "0.1.0"
+#endif
+
+/* Longest unit text kept by sw_pwl_load_units (bytes, with the NUL). */
+#define SW_UNIT_MAX 64
+
+/* Like sw_pwl_load; xunit and yunit (each SW_UNIT_MAX bytes, may be NULL)
+ * receive the units named in the header, "" when none. */
+int sw_pwl_load_units(sw_pwl *m, const char *path, char *xunit, char *yunit,
+                      sw_err *err);
+
+#endif
