@@ -101,6 +101,58 @@ describe("segwise.report", function()
       assert.are.equal("NaN", si(0 / 0))
     end)
 
+    -- A unit that already carries a prefix prints the number as given
+    -- (no second prefix, no scaling); ratios and levels take no prefix.
+    local plain = {
+      { 0.002, "mA", nil, "0.002 mA" },
+      { 1500, "mA", nil, "1500 mA" },
+      { 4.7, "k" .. OHM, nil, "4.7 k" .. OHM },
+      { 0.25, MU .. "s", nil, "0.25 " .. MU .. "s" },
+      { 12.3456, "mW", nil, "12.3 mW" },
+      { 3.14159, "mV/K", nil, "3.14 mV/K" },
+      { -0.5, "kV", nil, "-0.5 kV" },
+      { 2000, "kg", nil, "2000 kg" },
+      { 0.05, "%", nil, "0.05 %" },
+      { 12.3456, "%", nil, "12.3 %" },
+      { 99.96, "%", nil, "100 %" },            -- rounds to 3 digits: 1.00e2
+      { 1234.56, "ppm", nil, "1235 ppm" },     -- integer digits are kept
+      { -3.0103, "dB", nil, "-3.01 dB" },
+      { 0.5, "dBm", nil, "0.5 dBm" },
+      { 2e-7, "%", nil, "2e-7 %" },            -- tiny: exponent form, as %g
+      { 0.0123456, "ppm", 5, "0.012346 ppm" },
+      { 25, "\u{00B0}C", nil, "25 \u{00B0}C" },
+      { 30, "\u{00B0}", nil, "30\u{00B0}" },   -- plane angle: no space (SI Brochure)
+      { 0, "%", nil, "0 %" },
+    }
+    for _, c in ipairs(plain) do
+      it(string.format("si(%.17g, %q, %s) == %q (no added prefix)", c[1], c[2], tostring(c[3]), c[4]),
+        function() assert.are.equal(c[4], si(c[1], c[2], c[3])) end)
+    end
+
+    it("still prefixes units of their own that start with a prefix letter", function()
+      assert.are.equal("2 mm", si(0.002, "m"))         -- metre
+      assert.are.equal("1.5 kPa", si(1500, "Pa"))      -- pascal, not peta-annum
+      assert.are.equal("5 mT", si(0.005, "T"))         -- tesla
+      assert.are.equal("20 mmol", si(0.02, "mol"))
+      assert.are.equal("1.2 MWh", si(1.2e6, "Wh"))
+    end)
+
+    it("tells which units take a prefix", function()
+      assert.is_true(report.takes_prefix == nil or report.takes_prefix("A"))
+      local si_mod = require "segwise.report.si"
+      assert.is_true(si_mod.takes_prefix("A"))
+      assert.is_true(si_mod.takes_prefix(""))
+      assert.is_true(si_mod.takes_prefix("Pa"))
+      assert.is_false(si_mod.takes_prefix("mA"))
+      assert.is_false(si_mod.takes_prefix("%"))
+      assert.is_false(si_mod.takes_prefix("dBV"))
+    end)
+
+    it("reads back a value printed in a prefixed unit, given that unit", function()
+      assert.are.equal(0.002, parse_si(si(0.002, "mA"), "mA"))
+      assert.are.equal(0.05, parse_si(si(0.05, "%")))
+    end)
+
     it("rejects bad arguments, naming them", function()
       assert.has_error(function() si("1", "A") end, "segwise.si: value must be a number (got string)")
       assert.has_error(function() si(1, 5) end, "segwise.si: unit must be a string (got number)")
@@ -131,8 +183,8 @@ describe("segwise.report", function()
       { "2.2uF", 2.2e-6, "F" },
       { "2.2" .. MU .. "F", 2.2e-6, "F" },
       { "2.2\u{03BC}F", 2.2e-6, "F" },          -- Greek small mu, also seen as micro
-      { "4.7meg", 4.7e6, "" },
-      { "4.7MEG" .. OHM, 4.7e6, OHM },
+      { "4.7M", 4.7e6, "" },
+      { "4.7 M" .. OHM, 4.7e6, OHM },
       { "1M", 1e6, "" },
       { "1m", 1e-3, "" },
       { "-5.5 V", -5.5, "V" },
@@ -194,6 +246,30 @@ describe("segwise.report", function()
 
     it("rejects a non-string, non-number", function()
       assert.has_error(function() parse_si({}) end, "segwise.parse_si: expected a string (got table)")
+    end)
+
+    -- SI writes mega as M and milli as m (SI Brochure, 9th edition, table 7);
+    -- the three-letter mega suffix is refused with a hint, in any case.
+    for _, t in ipairs { "4.7meg", "4.7MEG" .. OHM, "1 Meg", "2megohm", "3.3meg", "1e3meg" } do
+      it(string.format("refuses %q and says to write M", t), function()
+        local ok, err = pcall(parse_si, t)
+        assert.is_false(ok)
+        assert.is_truthy(err:find("segwise.parse_si: cannot read " .. string.format("%q", t), 1, true), err)
+        assert.is_truthy(err:find("write M for mega", 1, true), err)
+      end)
+    end
+
+    it("refuses the mega suffix even with an expected unit", function()
+      local ok, err = pcall(parse_si, "4.7megohm", "ohm")
+      assert.is_false(ok)
+      assert.is_truthy(err:find("write M for mega", 1, true), err)
+    end)
+
+    it("keeps M and m apart: mega and milli", function()
+      assert.are.equal(4.7e6, parse_si("4.7M"))
+      assert.is.near(4.7e-3, parse_si("4.7m"), 4.7e-3 * 1e-15)   -- one decimal rounding
+      assert.are.equal(1.5e6, parse_si("1M5"))
+      assert.is.near(1.5e-3, parse_si("1m5"), 1.5e-3 * 1e-15)
     end)
 
     it("round-trips si() within the printed precision (seeded random values)", function()

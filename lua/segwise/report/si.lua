@@ -70,6 +70,72 @@ local function place_point(ds, shift)
   return ip .. "." .. fp
 end
 
+-- Unit symbols a prefix may stand before, to tell "mA" (milliampere,
+-- already prefixed) from "Pa" or "mol" (units of their own), and to catch
+-- a doubled prefix such as "4.7 kkΩ" (SI Brochure, 9th edition, tables 2-4).
+local COMMON_UNIT = { A = true, V = true, W = true, ["\u{03A9}"] = true, ["\u{2126}"] = true,
+  F = true, H = true, S = true, Hz = true, s = true, J = true, C = true, K = true, ohm = true,
+  Ohm = true, m = true, g = true, N = true, Pa = true, T = true, Wb = true, mol = true,
+  cd = true, lm = true, lx = true, Bq = true, Gy = true, Sv = true, L = true, l = true,
+  eV = true, Wh = true, Ah = true, VA = true, var = true, bar = true }
+
+-- Units that take no prefix: ratios and levels (common practice; the SI
+-- Brochure writes "5 %" with a space, "30°" without one).
+local PLAIN_UNIT = { ["%"] = true, ["\u{2030}"] = true, ppm = true, ppb = true, ppt = true,
+  ["\u{00B0}C"] = true, ["\u{00B0}F"] = true, ["\u{00B0}"] = true }
+local NO_SPACE = { ["\u{00B0}"] = true }
+
+local function first_char(s) return s:match("^[%z\1-\127\194-\244][\128-\191]*") end
+
+-- The leading unit symbol of a compound unit: "mV" of "mV/K", "kW" of "kWh"
+-- is "kWh" (letters, micro and ohm signs, up to the first other character).
+local function first_factor(u)
+  local out, i = {}, 1
+  while i <= #u do
+    local c = first_char(u:sub(i))
+    if not c then break end
+    if not (c:find("^%a$") or c == MICRO or c == "\u{03BC}" or c == "\u{03A9}" or c == "\u{2126}") then
+      break
+    end
+    out[#out + 1] = c
+    i = i + #c
+  end
+  return table.concat(out)
+end
+
+-- True when the unit's first symbol is a prefix on a unit ("mA", "kΩ",
+-- "µs", "mV/K"), false for a unit of its own ("Pa", "mol", "T", "m").
+local function carries_prefix(u)
+  local f = first_factor(u)
+  if f == "" or COMMON_UNIT[f] then return false end
+  local p = first_char(f)
+  return PARSE_PREFIX[p] ~= nil and COMMON_UNIT[f:sub(#p + 1)] == true
+end
+
+--- Whether si() puts an SI prefix before `unit`: false for a unit that
+-- already carries one ("mA", "kΩ") and for units that take none ("%",
+-- "ppm", "dB", "dBm", "°C").  Tables use it to decide a column's prefix.
+-- @tparam string unit
+-- @treturn boolean
+function M.takes_prefix(unit)
+  if unit == nil or unit == "" then return true end
+  if PLAIN_UNIT[unit] or unit:find("^dB") then return false end
+  return not carries_prefix(unit)
+end
+
+-- `value` with `digits` significant digits and no prefix: integer digits
+-- are never replaced by zeros (1234.5 ppm is "1234 ppm" or "1235 ppm");
+-- exponent form below 1e-4 and from 1e15 on, as %g does.
+local function plain_number(v, digits)
+  local sign = v < 0 and "-" or ""
+  local ds, e = round_sig(abs(v), digits)
+  if e < -4 or e >= 15 then return sign .. place_point(ds, 0) .. fmt("e%+d", e) end
+  if e >= digits - 1 then return fmt("%.0f", v) end
+  if e >= 0 then return sign .. place_point(ds, e) end
+  local s = ("0." .. string.rep("0", -e - 1) .. ds):gsub("0+$", "")
+  return sign .. s
+end
+
 --- Engineering notation with an SI prefix.
 -- Rule: `digits` significant digits (default 3), rounded once, trailing
 -- zeros dropped (si(2200, "Ω") is "2.2 kΩ", si(1000, "A") is "1 kA"), a
@@ -79,6 +145,9 @@ end
 -- prefixes fall back to exponent notation ("1.5e-27 A").  Rounding is C's
 -- printf rounding of the binary value (an exact half such as 12.5 to two
 -- digits goes to even: "12").  Micro prints as the micro sign U+00B5.
+-- A unit that already carries a prefix ("mA", "kΩ", "µs") and the units
+-- that take none ("%", "ppm", "dB...", "°C") print the number as given,
+-- unscaled: si(0.002, "mA") is "0.002 mA", si(0.05, "%") is "0.05 %".
 -- @tparam number value
 -- @tparam[opt=""] string unit
 -- @tparam[opt=3] integer digits significant digits, 1..17
@@ -96,6 +165,10 @@ function M.si(value, unit, digits)
     return with_unit(nonfinite_text(value), "", unit)
   end
   if value == 0 then return with_unit("0", "", unit) end
+  if not M.takes_prefix(unit) then
+    local num = plain_number(value, digits)
+    return NO_SPACE[unit] and num .. unit or num .. " " .. unit
+  end
   local sign = value < 0 and "-" or ""
   local ds, e = round_sig(abs(value), digits)
   local e3 = floor(e / 3) * 3
@@ -136,21 +209,14 @@ end
 
 local function trim(s) return (s:gsub("^%s+", ""):gsub("%s+$", "")) end
 
-local function first_char(s) return s:match("^[%z\1-\127\194-\244][\128-\191]*") end
-
--- Common unit symbols, to catch a doubled prefix such as "4.7 kkΩ".
-local COMMON_UNIT = { A = true, V = true, W = true, ["\u{03A9}"] = true, F = true, H = true,
-  S = true, Hz = true, s = true, J = true, C = true, K = true, ohm = true, Ohm = true }
-
 -- True when unit text is a prefix followed by a common unit ("kΩ", "mA").
 local function has_prefix(u)
   local first = first_char(u)
-  if u:sub(1, 3):lower() == "meg" then return true end
   return first ~= nil and PARSE_PREFIX[first] ~= nil and COMMON_UNIT[u:sub(#first + 1)] == true
 end
 
--- Reads the unit part after a number: optional SI prefix (or "meg"), then a
--- unit without spaces.  Returns power of ten and unit, or nil.
+-- Reads the unit part after a number: optional SI prefix, then a unit
+-- without spaces.  Returns power of ten and unit, or nil.
 local function read_suffix(rest, unit_hint)
   if rest == "" then return 0, "" end
   if unit_hint and unit_hint ~= "" then
@@ -158,18 +224,14 @@ local function read_suffix(rest, unit_hint)
     if rest == unit_hint then return 0, unit_hint end
     if rest:sub(-#unit_hint) == unit_hint then
       local p = rest:sub(1, -#unit_hint - 1)
-      if p:lower() == "meg" then return 6, unit_hint end
       if PARSE_PREFIX[p] then return PARSE_PREFIX[p], unit_hint end
       return nil
     end
   end
   if rest:find("%s") or rest:find("^[%d%.+-]") or rest:find("^e[+-]?%d*$") then return nil end
   local e, u = 0, rest
-  if rest:sub(1, 3):lower() == "meg" then e, u = 6, rest:sub(4)
-  else
-    local first = first_char(rest)
-    if first and PARSE_PREFIX[first] then e, u = PARSE_PREFIX[first], rest:sub(#first + 1) end
-  end
+  local first = first_char(rest)
+  if first and PARSE_PREFIX[first] then e, u = PARSE_PREFIX[first], rest:sub(#first + 1) end
   if u:find("[%d]") or has_prefix(u) then return nil end
   return e, u
 end
@@ -179,9 +241,21 @@ end
 local INFIX = { R = 0, r = 0, k = 3, K = 3, M = 6, G = 9, m = -3, u = -6,
   [MICRO] = -6, ["\u{03BC}"] = -6, n = -9, p = -12 }
 
+-- SI has one symbol for mega, M; a unit text starting with the letters
+-- m-e-g in any case is that other suffix, and would be milli plus "eg".
+local function refuse_meg(text, tail)
+  local w = tail:sub(1, 3)
+  if w:lower() == "meg" then
+    error(fmt("segwise.parse_si: cannot read %q: the suffix %q is not a prefix;"
+      .. " write M for mega (M is mega, m is milli)", text, w), 3)
+  end
+end
+
 --- Reads a number with an optional SI prefix and unit.
 -- Accepts "4.7k", "4.7 kΩ", "10 mA", "1e-3", "4k7", "2R2", "R47", "4u7",
--- "u"/"µ"/"μ" for micro, "meg"/"MEG" or "M" for mega ("m" is milli),
+-- "u"/"µ"/"μ" for micro, "M" for mega and "m" for milli (case-sensitive,
+-- as SI writes them; the three-letter mega suffix of some programs is
+-- refused with a message saying to write M),
 -- "NaN", "inf", "-inf".  The first letter after the number is read as a
 -- prefix when it is one ("1 m" is 1e-3); pass `unit` to strip an expected
 -- unit first ("5 Pa" with unit "Pa" is 5).  Numbers pass through.
@@ -216,7 +290,7 @@ function M.parse_si(text, unit)
     local tf = tail and first_char(tail)
     if sg and INFIX[letter] and fp ~= ""
        and not tail:find("^[%d%.]") and not tail:find("%s")
-       and not (tf and (PARSE_PREFIX[tf] or tail:sub(1, 3):lower() == "meg")) then
+       and not (tf and PARSE_PREFIX[tf]) then
       -- scaled through the decimal string: one rounding, 4k7 == 4700 exactly
       local v = tonumber((ip == "" and "0" or ip) .. "." .. fp .. "e" .. INFIX[letter])
       if v then return (sg == "-" and -v or v), tail end
@@ -229,6 +303,7 @@ function M.parse_si(text, unit)
   end
   local v = num and tonumber(num)
   if not v then bad() end
+  refuse_meg(text, tail)
   local e, u = read_suffix(tail, unit)
   if not e then bad() end
   if e ~= 0 then
