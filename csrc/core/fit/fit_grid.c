@@ -18,6 +18,7 @@
 
 typedef struct cells {
   size_t n, cap, hn;
+  size_t room;            /* allocated cells; grows up to cap */
   double *a, *b, *fa, *fb, *dev;
   size_t *heap;           /* max-heap of cell indices by dev */
   const sw_curve *c;
@@ -92,12 +93,161 @@ static void sort_cells(const cells *C, size_t *ord)
   }
 }
 
+/* Room for cap0 cells now; cells_grow doubles it up to C->cap. */
+static int cells_alloc(cells *C, size_t cap0, sw_err *err)
+{
+  C->a = sw_alloc(cap0, sizeof(double), err);
+  C->b = sw_alloc(cap0, sizeof(double), err);
+  C->fa = sw_alloc(cap0, sizeof(double), err);
+  C->fb = sw_alloc(cap0, sizeof(double), err);
+  C->dev = sw_alloc(cap0, sizeof(double), err);
+  C->heap = sw_alloc(cap0, sizeof(size_t), err);
+  if (!C->a || !C->b || !C->fa || !C->fb || !C->dev || !C->heap) return SW_ENOMEM;
+  C->room = cap0;
+  return SW_OK;
+}
+
+static int grow_doubles(double **f, size_t nk, sw_err *err)
+{
+  double *t = sw_realloc(*f, nk, sizeof(double), err);
+  if (!t) return SW_ENOMEM;
+  *f = t;
+  return SW_OK;
+}
+
+static int cells_grow(cells *C, sw_err *err)
+{
+  size_t nk = 2 * C->room < C->cap ? 2 * C->room : C->cap, *h;
+  if (grow_doubles(&C->a, nk, err) || grow_doubles(&C->b, nk, err) ||
+      grow_doubles(&C->fa, nk, err) || grow_doubles(&C->fb, nk, err) ||
+      grow_doubles(&C->dev, nk, err))
+    return SW_ENOMEM;
+  h = sw_realloc(C->heap, nk, sizeof(size_t), err);
+  if (!h) return SW_ENOMEM;
+  C->heap = h;
+  C->room = nk;
+  return SW_OK;
+}
+
+/* start uniform cells over [lo, hi], whose ends' values are flo and fhi. */
+static int cells_seed(cells *C, double lo, double hi, double flo, double fhi, size_t start,
+                      sw_err *err)
+{
+  double pa = lo, fpa = flo;
+  size_t i;
+  int st;
+  for (i = 0; i < start; i++) {
+    double pb = i + 1 == start ? hi : lo + (hi - lo) * (double)(i + 1) / (double)start, fpb;
+    if (i + 1 == start) fpb = fhi;
+    else if ((st = sw_curve_eval(C->c, pb, &fpb, err))) return st;
+    if ((st = cell_set(C, i, pa, pb, fpa, fpb, err))) return st;
+    pa = pb;
+    fpa = fpb;
+  }
+  C->n = start;
+  return SW_OK;
+}
+
+/* Splits the worst cell until the count reaches target and (tol fits) the
+ * grid's chord error is within limit, its share of tol. */
+static int cells_refine(cells *C, size_t target, double limit, sw_err *err)
+{
+  int st;
+  while (C->hn > 0 && C->n < C->cap) {
+    size_t w = C->heap[0], j = C->n;
+    double a, b, m, fm;
+    if (C->dev[w] <= 0) break;
+    if (C->n >= target && C->dev[w] <= limit) break;
+    if (j == C->room && (st = cells_grow(C, err))) return st;
+    C->heap[0] = C->heap[--C->hn];
+    heap_down(C, 0);
+    a = C->a[w];
+    b = C->b[w];
+    m = 0.5 * (a + b);
+    if ((st = sw_curve_eval(C->c, m, &fm, err))) return st;
+    if ((st = cell_set(C, j, m, b, fm, C->fb[w], err))) return st;
+    if ((st = cell_set(C, w, a, m, C->fa[w], fm, err))) return st;
+    C->n++;
+  }
+  return SW_OK;
+}
+
+/* Each cell's share q[i] (cells in order ord) of the n - 1 intervals: half
+ * uniform, half by the measured density (a cell's sqrt chord error per
+ * width ~ |f''|^(1/2)); a tolerance fit puts at least two in every cell,
+ * so no interval's chord error passes its share of tol.  Returns the sum. */
+static double cell_shares(const cells *C, const size_t *ord, double lo, double hi, size_t n,
+                          double tol, double *q)
+{
+  double total = 0, Q = 0;
+  size_t i;
+  for (i = 0; i < C->n; i++) total += sqrt(C->dev[i]);
+  if (!(total > 0) || !sw_isfinite(total)) total = 0;
+  for (i = 0; i < C->n; i++) {
+    size_t ci = ord[i];
+    double u = (C->b[ci] - C->a[ci]) / (hi - lo);
+    q[i] = total > 0 ? 0.5 * (double)(n - 1) * (sqrt(C->dev[ci]) / total + u)
+                     : (double)(n - 1) * u;
+    if (tol > 0 && q[i] < 2) q[i] = 2;
+    Q += q[i];
+  }
+  return Q;
+}
+
+/* The points of one sequence equidistributed on the shares q (sum Q) of
+ * the ordered cells, into x (room for M + 1); returns their count. */
+static size_t place_points(const cells *C, const size_t *ord, const double *q, double Q, size_t M,
+                           double lo, double hi, double *x)
+{
+  double acc = 0;
+  size_t i, j, k = 0;
+  x[k++] = lo;
+  for (i = 1, j = 0; i < M; i++) {
+    double level = Q * (double)i / (double)M, v;
+    size_t ci;
+    while (j + 1 < C->n && acc + q[j] < level) acc += q[j++];
+    ci = ord[j];
+    v = C->a[ci] + (q[j] > 0 ? (level - acc) / q[j] : 0.5) * (C->b[ci] - C->a[ci]);
+    if (v > x[k - 1] && v < hi) x[k++] = v;
+  }
+  x[k++] = hi;
+  return k;
+}
+
+/* The grid of about n points from the measured cells into *xs. */
+static int grid_from_cells(const cells *C, double lo, double hi, size_t n, double tol,
+                           double **xs, size_t *nx, sw_err *err)
+{
+  size_t *ord = sw_alloc(C->n, sizeof *ord, err), i, M;
+  double *q = sw_alloc(C->n, sizeof *q, err), *x = NULL, Q;
+  int st = SW_OK;
+  if (!ord || !q) { st = SW_ENOMEM; goto done; }
+  for (i = 0; i < C->n; i++) ord[i] = i;
+  sort_cells(C, ord);
+  Q = cell_shares(C, ord, lo, hi, n, tol, q);
+  if (!sw_isfinite(Q) || Q > 1e8) { /* an overflowing range or curve: no grid */
+    st = sw_err_set(err, SW_EINVAL, "cannot sample the curve on [%g, %g]: the range or the "
+                    "curve's values overflow", lo, hi);
+    goto done;
+  }
+  M = (size_t)ceil(Q);
+  if (M < 2) M = 2;
+  x = sw_alloc(M + 1, sizeof *x, err);
+  if (!x) { st = SW_ENOMEM; goto done; }
+  *nx = place_points(C, ord, q, Q, M, lo, hi, x);
+  *xs = x;
+done:
+  free(ord);
+  free(q);
+  return st;
+}
+
 int fit_grid_analytic(const sw_curve *c, double lo, double hi, size_t n, int rel,
                       double rel_floor, double tol, double **xs, size_t *nx, sw_err *err)
 {
   cells C;
-  size_t target = n / 2 > 1 ? n / 2 : 1, start, i, k;
-  double flo, fhi, *x = NULL, limit = tol > 0 ? TOL_SHARE * tol : INFINITY;
+  size_t target = n / 2 > 1 ? n / 2 : 1, start;
+  double flo, fhi, limit = tol > 0 ? TOL_SHARE * tol : INFINITY;
   int st;
   memset(&C, 0, sizeof C);
   *xs = NULL;
@@ -111,108 +261,10 @@ int fit_grid_analytic(const sw_curve *c, double lo, double hi, size_t n, int rel
   start = target / 4 > START_CELLS ? START_CELLS : (target / 4 > 0 ? target / 4 : 1);
   if ((st = sw_curve_eval(c, lo, &flo, err)) || (st = sw_curve_eval(c, hi, &fhi, err))) return st;
   /* the arrays grow with the split count: a smooth curve needs few cells */
-  {
-    size_t cap0 = C.cap < 2 * target + start ? C.cap : 2 * target + start;
-    C.a = sw_alloc(cap0, sizeof(double), err);
-    C.b = sw_alloc(cap0, sizeof(double), err);
-    C.fa = sw_alloc(cap0, sizeof(double), err);
-    C.fb = sw_alloc(cap0, sizeof(double), err);
-    C.dev = sw_alloc(cap0, sizeof(double), err);
-    C.heap = sw_alloc(cap0, sizeof(size_t), err);
-    if (!C.a || !C.b || !C.fa || !C.fb || !C.dev || !C.heap) { st = SW_ENOMEM; goto done; }
-    k = cap0;
-  }
-  {
-    double pa = lo, fpa = flo;
-    for (i = 0; i < start; i++) {
-      double pb = i + 1 == start ? hi : lo + (hi - lo) * (double)(i + 1) / (double)start, fpb;
-      if (i + 1 == start) fpb = fhi;
-      else if ((st = sw_curve_eval(c, pb, &fpb, err))) goto done;
-      if ((st = cell_set(&C, i, pa, pb, fpa, fpb, err))) goto done;
-      pa = pb;
-      fpa = fpb;
-    }
-    C.n = start;
-  }
-  /* split the worst cell until the count is reached and (tol fits) the
-   * grid's chord error is within its share of tol */
-  while (C.hn > 0 && C.n < C.cap) {
-    size_t w = C.heap[0], j = C.n;
-    double a, b, m, fm;
-    if (C.dev[w] <= 0) break;
-    if (C.n >= target && C.dev[w] <= limit) break;
-    if (j == k) { /* grow */
-      size_t nk = 2 * k < C.cap ? 2 * k : C.cap;
-      double *t;
-      size_t *h;
-#define GROW(f) do { t = sw_realloc(C.f, nk, sizeof(double), err); if (!t) { st = SW_ENOMEM; goto done; } C.f = t; } while (0)
-      GROW(a); GROW(b); GROW(fa); GROW(fb); GROW(dev);
-#undef GROW
-      h = sw_realloc(C.heap, nk, sizeof(size_t), err);
-      if (!h) { st = SW_ENOMEM; goto done; }
-      C.heap = h;
-      k = nk;
-    }
-    C.heap[0] = C.heap[--C.hn];
-    heap_down(&C, 0);
-    a = C.a[w];
-    b = C.b[w];
-    m = 0.5 * (a + b);
-    if ((st = sw_curve_eval(c, m, &fm, err))) goto done;
-    if ((st = cell_set(&C, j, m, b, fm, C.fb[w], err))) goto done;
-    if ((st = cell_set(&C, w, a, m, C.fa[w], fm, err))) goto done;
-    C.n++;
-  }
-  /* one sequence equidistributed on a mix of two densities, half each:
-   * uniform, and the one the cells measured (a cell's sqrt chord error
-   * per width ~ |f''|^(1/2)); a tolerance fit also puts two intervals in
-   * every cell, so no interval's chord error passes its share of tol */
-  {
-    size_t *ord = NULL, M, j;
-    double total = 0, Q = 0, acc = 0, *q = NULL;
-    ord = sw_alloc(C.n, sizeof *ord, err);
-    q = sw_alloc(C.n, sizeof *q, err);
-    if (!ord || !q) { free(ord); free(q); st = SW_ENOMEM; goto done; }
-    for (i = 0; i < C.n; i++) ord[i] = i;
-    sort_cells(&C, ord);
-    for (i = 0; i < C.n; i++) total += sqrt(C.dev[i]);
-    if (!(total > 0) || !sw_isfinite(total)) total = 0;
-    for (i = 0; i < C.n; i++) {
-      size_t ci = ord[i];
-      double u = (C.b[ci] - C.a[ci]) / (hi - lo);
-      q[i] = total > 0 ? 0.5 * (double)(n - 1) * (sqrt(C.dev[ci]) / total + u) : (double)(n - 1) * u;
-      if (tol > 0 && q[i] < 2) q[i] = 2;
-      Q += q[i];
-    }
-    if (!sw_isfinite(Q) || Q > 1e8) { /* an overflowing range or curve: no grid */
-      free(ord); free(q);
-      st = sw_err_set(err, SW_EINVAL, "cannot sample the curve on [%g, %g]: the range or the curve's values overflow", lo, hi);
-      goto done;
-    }
-    M = (size_t)ceil(Q);
-    if (M < 2) M = 2;
-    x = sw_alloc(M + 1, sizeof *x, err);
-    if (!x) { free(ord); free(q); st = SW_ENOMEM; goto done; }
-    k = 0;
-    x[k++] = lo;
-    for (i = 1, j = 0; i < M; i++) {
-      double level = Q * (double)i / (double)M, v;
-      size_t ci;
-      while (j + 1 < C.n && acc + q[j] < level) acc += q[j++];
-      ci = ord[j];
-      v = C.a[ci] + (q[j] > 0 ? (level - acc) / q[j] : 0.5) * (C.b[ci] - C.a[ci]);
-      if (v > x[k - 1] && v < hi) x[k++] = v;
-    }
-    x[k++] = hi;
-    free(ord);
-    free(q);
-  }
-  x[0] = lo;
-  x[k - 1] = hi;
-  *xs = x;
-  *nx = k;
-done:
-  if (st) free(x);
+  if (!(st = cells_alloc(&C, C.cap < 2 * target + start ? C.cap : 2 * target + start, err)) &&
+      !(st = cells_seed(&C, lo, hi, flo, fhi, start, err)) &&
+      !(st = cells_refine(&C, target, limit, err)))
+    st = grid_from_cells(&C, lo, hi, n, tol, xs, nx, err);
   cells_free(&C);
   return st;
 }
