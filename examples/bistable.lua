@@ -24,9 +24,9 @@ say(("N-shaped device: %d segments on 0 .. 600 mV, max error %s"):format(
   model:nseg(), sw.si(model:fit_info().max_abs, "A")))
 
 local net = sw.network()
-net:vsource("E", "in", "0", E)
+net:vsource("E", "in", "gnd", E)
 net:resistor("R", "in", "a", R)
-net:element("TD", "a", "0", model, { exact = curve })
+net:element("TD", "a", "gnd", model, { exact = curve })
 
 local all = net:solve_all()
 table.sort(all, function(p, q) return p.vd.TD < q.vd.TD end)

@@ -27,10 +27,10 @@ say(("clamp model: %d segments on 0 .. 11 V, max relative error %.1f %% against 
   model:nseg(), info.max_rel * 100, N))
 
 local net = sw.network()
-net:vsource("VF", "wire", "0", FAULT)
+net:vsource("VF", "wire", "gnd", FAULT)
 net:resistor("RS", "wire", "in", RS)
-net:element("DZ", "in", "0", model, { x = "v", pmax = PMAX, exact = law })
-net:resistor("RIN", "in", "0", RIN)
+net:element("DZ", "in", "gnd", model, { x = "v", pmax = PMAX, exact = law })
+net:resistor("RIN", "in", "gnd", RIN)
 
 -- The assumed-state method, started with the clamp off (its first segment).
 local op = net:solve { method = "assumed", trace = true, start = { DZ = 1 } }

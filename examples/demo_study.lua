@@ -47,19 +47,19 @@ say(("small currents right where an absolute band of %s would not. Its %d segmen
 say(sw.report.fit_table(chosen, { x = "V", y = "A" }))
 
 ---------------------------------------------------------------- 2. one point
-heading(("2. The circuit at %s: supply -> D1 -> %s load"):format(sw.si(VNOM, "V"), sw.si(RL, "Ω")))
+heading(("2. The circuit at %s: supply -> DIODE -> %s load"):format(sw.si(VNOM, "V"), sw.si(RL, "Ω")))
 local net = sw.network()
-net:vsource("VS", "sup", "0", VNOM)
-net:element("D1", "sup", "out", chosen, { x = "v", exact = diode, pmax = 1.0 })
-net:resistor("RL", "out", "0", RL)
+net:vsource("VS", "sup", "gnd", VNOM)
+net:element("DIODE", "sup", "out", chosen, { x = "v", exact = diode, pmax = 1.0 })
+net:resistor("RL", "out", "gnd", RL)
 say(tostring(net))
 say("")
 local op = net:solve()
 say(sw.report.op_table(op))
 local ex = net:solve { exact = true }
 local d = sw.compare_ops(op, ex)
-say(("against the measured curve itself (Newton from the PWL point): D1 differs by %s and %s (%.3f %%)"):format(
-  sw.si(d.D1.dv, "V"), sw.si(d.D1.di, "A"), d.D1.rel_i * 100))
+say(("against the measured curve itself (Newton from the PWL point): DIODE differs by %s and %s (%.3f %%)"):format(
+  sw.si(d.DIODE.dv, "V"), sw.si(d.DIODE.di, "A"), d.DIODE.rel_i * 100))
 
 ---------------------------------------------------------------- 3. the sweep
 heading("3. Supply swept from 0.5 V to 9 V")
@@ -70,8 +70,8 @@ local rows = {}
 for k, o in ipairs(ops) do
   net:set("VS", supplies[k])
   local e = net:solve { exact = true }
-  rows[k] = { vs = supplies[k], v_load = o.v.out, i = o.i.D1, i_data = e.i.D1, v_d = o.vd.D1, p_d = o.p.D1,
-              p_load = o.p.RL, seg = o.state.D1, loss = supplies[k] > 0 and (1 - o.v.out / supplies[k]) * 100 or 0 }
+  rows[k] = { vs = supplies[k], v_load = o.v.out, i = o.i.DIODE, i_data = e.i.DIODE, v_d = o.vd.DIODE, p_d = o.p.DIODE,
+              p_load = o.p.RL, seg = o.state.DIODE, loss = supplies[k] > 0 and (1 - o.v.out / supplies[k]) * 100 or 0 }
 end
 net:set("VS", VNOM)
 say(sw.report.table(rows, {
@@ -134,7 +134,7 @@ plot("sweep.svg", { title = "Load current against supply", x = { label = "supply
   series = { { x = sx, y = si_pwl, label = "PWL model" },
              { x = sx, y = si_data, label = "measured curve (Newton)", style = "points" } } })
 plot("diode_power.svg", { title = "Diode dissipation against supply", x = { label = "supply", unit = "V" },
-  y = { label = "power", unit = "W" }, series = { { x = sx, y = sp, label = "P(D1)", marker = true } } })
+  y = { label = "power", unit = "W" }, series = { { x = sx, y = sp, label = "P(DIODE)", marker = true } } })
 
 heading("Caution")
 say("A PWL model is an approximation, good only over the range it was fitted on")

@@ -41,14 +41,14 @@ local r_calc = (BUS - NLED * model(TARGET)) / TARGET
 local r = e24_at_or_above(r_calc)
 say(("ballast: %s calculated, %s chosen (E24, at or above)\n"):format(sw.si(r_calc, "Ω"), sw.si(r, "Ω")))
 
--- 3. The string: VB -> RB -> L1 -> L2 -> L3 -> ground.  Each LED's model
+-- 3. The string: VB -> RB -> LED1 -> LED2 -> LED3 -> ground.  Each LED's model
 --    gives v(i), so x = "i"; the exact law rides along for the comparison.
 local net = sw.network()
-net:vsource("VB", "bus", "0", BUS)
-net:resistor("RB", "bus", "a1", r)
-local nodes = { "a1", "a2", "a3", "0" }
+net:vsource("VB", "bus", "gnd", BUS)
+net:resistor("RB", "bus", "tap1", r)
+local nodes = { "tap1", "tap2", "tap3", "gnd" }
 for k = 1, NLED do
-  net:element("L" .. k, nodes[k], nodes[k + 1], model, { x = "i", exact = law })
+  net:element("LED" .. k, nodes[k], nodes[k + 1], model, { x = "i", exact = law })
 end
 
 local rows = {}
@@ -57,10 +57,10 @@ for k = 0, 6 do
   net:set("VB", vb)
   local op = net:solve()
   local ex = net:solve { exact = true }
-  local i = op.i.L1
+  local i = op.i.LED1
   rows[#rows + 1] = {
-    vb = vb, i = i, i_exact = ex.i.L1, dev = math.abs(i - ex.i.L1) < 5e-5 * ex.i.L1 and 0 or (i - ex.i.L1) / ex.i.L1 * 100,
-    v_led = op.vd.L1, p_led = op.p.L1, p_r = op.p.RB, eff = NLED * op.p.L1 / (vb * i) * 100,
+    vb = vb, i = i, i_exact = ex.i.LED1, dev = math.abs(i - ex.i.LED1) < 5e-5 * ex.i.LED1 and 0 or (i - ex.i.LED1) / ex.i.LED1 * 100,
+    v_led = op.vd.LED1, p_led = op.p.LED1, p_r = op.p.RB, eff = NLED * op.p.LED1 / (vb * i) * 100,
   }
 end
 net:set("VB", BUS)
@@ -82,16 +82,16 @@ say(("the ±10 %% bus swing moves the LED current from %s to %s (%.0f %% of the 
 -- 4. Tolerances: the ballast within ±5 % (uniform) and the bus with a 3 %
 --    standard deviation (normal), 20000 seeded runs written into arrays.
 local RUNS = 20000
-local mc = net:montecarlo({ RB = 0.05, VB = { sd = 0.03 } }, { runs = RUNS, seed = 24, out = { "i.L1", "p.L1" } })
-local st, above = mc.stats["i.L1"], 0
+local mc = net:montecarlo({ RB = 0.05, VB = { sd = 0.03 } }, { runs = RUNS, seed = 24, out = { "i.LED1", "p.LED1" } })
+local st, above = mc.stats["i.LED1"], 0
 for k = 1, RUNS do
-  if mc["i.L1"][k] > 1.25 * TARGET then above = above + 1 end
+  if mc["i.LED1"][k] > 1.25 * TARGET then above = above + 1 end
 end
 say(("tolerance study, %d runs: LED current %s ± %s (sd), %s .. %s; %.2f %% of the runs above %s"):format(
   RUNS, sw.si(st.mean, "A"), sw.si(st.sd, "A"), sw.si(st.min, "A"), sw.si(st.max, "A"),
   above / RUNS * 100, sw.si(1.25 * TARGET, "A")))
 say(("largest LED dissipation in those runs: %s (check it against the LED's rating)"):format(
-  sw.si(mc.stats["p.L1"].max, "W")))
+  sw.si(mc.stats["p.LED1"].max, "W")))
 
 return { model = model, law = law, r = r, r_calc = r_calc, nled = NLED, target = TARGET, rows = rows,
          vs_law = vs_law, mc = mc, above = above }

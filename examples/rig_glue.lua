@@ -60,9 +60,9 @@ say(("saved %s and reloaded it: %d segments, x in %s, y in %s"):format(path, loa
 -- with the fitted and with the reloaded model.
 local function solve_with(m)
   local net = sw.network()
-  net:vsource("V24", "sup", "0", 24)
+  net:vsource("VRAIL", "sup", "gnd", 24)
   net:resistor("RD", "sup", "lamp", 130)
-  net:element("LP", "lamp", "0", m)
+  net:element("LP", "lamp", "gnd", m)
   return net:solve()
 end
 local op, op2 = solve_with(model), solve_with(loaded)

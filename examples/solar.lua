@@ -32,12 +32,12 @@ say(("dark diode: %d segments on 0 .. 22 V within 5 mA; blocking diode: %d segme
   dark:nseg(), block:nseg()))
 
 local net = sw.network()
-net:isource("IPH", "0", "pv", 0)                   -- photocurrent into the module's + terminal
-net:element("DARK", "pv", "0", dark, { exact = dark_law })
-net:resistor("RSH", "pv", "0", RSH)
+net:isource("IPH", "gnd", "pv", 0)                   -- photocurrent into the module's + terminal
+net:element("DARK", "pv", "gnd", dark, { exact = dark_law })
+net:resistor("RSH", "pv", "gnd", RSH)
 net:element("DB", "pv", "b", block, { exact = block_law })
 net:resistor("RW", "b", "bt", RW)
-net:vsource("VBAT", "bt", "0", VBAT)
+net:vsource("VBAT", "bt", "gnd", VBAT)
 
 local suns = { 0, 10, 25, 50, 100, 200, 400, 600, 800, 1000 }   -- irradiance, W/m^2
 local iph = {}

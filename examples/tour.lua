@@ -18,14 +18,14 @@ end
 
 -- 5 V through 470 ohm into the diode: assumed-state solution with its trace.
 local net = sw.network()
-net:vsource("VS", "in", "0", 5)
-net:resistor("R1", "in", "a", 470)
-net:element("D1", "a", "0", m, { exact = d })
+net:vsource("VS", "in", "gnd", 5)
+net:resistor("RSER", "in", "a", 470)
+net:element("DIODE", "a", "gnd", m, { exact = d })
 local op = net:solve { method = "assumed", trace = true }
 print(op.trace)
 local ex = net:solve { exact = true }
-print(("PWL: %s at %s   exact: %s at %s"):format(sw.si(op.i.D1, "A"), sw.si(op.v.a, "V"),
-  sw.si(ex.i.D1, "A"), sw.si(ex.v.a, "V")))
+print(("PWL: %s at %s   exact: %s at %s"):format(sw.si(op.i.DIODE, "A"), sw.si(op.v.a, "V"),
+  sw.si(ex.i.DIODE, "A"), sw.si(ex.v.a, "V")))
 
 -- The curve, the model with its knots, and the operating point, as an SVG.
 local spec = sw.plot.fit_spec(d, { { name = "4-segment minimax", model = m } },
@@ -34,7 +34,7 @@ spec.title = "Diode law and its PWL model; the operating point with 470 Ω from 
 spec.series[#spec.series + 1] = { x = { 0.6, 0.8 }, y = { (5 - 0.6) / 470, (5 - 0.8) / 470 },
   label = "load line: 5 V through 470 Ω" }
 spec.marks = spec.marks or {}
-spec.marks[#spec.marks + 1] = { x = op.v.a, y = op.i.D1, label = "operating point" }
+spec.marks[#spec.marks + 1] = { x = op.v.a, y = op.i.DIODE, label = "operating point" }
 os.execute("mkdir -p out")
 sw.plot.svg("out/tour.svg", spec)
 print("plot written to out/tour.svg")

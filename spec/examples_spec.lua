@@ -141,17 +141,17 @@ describe("segwise examples", function()
 
     it("every tolerance run obeys KVL with its own drawn values", function()
       local mc = r.mc
-      assert.are.equal(20000, #mc["i.L1"])
+      assert.are.equal(20000, #mc["i.LED1"])
       for k = 1, 20000, 997 do
-        local vb, rb, i = mc.values.VB[k], mc.values.RB[k], mc["i.L1"][k]
+        local vb, rb, i = mc.values.VB[k], mc.values.RB[k], mc["i.LED1"][k]
         near_rel(vb, rb * i + 3 * r.model(i), 1e-10, "KVL in run " .. k)
-        near_rel(r.model(i) * i, mc["p.L1"][k], 1e-10, "P = v i in run " .. k)
+        near_rel(r.model(i) * i, mc["p.LED1"][k], 1e-10, "P = v i in run " .. k)
         assert.is_true(math.abs(rb / r.r - 1) <= 0.05, "ballast within 5 %")
       end
       local above = 0
-      for k = 1, 20000 do if mc["i.L1"][k] > 1.25 * r.target then above = above + 1 end end
+      for k = 1, 20000 do if mc["i.LED1"][k] > 1.25 * r.target then above = above + 1 end end
       assert.are.equal(above, r.above)
-      local st = mc.stats["i.L1"]
+      local st = mc.stats["i.LED1"]
       assert.is_true(st.min < st.mean and st.mean < st.max)
     end)
 
