@@ -459,6 +459,82 @@ static int check_text(scan *s, const char *buf, size_t len, size_t *nlines)
   return SW_OK;
 }
 
+/* A scanner over buf set up for the file called name. */
+static void scan_init(scan *s, const char *buf, size_t len, const char *name, char delim,
+                      sw_err *err)
+{
+  s->p = buf;
+  s->end = buf + len;
+  s->name = name;
+  s->line_start = buf;
+  s->line = 1;
+  s->delim = delim ? delim : ',';
+  s->err = err;
+  s->extended_ok = sw_text_extended_ok();
+}
+
+/* Moves s to the next line with content; 0 at the end of the text. */
+static int skip_to_content(scan *s)
+{
+  for (;;) {
+    const char *q = s->p;
+    while (q < s->end && (*q == ' ' || *q == '\t')) q++;
+    if (q >= s->end) { s->p = q; return 0; }
+    if (is_eol(s, q) || *q == '#') { next_line(s); continue; }
+    return 1;
+  }
+}
+
+/* Room for est rows of each asked column found in the file (and of the
+ * line numbers when asked). */
+static int alloc_rows(const layout *lay, size_t ncols, size_t est, double **out, size_t **ln,
+                      int want_lines, sw_err *err)
+{
+  size_t k;
+  for (k = 0; k < ncols; k++) {
+    if (lay->slot_field[k] == NO_FIELD) continue;
+    out[k] = sw_alloc(est, sizeof **out, err);
+    if (!out[k]) return SW_ENOMEM;
+  }
+  if (want_lines && !(*ln = sw_alloc(est, sizeof **ln, err))) return SW_ENOMEM;
+  return SW_OK;
+}
+
+/* Reads every data row after the header into the columns; *nrows rows. */
+static int read_rows(scan *s, layout *lay, const sw_text_col *cols, size_t ncols, double **out,
+                     size_t *ln, size_t *nrows)
+{
+  size_t r = 0, k;
+  int st;
+  while (s->p < s->end && skip_to_content(s)) {
+    if ((st = parse_row(s, lay))) return st;
+    for (k = 0; k < ncols; k++)
+      if (out[k]) out[k][r] = lay->vals[lay->slot_field[k]] * cols[k].scale;
+    if (ln) ln[r] = s->line;
+    r++;
+    end_row(s);
+  }
+  *nrows = r;
+  if (r == 0)
+    return sw_err_set(s->err, SW_EINVAL, "%s:%zu: no data rows after the header on line %zu",
+                      s->name, s->line, lay->header_line);
+  return SW_OK;
+}
+
+/* Gives back the unused part of the row estimate. */
+static void trim_rows(size_t ncols, size_t r, double **out, size_t **ln)
+{
+  size_t k;
+  for (k = 0; k < ncols; k++) {
+    double *d = out[k] ? realloc(out[k], r * sizeof **out) : NULL;
+    if (d) out[k] = d;
+  }
+  if (*ln) {
+    size_t *d = realloc(*ln, r * sizeof **ln);
+    if (d) *ln = d;
+  }
+}
+
 int sw_text_parse(const char *buf, size_t len, const char *name,
                   const sw_text_opts *opts, const sw_text_col *cols,
                   size_t ncols, double **out, size_t **lines, size_t *nrows,
@@ -478,82 +554,25 @@ int sw_text_parse(const char *buf, size_t len, const char *name,
   if (ncols == 0) return sw_err_set(err, SW_EINVAL, "%s: no columns asked for", name);
   if (opts->delim && !strchr(",;\t ", opts->delim))
     return sw_err_set(err, SW_EINVAL, "%s: delimiter must be ',', ';', tab or ' '", name);
-
   memset(&lay, 0, sizeof lay);
-  s.p = buf;
-  s.end = buf + len;
-  s.name = name;
-  s.line_start = buf;
-  s.line = 1;
-  s.delim = opts->delim ? opts->delim : ',';
-  s.err = err;
-  s.extended_ok = sw_text_extended_ok();
-
+  scan_init(&s, buf, len, name, opts->delim, err);
   if (len == 0) return fail_at(&s, s.p, "the file is empty");
-  st = check_text(&s, buf, len, &est);
-  if (st) return st;
+  if ((st = check_text(&s, buf, len, &est))) return st;
   if (len >= 3 && memcmp(buf, "\xef\xbb\xbf", 3) == 0) s.p += 3; /* UTF-8 mark */
-
-  /* skip to the first content row */
-  for (;;) {
-    const char *q = s.p;
-    while (q < s.end && (*q == ' ' || *q == '\t')) q++;
-    if (q >= s.end) {
-      return fail_at(&s, q, "no data rows (the file holds only comments and blank lines)");
-    }
-    if (is_eol(&s, q) || *q == '#') { next_line(&s); continue; }
-    break;
-  }
+  if (!skip_to_content(&s))
+    return fail_at(&s, s.p, "no data rows (the file holds only comments and blank lines)");
   if (!opts->delim) s.delim = detect_delim(&s);
 
-  st = read_first_row(&s, opts, &lay);
-  if (!st) st = resolve_columns(&s, &lay, cols, ncols);
-  if (st) goto fail;
-
-  for (k = 0; k < ncols; k++) {
-    if (lay.slot_field[k] == NO_FIELD) continue;
-    out[k] = sw_alloc(est, sizeof **out, err);
-    if (!out[k]) { st = SW_ENOMEM; goto fail; }
+  if (!(st = read_first_row(&s, opts, &lay)) && !(st = resolve_columns(&s, &lay, cols, ncols)) &&
+      !(st = alloc_rows(&lay, ncols, est, out, &ln, lines != NULL, err)) &&
+      !(st = read_rows(&s, &lay, cols, ncols, out, ln, &r))) {
+    trim_rows(ncols, r, out, &ln);
+    if (lines) *lines = ln;
+    *nrows = r;
+  } else {
+    for (k = 0; k < ncols; k++) { free(out[k]); out[k] = NULL; }
+    free(ln);
   }
-  if (lines) {
-    ln = sw_alloc(est, sizeof *ln, err);
-    if (!ln) { st = SW_ENOMEM; goto fail; }
-  }
-
-  while (s.p < s.end) {
-    const char *q = s.p;
-    while (q < s.end && (*q == ' ' || *q == '\t')) q++;
-    if (q >= s.end) break;
-    if (is_eol(&s, q) || *q == '#') { next_line(&s); continue; }
-    st = parse_row(&s, &lay);
-    if (st) goto fail;
-    for (k = 0; k < ncols; k++)
-      if (out[k]) out[k][r] = lay.vals[lay.slot_field[k]] * cols[k].scale;
-    if (ln) ln[r] = s.line;
-    r++;
-    end_row(&s);
-  }
-  if (r == 0) {
-    st = sw_err_set(err, SW_EINVAL, "%s:%zu: no data rows after the header on line %zu",
-                    name, s.line, lay.header_line);
-    goto fail;
-  }
-  for (k = 0; k < ncols; k++) { /* give back the unused estimate */
-    double *d = out[k] ? realloc(out[k], r * sizeof **out) : NULL;
-    if (d) out[k] = d;
-  }
-  if (ln) {
-    size_t *d = realloc(ln, r * sizeof *ln);
-    if (d) ln = d;
-    *lines = ln;
-  }
-  *nrows = r;
-  layout_free(&lay);
-  return SW_OK;
-
-fail:
-  for (k = 0; k < ncols; k++) { free(out[k]); out[k] = NULL; }
-  free(ln);
   layout_free(&lay);
   return st;
 }
