@@ -26,18 +26,18 @@ local function freed(obj) obj:free(); return obj end
 -- A small circuit: 5 V, 1 kohm and a diode-like element.
 local function circuit()
   local net = sw.network()
-  net:vsource("V1", "in", "0", 5)
-  net:resistor("R1", "in", "a", 1000)
-  net:element("D1", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } })
+  net:vsource("VIN", "in", "0", 5)
+  net:resistor("RSER", "in", "a", 1000)
+  net:element("DIODE", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } })
   return net
 end
 
--- The same with V1 = -50 V and a model bounded at its ends (extend = "error").
+-- The same with VIN = -50 V and a model bounded at its ends (extend = "error").
 local function bounded()
   local net = sw.network()
-  net:vsource("V1", "in", "0", -50)
-  net:resistor("R1", "in", "a", 1000)
-  net:element("D1", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 }, extend = "error" })
+  net:vsource("VIN", "in", "0", -50)
+  net:resistor("RSER", "in", "a", 1000)
+  net:element("DIODE", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 }, extend = "error" })
   return net
 end
 
@@ -290,48 +290,48 @@ describe("segwise bad input", function()
   if sw.network then
     describe("sw.network", function()
       run_cases {
-        { "negative resistance", function() sw.network():resistor("R1", "a", "0", -5) end, "R1" },
-        { "zero resistance", function() sw.network():resistor("R1", "a", "0", 0) end, "R1" },
-        { "NaN source", function() sw.network():vsource("V1", "a", "0", NAN) end, "volts" },
+        { "negative resistance", function() sw.network():resistor("RSER", "a", "0", -5) end, "RSER" },
+        { "zero resistance", function() sw.network():resistor("RSER", "a", "0", 0) end, "RSER" },
+        { "NaN source", function() sw.network():vsource("VIN", "a", "0", NAN) end, "volts" },
         { "name not a string", function() sw.network():resistor({}, "a", "0", 1) end, "name" },
-        { "node nil", function() sw.network():resistor("R1", nil, "0", 1) end, "node 1" },
+        { "node nil", function() sw.network():resistor("RSER", nil, "0", 1) end, "node 1" },
         { "duplicate name", function()
-          sw.network():resistor("R1", "a", "0", 1):resistor("R1", "a", "0", 2)
-        end, "R1" },
+          sw.network():resistor("RSER", "a", "0", 1):resistor("RSER", "a", "0", 2)
+        end, "RSER" },
         { "floating node", function()
           local net = circuit()
-          net:resistor("R9", "x", "y", 10)
+          net:resistor("RFLOAT", "x", "y", 10)
           net:solve()
         end, "x" },
         { "voltage-source loop", function()
           local net = circuit()
-          net:vsource("V2", "in", "0", 3)
+          net:vsource("VAUX", "in", "0", 3)
           net:solve()
-        end, "V2" },
+        end, "VAUX" },
         { "current-source cut", function()
           local net = circuit()
-          net:isource("I1", "0", "z", 1e-3)
+          net:isource("ISRC", "0", "z", 1e-3)
           net:solve()
-        end, "I1" },
-        { "set of an unknown name", function() circuit():set("R7", 5) end, "R7" },
-        { "set of a device", function() circuit():set("D1", 5) end, "D1" },
+        end, "ISRC" },
+        { "set of an unknown name", function() circuit():set("RGHOST", 5) end, "RGHOST" },
+        { "set of a device", function() circuit():set("DIODE", 5) end, "DIODE" },
         { "cccs with an unknown control", function()
           local net = circuit()
-          net:cccs("F1", "a", "0", "Vx", 2)
+          net:cccs("MIRROR", "a", "0", "Vx", 2)
           net:solve()
         end, "Vx" },
-        { "element with a non-model", function() circuit():element("D2", "a", "0", 5) end, "model" },
-        { "element with a freed model", function() circuit():element("D2", "a", "0", freed(model())) end, "free" },
+        { "element with a non-model", function() circuit():element("DIODE2", "a", "0", 5) end, "model" },
+        { "element with a freed model", function() circuit():element("DIODE2", "a", "0", freed(model())) end, "free" },
         { "solve with an unknown method", function() circuit():solve { method = "newton" } end, "option method" },
-        { "start names an unknown device", function() circuit():solve { start = { D9 = 1 } } end, "D9" },
-        { "start segment out of range", function() circuit():solve { start = { D1 = 99 } } end, "99" },
-        { "sweep of an unknown name", function() circuit():sweep("V9", { 1, 2 }) end, "V9" },
-        { "sweep values with NaN", function() circuit():sweep("V1", { 1, NAN }) end, "%[2%]" },
+        { "start names an unknown device", function() circuit():solve { start = { DGHOST = 1 } } end, "DGHOST" },
+        { "start segment out of range", function() circuit():solve { start = { DIODE = 99 } } end, "99" },
+        { "sweep of an unknown name", function() circuit():sweep("VGHOST", { 1, 2 }) end, "VGHOST" },
+        { "sweep values with NaN", function() circuit():sweep("VIN", { 1, NAN }) end, "%[2%]" },
         -- regression (fuzzer, net harness): the assumed-state iteration once
         -- stepped a device past the last segment of a bounded model
-        { "assumed state beyond a bounded model", function() bounded():solve { method = "assumed" } end, "D1 needs v = %-50" },
-        { "load line beyond a bounded model", function() bounded():solve() end, "D1" },
-        { "lcp beyond a bounded model", function() bounded():solve { method = "lcp" } end, "D1" },
+        { "assumed state beyond a bounded model", function() bounded():solve { method = "assumed" } end, "DIODE needs v = %-50" },
+        { "load line beyond a bounded model", function() bounded():solve() end, "DIODE" },
+        { "lcp beyond a bounded model", function() bounded():solve { method = "lcp" } end, "DIODE" },
         { "enumerate beyond a bounded model", function() bounded():solve { method = "enumerate" } end, "no consistent state" },
         { "network used after free", function() local n = circuit(); n:free(); n:solve() end, "free" },
       }
@@ -340,14 +340,14 @@ describe("segwise bad input", function()
         local net = bounded()
         local ok, msg = pcall(net.solve, net)
         assert.is_false(ok)
-        assert.matches("D1", msg)
-        net:set("V1", 5)
+        assert.matches("DIODE", msg)
+        net:set("VIN", 5)
         local op = net:solve()
-        -- KVL round the loop: 5 V = R1 drop + D1 drop; KCL: one current
-        -- flows through V1, R1 and D1 (Kirchhoff, common practice)
-        assert.is.near(5, op.vd.R1 + op.vd.D1, 1e-9)
-        assert.is.near(op.i.R1, op.i.D1, 1e-12)
-        assert.is.near(0, op.i.V1 + op.i.R1, 1e-12)
+        -- KVL round the loop: 5 V = RSER drop + DIODE drop; KCL: one current
+        -- flows through VIN, RSER and DIODE (Kirchhoff, common practice)
+        assert.is.near(5, op.vd.RSER + op.vd.DIODE, 1e-9)
+        assert.is.near(op.i.RSER, op.i.DIODE, 1e-12)
+        assert.is.near(0, op.i.VIN + op.i.RSER, 1e-12)
       end)
     end)
   end
@@ -383,17 +383,17 @@ describe("segwise bad input", function()
     if sw.network then
       cases[#cases + 1] = { "an exact-curve callback frees the network being solved", [[
         local net = sw.network()
-        net:vsource("V1", "in", "0", 5)
-        net:resistor("R1", "in", "a", 1000)
+        net:vsource("VIN", "in", "0", 5)
+        net:resistor("RSER", "in", "a", 1000)
         local ex = sw.curve.fn(function(v) net:free(); return 1e-3 * v end, { lo = -1, hi = 1 })
-        net:element("D1", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } }, { exact = ex })
+        net:element("DIODE", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } }, { exact = ex })
         print(pcall(net.solve, net, { exact = true }))]], "free" }
       -- regression (fuzzer, net harness): a segment line whose intercept
       -- overflows was reported after its storage was freed
       cases[#cases + 1] = { "a device whose segment line overflows", [[
         local net = sw.network()
-        net:vsource("V1", "a", "0", 1)
-        print(pcall(net.element, net, "D1", "a", "0", sw.pwl { x = { 1e300, 1.5e300 }, y = { 0, 1e308 } }))]], "D1" }
+        net:vsource("VIN", "a", "0", 1)
+        print(pcall(net.element, net, "DIODE", "a", "0", sw.pwl { x = { 1e300, 1.5e300 }, y = { 0, 1e308 } }))]], "DIODE" }
     end
     for _, case in ipairs(cases) do
       it(case[1], function()

@@ -202,10 +202,10 @@ describe("segwise properties", function()
           local a, b = nodes[math.random(1, #nodes)], nodes[math.random(1, #nodes)]
           if a ~= b then add("resistor", "RX" .. k, a, b, r(10, 1e4)) end
         end
-        add("vsource", "V1", nodes[math.random(2, #nodes)], "0", r(-10, 10))
+        add("vsource", "VIN", nodes[math.random(2, #nodes)], "0", r(-10, 10))
         for k = 1, math.random(0, 2) do
           local a, b = nodes[math.random(1, #nodes)], nodes[math.random(1, #nodes)]
-          if a ~= b then add("isource", "I" .. k, a, b, r(-0.01, 0.01)) end
+          if a ~= b then add("isource", "ISRC" .. k, a, b, r(-0.01, 0.01)) end
         end
         for k = 1, math.random(1, 3) do
           local a, b = nodes[math.random(1, #nodes)], nodes[math.random(1, #nodes)]
@@ -215,7 +215,7 @@ describe("segwise properties", function()
               xs[j] = xs[j - 1] + r(0.05, 1)
               ys[j] = ys[j - 1] + r(1e-5, 0.02)
             end
-            add("element", "D" .. k, a, b, nil, sw.pwl { x = xs, y = ys })
+            add("element", "DIODE" .. k, a, b, nil, sw.pwl { x = xs, y = ys })
           end
         end
         for _, e in ipairs(els) do
@@ -283,9 +283,9 @@ describe("segwise properties", function()
           local net = random_circuit(r)
           local values = {}
           for k = 1, 5 do values[k] = r(-10, 10) end
-          local rows = net:sweep("V1", values)
+          local rows = net:sweep("VIN", values)
           for k, v in ipairs(values) do
-            net:set("V1", v)
+            net:set("VIN", v)
             local op = net:solve()
             -- rising devices and positive resistors: one operating point, so
             -- the warm-started sweep must land on it too
@@ -302,10 +302,10 @@ describe("segwise properties", function()
           local net, els, nodes = random_circuit(r)
           local values = {}
           for k = 1, 6 do values[k] = r(-10, 10) end
-          local rows = net:sweep("V1", values)
+          local rows = net:sweep("VIN", values)
           assert.are.equal(#values, #rows)
           for k, op in ipairs(rows) do
-            for _, e in ipairs(els) do if e.name == "V1" then e.value = values[k] end end
+            for _, e in ipairs(els) do if e.name == "VIN" then e.value = values[k] end end
             check_op(op, els, nodes)
           end
         end

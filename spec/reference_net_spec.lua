@@ -17,16 +17,16 @@ end
 describe("segwise.network reference", function()
   describe("Thevenin's theorem", function()
     it("a device sees the same point in the full network and in its Thevenin equivalent", function()
-      -- Full network: E1 = 10 V -> R1 = 1k -> a; R2 = 2k a-0; I1 = 2 mA into a;
-      -- R3 = 500 a-b; device b-0.
+      -- Full network: VSUP = 10 V -> RSER = 1k -> a; RSHUNT = 2k a-0; ISRC = 2 mA
+      -- into a; RLINK = 500 a-b; device b-0.
       local model = sw.pwl { x = { 0, 0.6, 0.7, 1.0 }, y = { 0, 1e-4, 3e-3, 0.03 } }
       local full = sw.network()
-      full:vsource("E1", "e", "0", 10)
-      full:resistor("R1", "e", "a", 1000)
-      full:resistor("R2", "a", "0", 2000)
-      full:isource("I1", "0", "a", 2e-3)
-      full:resistor("R3", "a", "b", 500)
-      full:element("D1", "b", "0", model)
+      full:vsource("VSUP", "e", "0", 10)
+      full:resistor("RSER", "e", "a", 1000)
+      full:resistor("RSHUNT", "a", "0", 2000)
+      full:isource("ISRC", "0", "a", 2e-3)
+      full:resistor("RLINK", "a", "b", 500)
+      full:element("DIODE", "b", "0", model)
       -- Thevenin (hand algebra): open-circuit Va from KCL (10 - Va)/1k + 2m = Va/2k
       -- => Va = (10/1000 + 0.002) / (1/1000 + 1/2000) = 8 V; Rth = 500 + 1k||2k.
       local vth = (10 / 1000 + 0.002) / (1 / 1000 + 1 / 2000)
@@ -34,13 +34,13 @@ describe("segwise.network reference", function()
       local th = sw.network()
       th:vsource("VTH", "t", "0", vth)
       th:resistor("RTH", "t", "b", rth)
-      th:element("D1", "b", "0", model)
+      th:element("DIODE", "b", "0", model)
       for _, m in ipairs { "auto", "assumed", "enumerate", "lcp" } do
         local a, b = full:solve { method = m }, th:solve { method = m }
         H.check_kirchhoff(full, a)
         H.check_kirchhoff(th, b)
-        assert.is.near(b.vd.D1, a.vd.D1, 1e-12)
-        assert.is.near(b.i.D1, a.i.D1, 1e-15)
+        assert.is.near(b.vd.DIODE, a.vd.DIODE, 1e-12)
+        assert.is.near(b.i.DIODE, a.i.DIODE, 1e-15)
       end
     end)
   end)
@@ -59,7 +59,7 @@ describe("segwise.network reference", function()
         net:resistor("RG" .. k, node(k), "0", 10 + 5000 * math.random())
         if k > 1 then net:resistor("RC" .. k, node(k - 1), node(k), 10 + 1000 * math.random()) end
       end
-      net:isource("I1", "0", node(nodes), 1e-3 * math.random())
+      net:isource("ISRC", "0", node(nodes), 1e-3 * math.random())
       for d = 1, ndev do
         local a = math.random(1, nodes)
         local b = math.random(0, nodes)
@@ -74,7 +74,7 @@ describe("segwise.network reference", function()
           x = x + dx
           xs[#xs + 1], ys[#ys + 1] = x, y
         end
-        net:element("D" .. d, node(a), node(b), sw.pwl { x = xs, y = ys })
+        net:element("DIODE" .. d, node(a), node(b), sw.pwl { x = xs, y = ys })
       end
       return net
     end
@@ -122,7 +122,7 @@ describe("segwise.network reference", function()
       local net = sw.network()
       net:vsource("E", "in", "0", e)
       net:resistor("R", "in", "a", 50)
-      net:element("D1", "a", "0", ndevice())
+      net:element("DIODE", "a", "0", ndevice())
       return net
     end
 
@@ -130,12 +130,12 @@ describe("segwise.network reference", function()
       local net = tunnel(0.5)
       local all = net:solve_all()
       assert.are.equal(3, #all)
-      table.sort(all, function(p, q) return p.vd.D1 < q.vd.D1 end)
+      table.sort(all, function(p, q) return p.vd.DIODE < q.vd.DIODE end)
       local expect = { 0.5 / 6, 0.7 - 0.5, (0.5 + 1.25) / 5.5 }
       for k = 1, 3 do
-        assert.is.near(expect[k], all[k].vd.D1, 1e-14)
-        assert.are.equal(k, all[k].state.D1)
-        assert.is_false(all[k].on_breakpoint.D1)
+        assert.is.near(expect[k], all[k].vd.DIODE, 1e-14)
+        assert.are.equal(k, all[k].state.DIODE)
+        assert.is_false(all[k].on_breakpoint.DIODE)
         H.check_kirchhoff(net, all[k])
       end
       -- small capacitance C across the device: C dv/dt = (E - v)/R - i(v) is
@@ -152,30 +152,30 @@ describe("segwise.network reference", function()
       -- segments 1 and 2 both give v = 0.1 V = the knot; segment 3 gives 1.85/5.5
       local all = tunnel(0.6):solve_all()
       assert.are.equal(2, #all)
-      table.sort(all, function(p, q) return p.vd.D1 < q.vd.D1 end)
-      assert.is.near(0.1, all[1].vd.D1, 1e-14)
-      assert.is_true(all[1].on_breakpoint.D1)
-      assert.is.near(1.85 / 5.5, all[2].vd.D1, 1e-14)
-      assert.is_false(all[2].on_breakpoint.D1)
+      table.sort(all, function(p, q) return p.vd.DIODE < q.vd.DIODE end)
+      assert.is.near(0.1, all[1].vd.DIODE, 1e-14)
+      assert.is_true(all[1].on_breakpoint.DIODE)
+      assert.is.near(1.85 / 5.5, all[2].vd.DIODE, 1e-14)
+      assert.is_false(all[2].on_breakpoint.DIODE)
     end)
 
     it("two independent tunnel stages from one source give 3 x 3 = 9 points", function()
       local net = sw.network()
       net:vsource("E", "in", "0", 0.5)
-      net:resistor("R1", "in", "a", 50)
-      net:element("D1", "a", "0", ndevice())
-      net:resistor("R2", "in", "b", 50)
-      net:element("D2", "b", "0", ndevice())
+      net:resistor("RSER", "in", "a", 50)
+      net:element("DIODE", "a", "0", ndevice())
+      net:resistor("RSHUNT", "in", "b", 50)
+      net:element("DIODE2", "b", "0", ndevice())
       local all = net:solve_all()
       assert.are.equal(9, #all)
       local expect = { 0.5 / 6, 0.2, 1.75 / 5.5 }
       local stable = 0
       for _, op in ipairs(all) do
-        assert.is.near(expect[op.state.D1], op.vd.D1, 1e-14)
-        assert.is.near(expect[op.state.D2], op.vd.D2, 1e-14)
+        assert.is.near(expect[op.state.DIODE], op.vd.DIODE, 1e-14)
+        assert.is.near(expect[op.state.DIODE2], op.vd.DIODE2, 1e-14)
         H.check_kirchhoff(net, op)
         -- stable exactly when neither stage sits on its falling segment
-        local want = (op.state.D1 ~= 2 and op.state.D2 ~= 2) and "stable" or "unstable"
+        local want = (op.state.DIODE ~= 2 and op.state.DIODE2 ~= 2) and "stable" or "unstable"
         assert.are.equal(want, op.stability)
         if want == "stable" then stable = stable + 1 end
       end
@@ -193,11 +193,11 @@ describe("segwise.network reference", function()
       for trial = 1, 30 do
         local net = sw.network()
         net:vsource("E", "in", "0", 0.2 + 0.6 * math.random())
-        net:resistor("R1", "in", "a", 20 + 60 * math.random())
-        net:element("D1", "a", "0", ndevice())
-        net:resistor("R2", "a", "b", 5 + 50 * math.random())
-        net:element("D2", "b", "0", ndevice())
-        net:resistor("R3", "b", "0", 50 + 500 * math.random())
+        net:resistor("RSER", "in", "a", 20 + 60 * math.random())
+        net:element("DIODE", "a", "0", ndevice())
+        net:resistor("RSHUNT", "a", "b", 5 + 50 * math.random())
+        net:element("DIODE2", "b", "0", ndevice())
+        net:resistor("RLINK", "b", "0", 50 + 500 * math.random())
         local all = net:solve_all()
         counts[#all] = (counts[#all] or 0) + 1
         assert.are.equal(1, #all % 2, "trial " .. trial .. ": " .. #all .. " points")
@@ -220,15 +220,15 @@ describe("segwise.network reference", function()
       local net = sw.network()
       net:vsource("E", "in", "0", E)
       net:resistor("R", "in", "a", R)
-      net:element("D1", "a", "0", sw.pwl { x = xs, y = ys }, { exact = law })
+      net:element("DIODE", "a", "0", sw.pwl { x = xs, y = ys }, { exact = law })
       local pw = net:solve()
       local ex = net:solve { exact = true }
       local iref = H.bisect(function(i) return is * (math.exp((E - i * R) / (n * vt)) - 1) - i end, 0, E / R)
-      assert.is.near(iref, ex.i.D1, 1e-12 * iref)
-      assert.is.near(E - iref * R, ex.vd.D1, 1e-11)
+      assert.is.near(iref, ex.i.DIODE, 1e-12 * iref)
+      assert.is.near(E - iref * R, ex.vd.DIODE, 1e-11)
       -- the PWL point is close but not equal: the chord model errs by a few percent
       local d = pw:diff(ex)
-      assert.is_true(d.D1.rel_i < 0.05 and d.D1.rel_i > 0)
+      assert.is_true(d.DIODE.rel_i < 0.05 and d.DIODE.rel_i > 0)
       H.check_kirchhoff(net, pw)
     end)
 
@@ -243,11 +243,11 @@ describe("segwise.network reference", function()
       local net = sw.network()
       net:vsource("E", "in", "0", E)
       net:resistor("R", "in", "a", R)
-      net:element("D1", "a", "0", sw.pwl { x = xs, y = ys }, { x = "i", exact = law })
+      net:element("DIODE", "a", "0", sw.pwl { x = xs, y = ys }, { x = "i", exact = law })
       local ex = net:solve { exact = true }
       -- independent: bisection on E = R i + n Vt ln(1 + i/Is) + Rs i
       local iref = H.bisect(function(i) return R * i + n * vt * math.log(1 + i / is) + rs * i - E end, 0, E / R)
-      assert.is.near(iref, ex.i.D1, 1e-12 * iref)
+      assert.is.near(iref, ex.i.DIODE, 1e-12 * iref)
       H.check_kirchhoff(net, net:solve())
     end)
   end)

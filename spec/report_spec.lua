@@ -290,9 +290,9 @@ describe("segwise.report", function()
 
   describe("table", function()
     local rows = {
-      { name = "D1", i = 0.00431, v = 0.65, p = 0.0028, n = 3 },
-      { name = 'R1, "load"', i = 0.0123, v = 12.2, p = 0.15, n = 10 },
-      { name = "Z1", i = 0 / 0 },
+      { name = "DIODE", i = 0.00431, v = 0.65, p = 0.0028, n = 3 },
+      { name = 'RSER, "load"', i = 0.0123, v = 12.2, p = 0.15, n = 10 },
+      { name = "ZENER", i = 0 / 0 },
     }
     local cols = { "name", { name = "I", key = "i", unit = "A" }, { name = "V", key = "v", unit = "V", fmt = "%.3f" },
       { name = "P", key = "p", unit = "W" }, { name = "n", key = "n" },
@@ -330,12 +330,12 @@ describe("segwise.report", function()
       local t = parse_csv(s)
       assert.are.equal(4, #t)
       assert.are.same({ "name", "I (A)", "V (V)", "P (W)", "n", "2I (A)" }, t[1])
-      assert.are.equal('R1, "load"', t[3][1])
+      assert.are.equal('RSER, "load"', t[3][1])
       assert.are.equal(0.00431, tonumber(t[2][2]))
       assert.are.equal("3", t[2][5])
       assert.are.equal("NaN", t[4][2])
       assert.are.equal("", t[4][3])
-      assert.is_truthy(s:find('"R1, ""load"""', 1, true))
+      assert.is_truthy(s:find('"RSER, ""load"""', 1, true))
     end)
 
     it("csv: %.6g by default, full precision on request", function()
@@ -363,10 +363,10 @@ describe("segwise.report", function()
     end)
 
     it("reads nested values through dotted keys (sweep rows)", function()
-      local sweep = { { vb = 4.5, i = { D1 = 0.010 } }, { vb = 5.5, i = { D1 = 0.014 } } }
-      local t = parse_csv(report.table(sweep, { "vb", { name = "I(D1)", key = "i.D1", unit = "A" } },
+      local sweep = { { vb = 4.5, i = { DIODE = 0.010 } }, { vb = 5.5, i = { DIODE = 0.014 } } }
+      local t = parse_csv(report.table(sweep, { "vb", { name = "I(DIODE)", key = "i.DIODE", unit = "A" } },
         { format = "csv" }))
-      assert.are.same({ "vb", "I(D1) (A)" }, t[1])
+      assert.are.same({ "vb", "I(DIODE) (A)" }, t[1])
       assert.are.equal(0.014, tonumber(t[3][2]))
     end)
 
@@ -722,8 +722,8 @@ describe("segwise.report", function()
   end)
 
   describe("op_table", function()
-    local op = { v = { ["1"] = 5, ["2"] = 0.66, out = 3.3, ["10"] = 1 }, i = { D1 = 0.00431, R1 = 0.00431 },
-      p = { D1 = 0.0028, R1 = 0.0186 }, state = { D1 = 2 }, warnings = { "D1 above 80 % of rated power" } }
+    local op = { v = { ["1"] = 5, ["2"] = 0.66, out = 3.3, ["10"] = 1 }, i = { DIODE = 0.00431, RSER = 0.00431 },
+      p = { DIODE = 0.0028, RSER = 0.0186 }, state = { DIODE = 2 }, warnings = { "DIODE above 80 % of rated power" } }
 
     it("lists node voltages in order, elements, warnings", function()
       local s = report.op_table(op)
@@ -737,8 +737,8 @@ describe("segwise.report", function()
       assert.is_truthy(s:find("i (mA)", 1, true))
       assert.is_truthy(s:find("p (mW)", 1, true))
       assert.is_truthy(s:find("18.6", 1, true))
-      assert.is_truthy(s:find("warning: D1 above 80 % of rated power", 1, true))
-      local r1 = s:match("\n(R1[^\n]*)")
+      assert.is_truthy(s:find("warning: DIODE above 80 % of rated power", 1, true))
+      local r1 = s:match("\n(RSER[^\n]*)")
       assert.is_truthy(r1:find(DASH, 1, true), r1)      -- no state for a resistor
     end)
 
@@ -750,8 +750,8 @@ describe("segwise.report", function()
     end)
 
     it("leaves out the reference node, shows element voltage, knots and method", function()
-      local s = report.op_table { v = { ["0"] = 0, gnd = 0, a = 2 }, vd = { D1 = 0.7 }, i = { D1 = 0.002 },
-        on_breakpoint = { D1 = true }, state = { D1 = 1 }, method = "assumed", iterations = 2 }
+      local s = report.op_table { v = { ["0"] = 0, gnd = 0, a = 2 }, vd = { DIODE = 0.7 }, i = { DIODE = 0.002 },
+        on_breakpoint = { DIODE = true }, state = { DIODE = 1 }, method = "assumed", iterations = 2 }
       assert.is_falsy(s:find("\ngnd", 1, true))
       assert.is_falsy(s:find("\n0 ", 1, true))
       assert.is_truthy(s:find("v (mV)", 1, true))
@@ -769,14 +769,14 @@ describe("segwise.report", function()
       -- 10 V across 1 kOhm + 1 kOhm: 5 V at the middle, 5 mA, 25 mW each (by hand)
       local net = sw.network()
       net:vsource("VB", "a", "0", 10)
-      net:resistor("R1", "a", "b", 1000)
-      net:resistor("R2", "b", "0", 1000)
+      net:resistor("RSER", "a", "b", 1000)
+      net:resistor("RLOAD", "b", "0", 1000)
       local t = parse_csv(report.op_table(net:solve {}, { format = "csv" }))
       local byname = {}
       for k = 2, #t do byname[t[k][1] .. ":" .. t[k][2]] = t[k] end
       assert.is.near(5, tonumber(byname["node:b"][3]), 1e-9)
-      assert.is.near(0.005, math.abs(tonumber(byname["element:R1"][4])), 1e-12)
-      assert.is.near(0.025, math.abs(tonumber(byname["element:R2"][5])), 1e-12)
+      assert.is.near(0.005, math.abs(tonumber(byname["element:RSER"][4])), 1e-12)
+      assert.is.near(0.025, math.abs(tonumber(byname["element:RLOAD"][5])), 1e-12)
     end)
 
     it("rejects a non-table", function()
