@@ -278,6 +278,17 @@ static int vloop_error(const sw_net *net, size_t closing, sw_err *err)
   return sw_err_set(err, SW_EINVAL, "voltage sources form a loop: %s (their voltages fix the same loop twice)", list);
 }
 
+/* Node j is read by the control input of a voltage-controlled source. */
+static int is_control_node(const sw_net *net, size_t j)
+{
+  size_t k;
+  for (k = 0; k < net->nel; k++) {
+    const sw_net_el *e = &net->el[k];
+    if ((e->kind == SW_NET_VCVS || e->kind == SW_NET_VCCS) && (e->cp == j || e->cm == j)) return 1;
+  }
+  return 0;
+}
+
 static int check_topology(sw_net *net, sw_err *err)
 {
   size_t n = net->nnodes, k, j;
@@ -299,7 +310,8 @@ static int check_topology(sw_net *net, sw_err *err)
       else e->ctrl = c;
     }
   }
-  /* dangling nodes: one current-carrying terminal */
+  /* dangling nodes: one current-carrying terminal, unless a voltage source
+   * holds the node for a control input to read (no current flows there) */
   for (k = 0; k < net->nel; k++) { count[net->el[k].na]++; count[net->el[k].nb]++; }
   for (j = 1; j < n && !rc; j++) {
     if (count[j] == 0)
@@ -307,7 +319,9 @@ static int check_topology(sw_net *net, sw_err *err)
     else if (count[j] == 1) {
       for (k = 0; k < net->nel; k++)
         if (net->el[k].na == j || net->el[k].nb == j) break;
-      rc = sw_err_set(err, SW_EINVAL, "node '%s' is dangling: only %s connects to it", net->node[j], net->el[k].name);
+      if (!(is_vlike(net->el[k].kind) && is_control_node(net, j)))
+        rc = sw_err_set(err, SW_EINVAL, "node '%s' is dangling: only %s connects to it",
+                        net->node[j], net->el[k].name);
     }
   }
   for (k = 0; k < net->nel && !rc; k++)
