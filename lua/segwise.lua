@@ -13,6 +13,17 @@ local function call(fname, f, ...) return (util.call(3, fname, f, ...)) end
 ---------------------------------------------------------------- curves
 sw.curve = {}
 
+-- A device temperature: 150-1000 K covers every junction a law here models;
+-- outside it the caller almost surely gave degrees Celsius.
+local KELVIN_LO, KELVIN_HI = 150, 1000
+local function check_kelvin(fname, name, t)
+  if not (t >= KELVIN_LO and t <= KELVIN_HI) then
+    local msg = "segwise.%s: %s (%g) must be between %d and %d K; the law takes kelvin "
+      .. "(%g degrees C would be %.2f K)"
+    error(msg:format(fname, name, t, KELVIN_LO, KELVIN_HI, t, t + 273.15), 3)
+  end
+end
+
 -- Measured points y(x).  opts: sort (default false), duplicates = "error" | "mean".
 function sw.curve.samples(xs, ys, opts)
   opts = check_opts("curve.samples", opts, { sort = "boolean", duplicates = { "error", "mean" } })
@@ -33,9 +44,7 @@ function sw.curve.diode(p)
     temp = "number", lo = "number", hi = "number" })
   if p.is == nil then error("segwise.curve.diode: is (saturation current, A) is required", 2) end
   if p.vt and p.temp then error("segwise.curve.diode: give vt or temp, not both", 2) end
-  if p.temp ~= nil and not (p.temp > 0) then
-    error(("segwise.curve.diode: temp must be above 0 K (got %g)"):format(p.temp), 2)
-  end
+  if p.temp ~= nil then check_kelvin("curve.diode", "temp", p.temp) end
   local vt = p.vt or core.thermal_voltage(p.temp or 300)
   return (call("curve.diode", core.curve_diode, p.is, p.n or 1, vt, p.rs or 0, p.x == "i", p.lo, p.hi))
 end
@@ -61,9 +70,7 @@ end
 function sw.thermal_voltage(kelvin)
   if kelvin == nil then return core.thermal_voltage(300) end
   check_number("thermal_voltage", "kelvin", kelvin)
-  if not (kelvin > 0) then
-    error(("segwise.thermal_voltage: kelvin must be above 0 (got %g)"):format(kelvin), 2)
-  end
+  check_kelvin("thermal_voltage", "kelvin", kelvin)
   return core.thermal_voltage(kelvin)
 end
 
