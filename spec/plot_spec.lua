@@ -481,21 +481,102 @@ describe("segwise.plot", function()
   end)
 
   describe("term", function()
+    local term = require "segwise.plot.term"
+    local function lines_of(s)
+      local t = {}
+      for line in s:gmatch("([^\n]*)\n") do t[#t + 1] = line end
+      return t
+    end
+    local function index_of(lines, text)
+      for i, l in ipairs(lines) do if l:find(text, 1, true) then return i end end
+    end
+
     it("draws braille at the requested width and returns the text", function()
       local s = plot.term(diode_spec(), { width = 72, height = 12, print = false })
       local maxw = 0
       for line in s:gmatch("[^\n]+") do maxw = math.max(maxw, utf8.len(line)) end
       assert.is_true(maxw <= 72, "widest line " .. maxw)
-      assert.is_truthy(s:find("[\u{2801}-\u{28FF}]") or s:find("\u{28}", 1, true))
       local braille = 0
       for _, c in utf8.codes(s) do if c > 0x2800 and c <= 0x28FF then braille = braille + 1 end end
       assert.is_true(braille > 40, "braille cells: " .. braille)
       assert.is_truthy(s:find("200 mV", 1, true))
       assert.is_truthy(s:find("exact", 1, true))
       assert.is_truthy(s:find("load line", 1, true))
-      assert.is_truthy(s:find("\u{25C6}", 1, true))        -- the mark
+      assert.is_truthy(s:find(term.MARK, 1, true))          -- the mark
       assert.is_truthy(s:find("Q <1>", 1, true))
       assert.is_falsy(s:find("\27", 1, true))              -- no colour unless asked
+    end)
+
+    it("has a look of its own: title, key, y title, plot, x ticks, x title", function()
+      local l = lines_of(plot.term(diode_spec(), { width = 72, height = 12, print = false }))
+      assert.are.equal("Diode & PWL <model> \"test\"", l[1])   -- title first, flush left
+      local key, ytitle = index_of(l, "exact"), index_of(l, "y: current")
+      assert.is_true(key > 1 and key < ytitle, "the key sits between title and plot")
+      assert.is_truthy(l[key]:find("PWL, 4 segments", 1, true))
+      assert.are.equal(ytitle + 13, index_of(l, term.XTICK))      -- 12 rows, then the x ticks
+      assert.is_truthy(l[#l]:find("x: voltage$"), "x title last, at the right: " .. l[#l])
+      assert.are.equal(72, utf8.len(l[#l]))
+      -- no frame lines and no arrows beside the axis titles
+      local text = table.concat(l, "\n")
+      for _, ch in ipairs { "\u{2502}", "\u{2524}", "\u{2514}", "\u{252C}", "\u{2500}", "\u{250C}",
+                            "\u{2191}", "\u{2192}" } do
+        assert.is_falsy(text:find(ch, 1, true), "found " .. ch)
+      end
+    end)
+
+    it("puts a tick after each y label and under each x label, and grid dots where they meet", function()
+      local l = lines_of(plot.term({ series = { { x = { 0, 10 }, y = { 0, 0 } } } },
+        { width = 40, height = 8, print = false }))
+      local ticks = index_of(l, term.XTICK)
+      assert.are.equal(9, ticks)                            -- no title, key or y title
+      local labelled = 0
+      for r = 1, 8 do
+        local lab = l[r]:match("^%s*(%S+) " .. term.YTICK)
+        if lab then
+          labelled = labelled + 1
+          assert.is_truthy(tonumber(lab), l[r])
+        else
+          assert.is_falsy(l[r]:find(term.YTICK, 1, true), l[r])
+        end
+      end
+      assert.is_true(labelled >= 2, "labelled rows: " .. labelled)
+      -- each x tick column holds a label character on the line below
+      local nticks, cols = 0, {}
+      local col = 0
+      for _, c in utf8.codes(l[ticks]) do
+        col = col + 1
+        if utf8.char(c) == term.XTICK then nticks = nticks + 1; cols[#cols + 1] = col end
+      end
+      assert.is_true(nticks >= 2)
+      for _, c in ipairs(cols) do
+        local ch = utf8.char(utf8.codepoint(l[ticks + 1], utf8.offset(l[ticks + 1], c)))
+        assert.is_truthy(ch:find("%S"), "no label under the tick at column " .. c)
+      end
+      -- a labelled row away from the data shows a grid dot in every tick column
+      local top = l[1]
+      assert.is_truthy(top:find(term.YTICK, 1, true))
+      local dots = select(2, top:gsub(term.GRID, ""))
+      assert.are.equal(nticks, dots)
+    end)
+
+    it("draws points with the SVG markers' shapes, in the same order", function()
+      local s = plot.term({ series = {
+        { x = { 0, 1 }, y = { 0, 1 }, style = "points", label = "first" },
+        { x = { 0.5 }, y = { 0.5 }, style = "points", label = "second" } } },
+        { width = 40, height = 6, print = false })
+      assert.is_truthy(s:find("o first", 1, true))
+      assert.is_truthy(s:find("s second", 1, true))
+      local common = require "segwise.plot.common"
+      assert.are.equal("circle", common.MARKERS[1])
+      assert.are.equal("square", common.MARKERS[2])
+    end)
+
+    it("wraps a long key onto more lines within the width", function()
+      local series = {}
+      for k = 1, 6 do series[k] = { x = { 0, 1 }, y = { k, k + 1 }, label = "series number " .. k } end
+      local l = lines_of(plot.term({ series = series }, { width = 50, height = 6, print = false }))
+      assert.is_truthy(index_of(l, "series number 1") < index_of(l, "series number 6"))
+      for _, line in ipairs(l) do assert.is_true(utf8.len(line) <= 50, line) end
     end)
 
     it("takes the width from COLUMNS-style options and defaults sensibly", function()
@@ -510,7 +591,7 @@ describe("segwise.plot", function()
       local s = plot.term({ series = { { x = { 0, 1 }, y = { 0, 1 } } } }, { width = 40, height = 8, print = false })
       local rows = {}
       for line in s:gmatch("[^\n]+") do
-        if line:find("\u{2502}", 1, true) or line:find("\u{2524}", 1, true) then rows[#rows + 1] = line end
+        if #rows < 8 then rows[#rows + 1] = line end       -- the 8 plot rows come first
       end
       local function first_braille(line)
         local col = 0
