@@ -1,6 +1,7 @@
 /* Binding of the fitting engine: core.fit(curve, opts) -> model, with the
- * fit-info table as the model's user value 1.  Options arrive checked and
- * completed by lua/segwise/fit.lua; they are read again defensively here. */
+ * fit-info table as the model's user value 1.  Option names and types are
+ * checked by lua/segwise/fit.lua; their values, defaults and combinations
+ * by the core (csrc/core/fit/fit_opts.c); here they are only converted. */
 #include <math.h>
 #include <string.h>
 
@@ -34,19 +35,40 @@ static int opt_bool(lua_State *L, const char *key, int dflt)
   return v;
 }
 
+/* The index of the name at -1 in names, or a message listing them. */
+static int name_index(lua_State *L, const char *key, const char *const names[], const char *more)
+{
+  const char *s = lua_tostring(L, -1);
+  luaL_Buffer b;
+  int i;
+  for (i = 0; s && names[i]; i++)
+    if (strcmp(s, names[i]) == 0) return i;
+  luaL_buffinit(L, &b);
+  for (i = 0; names[i]; i++) {
+    luaL_addstring(&b, i == 0 ? "\"" : names[i + 1] || more ? ", \"" : " or \"");
+    luaL_addstring(&b, names[i]);
+    luaL_addchar(&b, '"');
+  }
+  if (more) luaL_addstring(&b, more);
+  luaL_pushresult(&b);
+  return luaL_error(L, "segwise.fit: %s must be one of %s (got %s)", key, lua_tostring(L, -1),
+                    s ? s : luaL_typename(L, -2));
+}
+
 static int opt_choice(lua_State *L, const char *key, const char *const names[], int dflt)
 {
   int v = dflt;
-  if (lua_getfield(L, 2, key) != LUA_TNIL) {
-    const char *s = lua_tostring(L, -1);
-    int i;
-    v = -1;
-    for (i = 0; s && names[i]; i++)
-      if (strcmp(s, names[i]) == 0) v = i;
-    if (v < 0) luaL_error(L, "segwise.fit: bad %s '%s'", key, s ? s : luaL_typename(L, -1));
-  }
+  if (lua_getfield(L, 2, key) != LUA_TNIL) v = name_index(L, key, names, NULL);
   lua_pop(L, 1);
   return v;
+}
+
+/* A count option through the core's own rule for it. */
+static void opt_count(lua_State *L, sw_fit_opts *o, const char *key)
+{
+  double v;
+  sw_err err;
+  if (opt_number(L, key, &v) && sw_fit_set_count(o, key, v, &err)) lsw_raise(L, FNAME, &err);
 }
 
 /* through = {{x, y}, ...} into two GC-owned arrays (pushed). */
@@ -61,11 +83,11 @@ static void read_through(lua_State *L, sw_fit_opts *o)
   for (i = 0; i < n; i++) {
     int k;
     if (lua_geti(L, -2, (lua_Integer)i + 1) != LUA_TTABLE)
-      luaL_error(L, "segwise.fit: through[%d] must be a pair {x, y}", (int)i + 1);
+      luaL_error(L, "segwise.fit: through[%d] must be a pair {x, y} of numbers", (int)i + 1);
     for (k = 0; k < 2; k++) {
       lua_geti(L, -1, k + 1);
       if (!lua_isnumber(L, -1))
-        luaL_error(L, "segwise.fit: through[%d][%d] must be a number", (int)i + 1, k + 1);
+        luaL_error(L, "segwise.fit: through[%d] must be a pair {x, y} of numbers", (int)i + 1);
       buf[k * n + i] = lua_tonumber(L, -1);
       lua_pop(L, 1);
     }
@@ -85,6 +107,92 @@ static void set_num(lua_State *L, const char *k, double v)
   }
 }
 
+/* The knots option: a list (table or array, pushed as a scratch buffer)
+ * or a scheme's name. */
+static void read_knots(lua_State *L, sw_fit_opts *o)
+{
+  lua_getfield(L, 2, "knots");
+  if (lua_istable(L, -1) || lsw_toarray(L, -1)) {
+    o->knot_list = lsw_checkdoubles(L, -1, "knots", &o->nknot_list, 0);
+    o->knots = SW_KNOTS_LIST;
+    lua_remove(L, -2); /* keep the buffer */
+    return;
+  }
+  if (!lua_isnil(L, -1))
+    o->knots = (sw_knots_scheme)(name_index(L, "knots", scheme_names, " or a list") + 1);
+  lua_pop(L, 1);
+}
+
+/* The options table at 2 into o: conversion only; every rule about the
+ * values is the core's (fit_opts.c).  Lists stay on the stack. */
+static void read_opts(lua_State *L, sw_fit_opts *o)
+{
+  luaL_checktype(L, 2, LUA_TTABLE);
+  sw_fit_opts_init(o);
+  opt_number(L, "lo", &o->lo);
+  opt_number(L, "hi", &o->hi);
+  opt_number(L, "tol", &o->tol);
+  opt_count(L, o, "segments");
+  opt_count(L, o, "max_segments");
+  opt_count(L, o, "grid");
+  o->criterion = (sw_fit_criterion)(opt_choice(L, "criterion", criterion_names, 0) + 1);
+  o->rel = opt_choice(L, "error", error_names, 0);
+  opt_number(L, "rel_floor", &o->rel_floor);
+  o->continuous = opt_bool(L, "continuous", 1);
+  o->has_at = opt_number(L, "at", &o->at);
+  o->has_slope_first = opt_number(L, "slope_first", &o->slope_first);
+  o->has_slope_last = opt_number(L, "slope_last", &o->slope_last);
+  o->monotone = opt_bool(L, "monotone", 0);
+  opt_number(L, "offset", &o->offset);
+  read_knots(L, o);
+  read_through(L, o);
+}
+
+/* Each segment's own error, as the list fit_info().per_segment. */
+static void push_per_segment(lua_State *L, const sw_pwl *m, const double *seg)
+{
+  size_t k;
+  lua_createtable(L, (int)m->nseg, 0);
+  for (k = 0; k < m->nseg; k++) {
+    lua_createtable(L, 0, 5);
+    set_num(L, "lo", m->x[k]);
+    set_num(L, "hi", m->x[k + 1]);
+    set_num(L, "max_abs", seg[k]);
+    set_num(L, "x", seg[m->nseg + k]);
+    set_num(L, "max_rel", seg[2 * m->nseg + k]);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+}
+
+/* The fit-info table of model m made by info from options u. */
+static void push_info(lua_State *L, const sw_pwl *m, const sw_fit_info *info, const double *seg)
+{
+  const sw_fit_opts *u = &info->used;
+  lua_createtable(L, 0, 16);
+  lua_pushstring(L, criterion_names[u->criterion - 1]);
+  lua_setfield(L, -2, "criterion");
+  lua_pushstring(L, error_names[u->rel]);
+  lua_setfield(L, -2, "error");
+  lua_pushstring(L, u->knots == SW_KNOTS_LIST ? "list" : scheme_names[u->knots - 1]);
+  lua_setfield(L, -2, "knots");
+  lua_pushinteger(L, (lua_Integer)m->nseg);
+  lua_setfield(L, -2, "segments");
+  lua_pushboolean(L, m->continuous);
+  lua_setfield(L, -2, "continuous");
+  set_num(L, "max_abs", info->max_abs);
+  set_num(L, "x_abs", info->x_abs);
+  set_num(L, "max_rel", info->max_rel);
+  set_num(L, "x_rel", info->x_rel);
+  set_num(L, "rms", info->rms);
+  set_num(L, "internal", info->internal);
+  lua_pushinteger(L, (lua_Integer)info->iterations);
+  lua_setfield(L, -2, "iterations");
+  if (u->tol > 0) set_num(L, "tol", u->tol);
+  if (u->rel_floor > 0) set_num(L, "rel_floor", u->rel_floor);
+  push_per_segment(L, m, seg);
+  lua_setfield(L, -2, "per_segment");
+}
+
 static int l_fit(lua_State *L)
 {
   sw_fit_opts o;
@@ -93,101 +201,24 @@ static int l_fit(lua_State *L)
   sw_curve copy;
   lsw_callctx ctx;
   lsw_model *m;
-  int midx, st, scheme = 0, has_tol;
-  double v;
-  size_t k;
+  double *seg;
+  int midx, st;
   lsw_checkcurve(L, 1);
-  luaL_checktype(L, 2, LUA_TTABLE);
-  sw_fit_opts_init(&o);
-  if (!opt_number(L, "lo", &o.lo) || !opt_number(L, "hi", &o.hi))
-    return luaL_error(L, "segwise.fit: lo and hi are required");
-  has_tol = opt_number(L, "tol", &o.tol);
-  if (has_tol && !(o.tol > 0)) return luaL_error(L, "segwise.fit: tol (%g) must be positive", o.tol);
-  if (opt_number(L, "segments", &v)) {
-    if (!(v >= 1) || v != floor(v)) return luaL_error(L, "segwise.fit: segments (%g) must be an integer >= 1", v);
-    if (v > 100000) return luaL_error(L, "segwise.fit: segments (%g) is too large (at most 100000)", v);
-    o.segments = (size_t)v;
-  }
-  if (has_tol) o.segments = 0;
-  o.criterion = (sw_fit_criterion)(opt_choice(L, "criterion", criterion_names, 0) + 1);
-  o.rel = opt_choice(L, "error", error_names, 0);
-  opt_number(L, "rel_floor", &o.rel_floor);
-  o.continuous = opt_bool(L, "continuous", 1);
-  o.has_at = opt_number(L, "at", &o.at);
-  o.has_slope_first = opt_number(L, "slope_first", &o.slope_first);
-  o.has_slope_last = opt_number(L, "slope_last", &o.slope_last);
-  o.monotone = opt_bool(L, "monotone", 0);
-  opt_number(L, "offset", &o.offset);
-  if (opt_number(L, "max_segments", &v)) {
-    if (!(v >= 1 && v <= 100000) || v != floor(v))
-      return luaL_error(L, "segwise.fit: max_segments (%g) must be an integer from 1 to 100000", v);
-    o.max_segments = (size_t)v;
-  }
-  if (opt_number(L, "grid", &v)) {
-    if (!(v >= 3 && v <= 1e7)) return luaL_error(L, "segwise.fit: grid (%g) must be between 3 and 1e7", v);
-    o.grid = (size_t)v;
-  }
-  lua_getfield(L, 2, "knots");
-  if (lua_istable(L, -1) || lsw_toarray(L, -1)) {
-    o.knot_list = lsw_checkdoubles(L, -1, "knots", &o.nknot_list, 0);
-    o.knots = SW_KNOTS_LIST;
-    scheme = -1;
-  } else {
-    lua_pop(L, 1);
-    scheme = opt_choice(L, "knots", scheme_names, 0);
-    o.knots = (sw_knots_scheme)(scheme + 1);
-  }
-  read_through(L, &o);
-
+  read_opts(L, &o);
   m = lsw_newmodel(L);
   midx = lua_gettop(L);
   lsw_curve_bind(L, 1, &copy, &ctx);
   st = sw_fit(&copy, &o, &m->m, &info, &err);
   lsw_curve_done(L, &ctx);
   if (st) return lsw_raise(L, FNAME, &err);
-
-  /* the fit-info table, with each segment's own error */
-  {
-    double *seg = lsw_scratch(L, 3 * m->m.nseg);
-    lsw_curve_bind(L, 1, &copy, &ctx);
-    st = sw_fit_segment_errors(&m->m, &copy, o.rel_floor, seg, seg + m->m.nseg,
-                               seg + 2 * m->m.nseg, &err);
-    lsw_curve_done(L, &ctx);
-    if (st) return lsw_raise(L, FNAME, &err);
-    lua_createtable(L, 0, 16);
-    lua_pushstring(L, criterion_names[o.criterion - 1]);
-    lua_setfield(L, -2, "criterion");
-    lua_pushstring(L, error_names[o.rel]);
-    lua_setfield(L, -2, "error");
-    lua_pushstring(L, scheme < 0 ? "list" : scheme_names[scheme]);
-    lua_setfield(L, -2, "knots");
-    lua_pushinteger(L, (lua_Integer)m->m.nseg);
-    lua_setfield(L, -2, "segments");
-    lua_pushboolean(L, m->m.continuous);
-    lua_setfield(L, -2, "continuous");
-    set_num(L, "max_abs", info.max_abs);
-    set_num(L, "x_abs", info.x_abs);
-    set_num(L, "max_rel", info.max_rel);
-    set_num(L, "x_rel", info.x_rel);
-    set_num(L, "rms", info.rms);
-    set_num(L, "internal", info.internal);
-    lua_pushinteger(L, (lua_Integer)info.iterations);
-    lua_setfield(L, -2, "iterations");
-    if (has_tol) set_num(L, "tol", o.tol);
-    if (o.rel_floor > 0) set_num(L, "rel_floor", o.rel_floor);
-    lua_createtable(L, (int)m->m.nseg, 0);
-    for (k = 0; k < m->m.nseg; k++) {
-      lua_createtable(L, 0, 5);
-      set_num(L, "lo", m->m.x[k]);
-      set_num(L, "hi", m->m.x[k + 1]);
-      set_num(L, "max_abs", seg[k]);
-      set_num(L, "x", seg[m->m.nseg + k]);
-      set_num(L, "max_rel", seg[2 * m->m.nseg + k]);
-      lua_rawseti(L, -2, (lua_Integer)k + 1);
-    }
-    lua_setfield(L, -2, "per_segment");
-    lua_setiuservalue(L, midx, 1);
-  }
+  seg = lsw_scratch(L, 3 * m->m.nseg);
+  lsw_curve_bind(L, 1, &copy, &ctx);
+  st = sw_fit_segment_errors(&m->m, &copy, info.used.rel_floor, seg, seg + m->m.nseg,
+                             seg + 2 * m->m.nseg, &err);
+  lsw_curve_done(L, &ctx);
+  if (st) return lsw_raise(L, FNAME, &err);
+  push_info(L, &m->m, &info, seg);
+  lua_setiuservalue(L, midx, 1);
   lua_pushvalue(L, midx);
   return 1;
 }

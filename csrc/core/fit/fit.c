@@ -3,6 +3,7 @@
  * (fit_minimax.c, fit_interp.c, fit_lsq.c, fit_knots.c) and none of them
  * calls back: what they share lives in the leaf fit_data.c. */
 #include "fit/fit.h"
+#include "fit/fit_opts.h"
 #include "fit/fit_check.h"
 #include "fit/fit_data.h"
 #include "fit/fit_grid.h"
@@ -21,15 +22,6 @@
 #define TOL_POINTS_PER_SEG 64
 #define POLISH_RTOL 1e-2 /* the polish only centres the lines: a coarse level will do */
 #define TOL_MAX_GRID 2000001
-
-void sw_fit_opts_init(sw_fit_opts *o)
-{
-  memset(o, 0, sizeof *o);
-  o->segments = 4;
-  o->knots = SW_KNOTS_UNIFORM;
-  o->criterion = SW_FIT_MINIMAX;
-  o->continuous = 1;
-}
 
 /* The sample set of curve c on [lo, hi] with tube scales and weights. */
 static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err *err)
@@ -114,66 +106,6 @@ fail:
 }
 
 /* ---- Validation ----------------------------------------------------------- */
-
-static int validate(const sw_curve *c, const sw_fit_opts *o, sw_err *err)
-{
-  size_t i;
-  if (!sw_isfinite(o->lo) || !sw_isfinite(o->hi))
-    return sw_err_set(err, SW_EINVAL, "the range must be finite (lo = %g, hi = %g); give lo and hi",
-                      o->lo, o->hi);
-  if (!(o->lo < o->hi))
-    return sw_err_set(err, SW_EINVAL, "lo (%g) must be below hi (%g)", o->lo, o->hi);
-  if (o->lo < c->lo || o->hi > c->hi)
-    return sw_err_set(err, SW_ERANGE, "range [%g, %g] is outside the curve's domain [%g, %g]",
-                      o->lo, o->hi, c->lo, c->hi);
-  if (o->tol > 0 && o->knots == SW_KNOTS_LIST)
-    return sw_err_set(err, SW_EINVAL, "tol and an explicit knot list exclude each other");
-  if (!(o->tol > 0) && o->segments < 1)
-    return sw_err_set(err, SW_EINVAL, "segments must be at least 1");
-  if (o->tol < 0 || !(o->tol == o->tol)) return sw_err_set(err, SW_EINVAL, "tol must be positive");
-  if (o->knots == SW_KNOTS_LIST) {
-    if (o->nknot_list < 2)
-      return sw_err_set(err, SW_EINVAL, "the knot list needs at least lo and hi");
-    for (i = 0; i < o->nknot_list; i++) {
-      if (!sw_isfinite(o->knot_list[i]) || o->knot_list[i] < o->lo || o->knot_list[i] > o->hi)
-        return sw_err_set(err, SW_EINVAL, "knots[%zu] = %g is outside the range [%g, %g]", i + 1,
-                          o->knot_list[i], o->lo, o->hi);
-      if (i > 0 && !(o->knot_list[i] > o->knot_list[i - 1]))
-        return sw_err_set(err, SW_EINVAL, "knots must be strictly increasing (knots[%zu] = %g "
-                          "after knots[%zu] = %g)", i + 1, o->knot_list[i], i, o->knot_list[i - 1]);
-    }
-    if (o->knot_list[0] != o->lo || o->knot_list[o->nknot_list - 1] != o->hi)
-      return sw_err_set(err, SW_EINVAL, "the knot list must start at lo and end at hi");
-  }
-  for (i = 0; i < o->nthrough; i++) {
-    if (!sw_isfinite(o->through_x[i]) || !sw_isfinite(o->through_y[i]))
-      return sw_err_set(err, SW_EINVAL, "through[%zu] must be finite", i + 1);
-    if (o->through_x[i] < o->lo || o->through_x[i] > o->hi)
-      return sw_err_set(err, SW_EINVAL, "through[%zu] (x = %g) is outside the range [%g, %g]",
-                        i + 1, o->through_x[i], o->lo, o->hi);
-    if (i > 0 && o->through_x[i] < o->through_x[i - 1])
-      return sw_err_set(err, SW_EINVAL, "through points must be sorted by x (through[%zu])", i + 1);
-  }
-  if (o->criterion == SW_FIT_TANGENT) {
-    if (!o->has_at) return sw_err_set(err, SW_EINVAL, "criterion 'tangent' needs at (the operating point)");
-    if (!(o->at >= o->lo && o->at <= o->hi))
-      return sw_err_set(err, SW_EINVAL, "at (%g) must lie in the range [%g, %g]", o->at, o->lo, o->hi);
-    if (o->knots == SW_KNOTS_OPTIMAL || o->knots == SW_KNOTS_CURVATURE ||
-        o->knots == SW_KNOTS_GEOMETRIC || o->knots == SW_KNOTS_LIST)
-      return sw_err_set(err, SW_EINVAL, "knots have no meaning for criterion 'tangent' (one "
-                        "segment at the operating point)");
-    if (o->tol > 0 || o->segments != 1)
-      return sw_err_set(err, SW_EINVAL, "criterion 'tangent' gives one segment (no segments > 1, no tol)");
-  }
-  if (o->criterion != SW_FIT_MINIMAX && o->criterion != SW_FIT_LSQ &&
-      (o->nthrough || o->has_slope_first || o->has_slope_last || o->monotone))
-    return sw_err_set(err, SW_EINVAL, "through, slope_first, slope_last and monotone apply to "
-                      "criterion 'minimax' or 'lsq' only");
-  if (o->monotone && !o->continuous)
-    return sw_err_set(err, SW_EINVAL, "monotone with continuous = false is not supported yet");
-  if (o->rel && o->rel_floor < 0) return sw_err_set(err, SW_EINVAL, "rel_floor must not be negative");
-  return SW_OK;
-}
 
 /* ---- Methods by criterion ------------------------------------------------ */
 
@@ -598,18 +530,22 @@ static size_t distinct_x(const fit_data *d)
   return m;
 }
 
-int sw_fit(const sw_curve *c, const sw_fit_opts *o, sw_pwl *out, sw_fit_info *info, sw_err *err)
+int sw_fit(const sw_curve *c, const sw_fit_opts *opts, sw_pwl *out, sw_fit_info *info,
+           sw_err *err)
 {
+  const sw_fit_opts *o;
   fit_job J;
+  fit_resolved R;
   sw_compare cmp;
   int st;
   memset(out, 0, sizeof *out);
   memset(info, 0, sizeof *info);
   memset(&J, 0, sizeof J);
-  if ((st = validate(c, o, err))) return st;
+  if ((st = fit_opts_resolve(c, opts, &R, err))) return st;
+  o = &R.o;
   J.c = c;
   J.o = o;
-  if ((st = prepare(c, o, &J.d, err))) return st;
+  if ((st = prepare(c, o, &J.d, err))) goto done;
   if (c->kind == SW_CURVE_SAMPLES && !(o->tol > 0) && o->knots != SW_KNOTS_LIST &&
       o->segments + 1 > distinct_x(&J.d)) {
     st = sw_err_set(err, SW_EINVAL, "segments (%zu) needs at least %zu samples in [%g, %g]; the "
@@ -635,9 +571,12 @@ int sw_fit(const sw_curve *c, const sw_fit_opts *o, sw_pwl *out, sw_fit_info *in
   info->rms = cmp.rms;
   info->iterations = J.iters;
   info->internal = J.internal;
+  info->used = *o;
+  info->used.knot_list = info->used.through_x = info->used.through_y = NULL;
 done:
   if (st) sw_pwl_free(out);
   fit_data_free(&J.d);
+  fit_opts_release(&R);
   return st;
 }
 
