@@ -195,7 +195,7 @@ function M.rows(rows, xkey, ykeys, labels)
     local v = row[key]
     if type(key) == "function" then v = key(row)
     elseif v == nil and type(key) == "string" and key:find(".", 1, true) then
-      v = row                                  -- "i.D1" reads row.i.D1, as in report.table
+      v = row                                  -- "i.DIODE" reads row.i.DIODE, as in report.table
       for part in key:gmatch("[^.]+") do v = type(v) == "table" and v[part] or nil end
     end
     return type(v) == "number" and v or 0 / 0
