@@ -524,7 +524,7 @@ describe("segwise.plot", function()
       end
     end)
 
-    it("puts a tick after each y label and under each x label, and grid dots where they meet", function()
+    it("ticks each y label and each x label, grid dots where they meet", function()
       local l = lines_of(plot.term({ series = { { x = { 0, 10 }, y = { 0, 0 } } } },
         { width = 40, height = 8, print = false }))
       local ticks = index_of(l, term.XTICK)
@@ -573,7 +573,9 @@ describe("segwise.plot", function()
 
     it("wraps a long key onto more lines within the width", function()
       local series = {}
-      for k = 1, 6 do series[k] = { x = { 0, 1 }, y = { k, k + 1 }, label = "series number " .. k } end
+      for k = 1, 6 do
+        series[k] = { x = { 0, 1 }, y = { k, k + 1 }, label = "series number " .. k }
+      end
       local l = lines_of(plot.term({ series = series }, { width = 50, height = 6, print = false }))
       assert.is_truthy(index_of(l, "series number 1") < index_of(l, "series number 6"))
       for _, line in ipairs(l) do assert.is_true(utf8.len(line) <= 50, line) end

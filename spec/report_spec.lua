@@ -125,8 +125,8 @@ describe("segwise.report", function()
       { 0, "%", nil, "0 %" },
     }
     for _, c in ipairs(plain) do
-      it(string.format("si(%.17g, %q, %s) == %q (no added prefix)", c[1], c[2], tostring(c[3]), c[4]),
-        function() assert.are.equal(c[4], si(c[1], c[2], c[3])) end)
+      local name = string.format("si(%.17g, %q, %s) == %q", c[1], c[2], tostring(c[3]), c[4])
+      it(name .. " (no added prefix)", function() assert.are.equal(c[4], si(c[1], c[2], c[3])) end)
     end
 
     it("still prefixes units of their own that start with a prefix letter", function()
@@ -254,7 +254,8 @@ describe("segwise.report", function()
       it(string.format("refuses %q and says to write M", t), function()
         local ok, err = pcall(parse_si, t)
         assert.is_false(ok)
-        assert.is_truthy(err:find("segwise.parse_si: cannot read " .. string.format("%q", t), 1, true), err)
+        local head = "segwise.parse_si: cannot read " .. string.format("%q", t)
+        assert.is_truthy(err:find(head, 1, true), err)
         assert.is_truthy(err:find("write M for mega", 1, true), err)
       end)
     end

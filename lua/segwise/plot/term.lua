@@ -177,7 +177,8 @@ local function tick_cols(cv, xa)
   for i, v in ipairs(xa.ticks) do
     local f = xa.map(v)
     if f and f >= -1e-9 and f <= 1 + 1e-9 then
-      list[#list + 1] = { c = min(cv.w, floor(f * (cv.pxw - 1) / 2 + 0.5) + 1), label = xa.labels[i] }
+      local c = min(cv.w, floor(f * (cv.pxw - 1) / 2 + 0.5) + 1)
+      list[#list + 1] = { c = c, label = xa.labels[i] }
     end
   end
   return list

@@ -94,9 +94,9 @@ local function first_factor(u)
   while i <= #u do
     local c = first_char(u:sub(i))
     if not c then break end
-    if not (c:find("^%a$") or c == MICRO or c == "\u{03BC}" or c == "\u{03A9}" or c == "\u{2126}") then
-      break
-    end
+    local letter = c:find("^%a$") or c == MICRO or c == "\u{03BC}"
+      or c == "\u{03A9}" or c == "\u{2126}"
+    if not letter then break end
     out[#out + 1] = c
     i = i + #c
   end
