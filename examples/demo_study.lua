@@ -44,7 +44,7 @@ say(sw.report.compare_fits(fits, diode, { x = "V", y = "A", range = { rel_floor 
 local chosen = fits[#fits].model
 say("The load current will span 0.1 mA .. 0.8 A, so the relative fit is chosen: it keeps")
 say(("small currents right where an absolute band of %s would not. Its %d segments:"):format(sw.si(TOL, "A"), chosen:nseg()))
-say(sw.report.fit_table(chosen, { x = "V", y = "A" }))
+say(sw.report.fit_table(chosen, { x = "V", y = "A", cell_units = "header" }))
 
 ---------------------------------------------------------------- 2. one point
 heading(("2. The circuit at %s: supply -> DIODE -> %s load"):format(sw.si(VNOM, "V"), sw.si(RL, "Ω")))

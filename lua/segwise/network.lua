@@ -43,7 +43,8 @@ return function(sw, core)
   local by_string = { __index = function(t, k) if type(k) == "number" then return rawget(t, tostring(k)) end end }
 
   function sw.network()
-    return setmetatable({ _c = core.net_new(), _values = {}, _devices = {}, _kinds = {} }, Network)
+    return setmetatable({ _c = core.net_new(), _values = {}, _devices = {}, _kinds = {}, _exact = {} },
+      Network)
   end
 
   local function add(self, fname, kind, name, nodes, ctrl, value, unit)
@@ -81,6 +82,7 @@ return function(sw, core)
     call("network:element", self._c.device, self._c, name, a, b, model, opts.x == "i", opts.pmax or 0, opts.exact)
     self._devices[#self._devices + 1] = name
     self._kinds[name] = "element"
+    self._exact[name] = opts.exact ~= nil
     return self
   end
 
@@ -111,7 +113,30 @@ return function(sw, core)
     return "?"
   end
 
+  -- What happened at attempt k: "converged" (every device inside its
+  -- segment), "moved" (devices left their segments: a.moves lists
+  -- {device, from, to}), "cycle" (moving every violator would repeat an
+  -- earlier assumption, so one device moved one segment), "singular" (no
+  -- unique solution) or "stopped" (devices outside and no further attempt:
+  -- the error says why).  The C trace only tells solved/singular/cycle.
+  local function attempt_event(self, attempts, k)
+    local a, nxt = attempts[k], attempts[k + 1]
+    a.moves = {}
+    if a.event == "singular" then return "singular" end
+    for _, d in ipairs(self._devices) do
+      if nxt and nxt.state[d] ~= a.state[d] then
+        a.moves[#a.moves + 1] = { device = d, from = a.state[d], to = nxt.state[d] }
+      end
+    end
+    local outside = false
+    for _, d in ipairs(self._devices) do if a.excess[d] ~= 0 then outside = true end end
+    if not outside then return "converged" end
+    if #a.moves == 0 then return "stopped" end
+    return a.event == "cycle" and "cycle" or "moved"
+  end
+
   local function trace_text(self, attempts)
+    for k = 1, #attempts do attempts[k].event = attempt_event(self, attempts, k) end
     local info = self:info()
     local xof = {}
     for _, e in ipairs(info.elements) do if e.kind == "element" then xof[e.name] = e.x end end
@@ -125,7 +150,6 @@ return function(sw, core)
       if a.event == "singular" then
         lines[#lines + 1] = "  the equations of this assumption are singular: no unique solution"
       else
-        local moved = {}
         for _, d in ipairs(self._devices) do
           local xn, ex = xof[d], a.excess[d]
           local unit = xn == "v" and "V" or "A"
@@ -134,17 +158,17 @@ return function(sw, core)
           elseif ex > 0 then verdict = ("outside: %s above the segment's end by %s %s"):format(xn, fmt(ex), unit)
           else verdict = ("outside: %s below the segment's start by %s %s"):format(xn, fmt(-ex), unit) end
           lines[#lines + 1] = ("  %s: v = %s V, i = %s A -> %s"):format(d, fmt(a.v[d]), fmt(a.i[d]), verdict)
-          local nxt = attempts[k + 1]
-          if nxt and nxt.state[d] ~= a.state[d] then moved[#moved + 1] = ("%s -> segment %d"):format(d, nxt.state[d]) end
         end
         if a.event == "cycle" then
           lines[#lines + 1] = "  moving every violator would repeat an earlier assumption (a cycle): from here on only the worst device moves, one segment at a time"
         end
+        local moved = {}
+        for _, mv in ipairs(a.moves) do
+          moved[#moved + 1] = ("%s -> segment %d"):format(mv.device, mv.to)
+        end
         if #moved > 0 then lines[#lines + 1] = "  re-assign: " .. table.concat(moved, ", ")
-        elseif k == #attempts and a.event == "solved" then
-          local allin = true
-          for _, d in ipairs(self._devices) do if a.excess[d] ~= 0 then allin = false end end
-          if allin then lines[#lines + 1] = "  every device lies inside its assumed segment: the state is consistent" end
+        elseif a.event == "converged" then
+          lines[#lines + 1] = "  every device lies inside its assumed segment: the state is consistent"
         end
       end
       a.text = table.concat(lines, "\n")
@@ -159,13 +183,35 @@ return function(sw, core)
   ---------------------------------------------------------------- solving
   -- Devices operating beyond their model's knots run on an extrapolated
   -- segment: the model was not fitted there, so say so.
-  local function range_warning(e, op)
+  -- A caution: its text in op.warnings and, at the same index, what a
+  -- printed report needs to group many alike (see report.op_table):
+  -- {kind, element, group = "<plural phrase>", worst = how bad (larger is
+  -- worse), detail = the case in a few words}.
+  local function caution(op, message, d)
+    op.warnings[#op.warnings + 1] = message
+    op.warning_info[#op.warnings] = d or { kind = "other" }
+  end
+
+  local function range_caution(e, op)
     local x = e.x == "i" and op.i[e.name] or op.vd[e.name]
-    if x == nil then return nil end
+    if x == nil then return end
     local slack = 1e-9 * math.max(math.abs(e.lo), math.abs(e.hi), 1e-300)
     if x < e.lo - slack or x > e.hi + slack then
-      return ("%s operates at %s = %s, outside its model's knots [%s, %s]: the model is extrapolated there, so refit over a range that covers this point"):format(
-        e.name, e.x, fmt(x), fmt(e.lo), fmt(e.hi))
+      local beyond = x < e.lo and e.lo - x or x - e.hi
+      caution(op, ("%s operates at %s = %s, outside its model's knots [%s, %s]: the model is extrapolated there, so refit over a range that covers this point"):format(
+        e.name, e.x, fmt(x), fmt(e.lo), fmt(e.hi)),
+        { kind = "range", element = e.name, group = "devices operate outside their model's knots",
+          worst = beyond / math.max(e.hi - e.lo, 1e-300),
+          detail = ("(%s = %s, knots [%s, %s])"):format(e.x, fmt(x), fmt(e.lo), fmt(e.hi)) })
+    end
+  end
+
+  local function pmax_caution(e, op)
+    local p = math.abs(op.p[e.name])
+    if e.pmax > 0 and p > e.pmax then
+      caution(op, ("%s dissipates %s W, above its pmax rating of %s W: as the README cautions, a device driven beyond its rating leaves the range its model describes and may be damaged, so this operating point cannot be trusted"):format(e.name, fmt(p), fmt(e.pmax)),
+        { kind = "pmax", element = e.name, group = "devices dissipate above their pmax rating",
+          worst = p / e.pmax, detail = ("(%s W, rated %s W)"):format(fmt(p), fmt(e.pmax)) })
     end
   end
 
@@ -174,19 +220,47 @@ return function(sw, core)
     setmetatable(op.v, by_string)
     op.devices = { table.unpack(self._devices) }
     op.method = info and info.method
-    op.warnings = {}
+    op.warnings, op.warning_info = {}, {}
     if info and info.nfound and info.nfound > 1 then
-      op.warnings[#op.warnings + 1] = ("%d operating points exist; this is one of them (net:solve_all() lists every one)"):format(info.nfound)
+      caution(op, ("%d operating points exist; this is one of them (net:solve_all() lists every one)"):format(info.nfound),
+        { kind = "several" })
     end
     for _, e in ipairs(elements or self:info().elements) do
       if e.kind == "element" then
-        if e.pmax > 0 and math.abs(op.p[e.name]) > e.pmax then
-          op.warnings[#op.warnings + 1] = ("%s dissipates %s W, above its pmax rating of %s W: as the README cautions, a device driven beyond its rating leaves the range its model describes and may be damaged, so this operating point cannot be trusted"):format(e.name, fmt(math.abs(op.p[e.name])), fmt(e.pmax))
-        end
-        op.warnings[#op.warnings + 1] = range_warning(e, op)
+        pmax_caution(e, op)
+        range_caution(e, op)
       end
     end
     return op
+  end
+
+  -- exact = true: the devices without an exact curve keep their PWL model
+  -- in the Newton solve; with none, the answer would be the PWL point
+  -- labelled exact, so that is refused.
+  local function without_exact(self)
+    local missing = {}
+    for _, d in ipairs(self._devices) do
+      if not self._exact[d] then missing[#missing + 1] = d end
+    end
+    if #missing > 0 and #missing == #self._devices then
+      error(("segwise.network:solve: exact = true needs an exact curve, and no device has one (%s): give net:element(name, a, b, model, {exact = curve})"):format(
+        table.concat(missing, ", ")), 3)
+    end
+    return missing
+  end
+
+  local function exact_caution(op, missing)
+    if #missing == 0 then return end
+    caution(op, ("exact = true: %s %s no exact curve, so %s PWL model stands in for the exact law; that part of the answer is the PWL one"):format(
+      table.concat(missing, ", "), #missing == 1 and "has" or "have", #missing == 1 and "its" or "their"),
+      { kind = "exact" })
+  end
+
+  -- A point the solver returns may be one a real circuit cannot rest at.
+  local function stability_caution(op)
+    if op.stability ~= "unstable" then return end
+    caution(op, ("this operating point is unstable (%s method): with a small capacitance across each device the circuit drifts away from it, so a real circuit does not rest here; net:solve_all() lists the stable points"):format(
+      op.method or "solve"), { kind = "unstable" })
   end
 
   -- lowrank = false: the assumed-state method refactorises its m x m system
@@ -202,6 +276,7 @@ return function(sw, core)
     if opts.trace and method ~= "assumed" then
       error("segwise.network:solve: trace = true records the assumed-state method; use method = \"assumed\"", 2)
     end
+    local missing = opts.exact and without_exact(self) or {}
     local ok, op, info = pcall(self._c.solve, self._c, method, opts.start, opts.trace, opts.max_states, opts.exact, opts.max_iter, opts.lowrank)
     if not ok then
       if type(op) == "table" then
@@ -211,7 +286,12 @@ return function(sw, core)
       error(op, 2)
     end
     op = finish_op(self, op, info)
-    op.pmatrix, op.pmatrix_test, op.nfound = info.pmatrix, info.pmatrix_test, info.nfound
+    exact_caution(op, missing)
+    stability_caution(op)
+    -- a count from the methods that count (load line, enumeration); the
+    -- assumed-state method and Lemke stop at the first point (C gives 0)
+    op.pmatrix, op.pmatrix_test = info.pmatrix, info.pmatrix_test
+    op.nfound = info.nfound and info.nfound > 0 and info.nfound or nil
     op.lowrank_updates = info.lowrank_updates
     if info.trace then op.trace = trace_text(self, info.trace) end
     return op
@@ -221,7 +301,10 @@ return function(sw, core)
     opts = check_opts("network:solve_all", opts, { max_states = "number" })
     local list = call("network:solve_all", self._c.solve_all, self._c, opts.max_states)
     local elements = self:info().elements
-    for k, op in ipairs(list) do list[k] = finish_op(self, op, { method = "enumerate" }, elements) end
+    for k, op in ipairs(list) do
+      list[k] = finish_op(self, op, { method = "enumerate" }, elements)
+      list[k].nfound = #list
+    end
     return list
   end
 
@@ -269,62 +352,171 @@ return function(sw, core)
     return rows
   end
 
-  -- min, max, mean and (sample) standard deviation of an array, by
-  -- Welford's update (no cancellation when the spread is small)
-  local function array_stats(a)
-    local n, mean, m2, lo, hi = 0, 0, 0, math.huge, -math.huge
-    for i = 1, #a do
-      local x = a[i]
-      n = n + 1
-      local d = x - mean
-      mean = mean + d / n
-      m2 = m2 + d * (x - mean)
-      if x < lo then lo = x end
-      if x > hi then hi = x end
-    end
-    return { min = lo, max = hi, mean = mean, sd = n > 1 and math.sqrt(m2 / (n - 1)) or 0 }
+  -- Streaming min, max, mean and (sample) standard deviation by Welford's
+  -- update: no cancellation when the spread is small against the mean,
+  -- where sum(x^2) - n*mean^2 loses every digit.  Both Monte Carlo forms
+  -- use it.
+  local function running()
+    return { n = 0, mean = 0, m2 = 0, min = math.huge, max = -math.huge }
   end
 
-  -- Every corner of the given ranges {name = {lo, hi}, ...}; min and max of
-  -- each element's branch voltage, current and power over the corners.
-  function Network:corners(ranges, opts)
-    if type(ranges) ~= "table" then error("segwise.network:corners: expected a table {name = {lo, hi}, ...}", 2) end
-    opts = check_opts("network:corners", opts, { method = { "auto", "assumed", "enumerate", "lcp" }, max_states = "number" })
-    local names = {}
+  local function push(st, x)
+    st.n = st.n + 1
+    local d = x - st.mean
+    st.mean = st.mean + d / st.n
+    st.m2 = st.m2 + d * (x - st.mean)
+    if x < st.min then st.min = x end
+    if x > st.max then st.max = x end
+  end
+
+  local function sd_of(st) return st.n > 1 and math.sqrt(st.m2 / (st.n - 1)) or 0 end
+
+  local function array_stats(a)
+    local st = running()
+    for i = 1, #a do push(st, a[i]) end
+    return { min = st.min, max = st.max, mean = st.mean, sd = sd_of(st) }
+  end
+
+  -- At most this many corners (the product of the level counts).
+  local MAX_CORNERS = 1 << 20
+
+  -- The names and level lists of net:corners, checked; the corner count is
+  -- the product of the list lengths, capped before anything is solved.
+  local function corner_levels(self, ranges)
+    local names, count, factors = {}, 1.0, {}
     for name, r in pairs(ranges) do
       if type(name) ~= "string" or self._values[name] == nil then
-        error(("segwise.network:corners: no source, gain or resistor named '%s'"):format(tostring(name)), 2)
+        error(("segwise.network:corners: no source, gain or resistor named '%s'"):format(tostring(name)), 3)
       end
-      if type(r) ~= "table" or type(r[1]) ~= "number" or type(r[2]) ~= "number" then
-        error(("segwise.network:corners: %s must be {lo, hi}"):format(name), 2)
+      if (type(r) ~= "table" and not util.is_array(r)) or #r == 0 then
+        error(("segwise.network:corners: %s must be a list of values ({lo, hi} or {v1, v2, ...})"):format(name), 3)
       end
+      for k = 1, #r do check_number("network:corners", ("%s[%d]"):format(name, k), r[k], 3) end
       names[#names + 1] = name
     end
     table.sort(names)
-    if #names > 20 then error("segwise.network:corners: more than 20 ranges (2^20 corners)", 2) end
+    for _, n in ipairs(names) do
+      count = count * #ranges[n]
+      factors[#factors + 1] = tostring(#ranges[n])
+    end
+    if count > MAX_CORNERS then
+      error(("segwise.network:corners: %s = %.0f corners, more than the cap of %d (2^20): use fewer levels or net:montecarlo"):format(
+        table.concat(factors, " x "), count, MAX_CORNERS), 3)
+    end
+    return names, math.tointeger(count)
+  end
+
+  -- The values of corner c (0-based), in mixed radix over the level lists:
+  -- the first name (sorted) steps fastest.
+  local function corner_values(ranges, names, c)
+    local values = {}
+    for _, n in ipairs(names) do
+      local levels = ranges[n]
+      values[n] = levels[c % #levels + 1]
+      c = c // #levels
+    end
+    return values
+  end
+
+  local function widen(box, op)
+    for name, v in pairs(op.vd) do
+      for key, val in pairs { v = v, i = op.i[name], p = op.p[name] } do
+        if box.min[key][name] == nil or val < box.min[key][name] then box.min[key][name] = val end
+        if box.max[key][name] == nil or val > box.max[key][name] then box.max[key][name] = val end
+      end
+    end
+  end
+
+  -- Every combination of the given levels {name = {v1, v2, ...}, ...}
+  -- ({lo, hi}: the two-level case); min and max of each element's branch
+  -- voltage, current and power over the corners.
+  function Network:corners(ranges, opts)
+    if type(ranges) ~= "table" then error("segwise.network:corners: expected a table {name = {lo, hi}, ...}", 2) end
+    opts = check_opts("network:corners", opts, { method = { "auto", "assumed", "enumerate", "lcp" }, max_states = "number" })
+    local names, count = corner_levels(self, ranges)
     local keep = {}
     for _, n in ipairs(names) do keep[n] = self._values[n] end
     local box = { corners = {}, min = { v = {}, i = {}, p = {} }, max = { v = {}, i = {}, p = {} } }
     local ok, err = pcall(function()
-      for mask = 0, (1 << #names) - 1 do
-        local values = {}
-        for b, n in ipairs(names) do
-          values[n] = ranges[n][((mask >> (b - 1)) & 1) + 1]
-          self:set(n, values[n])
-        end
+      for c = 0, count - 1 do
+        local values = corner_values(ranges, names, c)
+        for _, n in ipairs(names) do self:set(n, values[n]) end
         local op = self:solve { method = opts.method, max_states = opts.max_states }
         box.corners[#box.corners + 1] = { values = values, op = op }
-        for name, v in pairs(op.vd) do
-          for key, val in pairs { v = v, i = op.i[name], p = op.p[name] } do
-            if box.min[key][name] == nil or val < box.min[key][name] then box.min[key][name] = val end
-            if box.max[key][name] == nil or val > box.max[key][name] then box.max[key][name] = val end
-          end
-        end
+        widen(box, op)
       end
     end)
     for n, v in pairs(keep) do self:set(n, v) end
     if not ok then error(err, 2) end
     return box
+  end
+
+  -- A drawn value is nominal * (1 + t*u).  A resistance must stay
+  -- positive: uniform u in [-1, 1] reaches 1 - t, so t < 1; a normal u has
+  -- no bound, so the rule is that a draw 6 sd below nominal must still be
+  -- positive (s < 1/6: a non-positive draw has a probability below about
+  -- 1e-9 per run, Phi(-6) = 9.9e-10).
+  local MAX_SD_POSITIVE = 1 / 6
+
+  local function check_positive_spread(self, name, t, gauss)
+    if self._kinds[name] ~= "r" then return end
+    if not gauss and t >= 1 then
+      error(("segwise.network:montecarlo: %s tolerance %s can draw a resistance of 0 or below (nominal * (1 - %s)); a resistor's tolerance must be below 1"):format(
+        name, fmt(t), fmt(t)), 4)
+    end
+    if gauss and t >= MAX_SD_POSITIVE then
+      error(("segwise.network:montecarlo: %s sd %s: a normal draw %s sd below nominal is a resistance of 0 or below; a resistor's relative sd must be below 1/6 (then such a draw has a probability below about 1e-9 per run)"):format(
+        name, fmt(t), fmt(1 / t)), 4)
+    end
+  end
+
+  -- The names (sorted), tolerances and kinds (normal or not) of a vary table.
+  local function spreads(self, vary)
+    local names, tols, gauss = {}, {}, {}
+    for name in pairs(vary) do
+      if type(name) ~= "string" then error("segwise.network:montecarlo: keys must be element names", 3) end
+      names[#names + 1] = name
+    end
+    table.sort(names)
+    for k, name in ipairs(names) do
+      local t = vary[name]
+      if type(t) == "table" then
+        check_opts("network:montecarlo: " .. name, t, { tol = "number", sd = "number" }, "option", 4)
+      end
+      if type(t) == "number" then tols[k], gauss[k] = t, false
+      elseif type(t) == "table" and (t.tol ~= nil) ~= (t.sd ~= nil) then
+        tols[k], gauss[k] = t.tol or t.sd, t.sd ~= nil
+      else
+        error(("segwise.network:montecarlo: %s must be a tolerance, {tol = t} or {sd = s}"):format(name), 3)
+      end
+      check_number("network:montecarlo", name .. " tolerance", tols[k], 3)
+      if tols[k] < 0 then error(("segwise.network:montecarlo: %s tolerance must be >= 0"):format(name), 3) end
+      check_positive_spread(self, name, tols[k], gauss[k])
+    end
+    return names, tols, gauss
+  end
+
+  -- Table form: per element and quantity (v, i, p), the running statistics
+  -- of every run, then min, max, mean and sd as tables by element.
+  local function run_stats(list)
+    local acc = { v = {}, i = {}, p = {} }
+    for _, op in ipairs(list) do
+      for name, v in pairs(op.vd) do
+        for key, val in pairs { v = v, i = op.i[name], p = op.p[name] } do
+          acc[key][name] = acc[key][name] or running()
+          push(acc[key][name], val)
+        end
+      end
+    end
+    local out = { min = {}, max = {}, mean = {}, sd = {} }
+    for key, by_name in pairs(acc) do
+      for _, f in ipairs { "min", "max", "mean", "sd" } do out[f][key] = {} end
+      for name, st in pairs(by_name) do
+        out.min[key][name], out.max[key][name], out.mean[key][name] = st.min, st.max, st.mean
+        out.sd[key][name] = sd_of(st)
+      end
+    end
+    return out
   end
 
   -- Seeded Monte Carlo (GSL's MT19937 in C):
@@ -339,23 +531,7 @@ return function(sw, core)
   function Network:montecarlo(vary, opts)
     if type(vary) ~= "table" then error("segwise.network:montecarlo: expected a table {name = tol, ...}", 2) end
     opts = check_opts("network:montecarlo", opts, { runs = "number", seed = "number", max_states = "number", out = "table" })
-    local names, tols, gauss = {}, {}, {}
-    for name in pairs(vary) do
-      if type(name) ~= "string" then error("segwise.network:montecarlo: keys must be element names", 2) end
-      names[#names + 1] = name
-    end
-    table.sort(names)
-    for k, name in ipairs(names) do
-      local t = vary[name]
-      if type(t) == "number" then tols[k], gauss[k] = t, false
-      elseif type(t) == "table" and (t.tol ~= nil) ~= (t.sd ~= nil) then
-        tols[k], gauss[k] = t.tol or t.sd, t.sd ~= nil
-      else
-        error(("segwise.network:montecarlo: %s must be a tolerance, {tol = t} or {sd = s}"):format(name), 2)
-      end
-      check_number("network:montecarlo", name .. " tolerance", tols[k])
-      if tols[k] < 0 then error(("segwise.network:montecarlo: %s tolerance must be >= 0"):format(name), 2) end
-    end
+    local names, tols, gauss = spreads(self, vary)
     local runs = opts.runs or 1000
     if runs ~= math.floor(runs) then error("segwise.network:montecarlo: runs must be an integer", 2) end
     runs = math.tointeger(runs)
@@ -372,28 +548,10 @@ return function(sw, core)
       return res
     end
     local list = call("network:montecarlo", self._c.montecarlo, self._c, names, tols, gauss, runs, seed, opts.max_states)
-    local out = { runs = list, min = { v = {}, i = {}, p = {} }, max = { v = {}, i = {}, p = {} },
-                  mean = { v = {}, i = {}, p = {} }, sd = { v = {}, i = {}, p = {} } }
-    local s1, s2 = { v = {}, i = {}, p = {} }, { v = {}, i = {}, p = {} }
     local elements = self:info().elements
-    for k, op in ipairs(list) do
-      list[k] = finish_op(self, op, { method = "montecarlo" }, elements)
-      for name, v in pairs(op.vd) do
-        for key, val in pairs { v = v, i = op.i[name], p = op.p[name] } do
-          if out.min[key][name] == nil or val < out.min[key][name] then out.min[key][name] = val end
-          if out.max[key][name] == nil or val > out.max[key][name] then out.max[key][name] = val end
-          s1[key][name] = (s1[key][name] or 0) + val
-          s2[key][name] = (s2[key][name] or 0) + val * val
-        end
-      end
-    end
-    for key in pairs(s1) do
-      for name, a in pairs(s1[key]) do
-        local mean = a / #list
-        out.mean[key][name] = mean
-        out.sd[key][name] = #list > 1 and math.sqrt(math.max(0, (s2[key][name] - #list * mean * mean) / (#list - 1))) or 0
-      end
-    end
+    for k, op in ipairs(list) do list[k] = finish_op(self, op, { method = "montecarlo" }, elements) end
+    local out = run_stats(list)
+    out.runs = list
     return out
   end
 

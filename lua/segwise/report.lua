@@ -13,11 +13,20 @@
 
 local si = require "segwise.report.si"
 local tables = require "segwise.report.tables"
+local json = require "segwise.report.json"
+local check_opts = require("segwise.util").check_opts
 
 local M = {
   si = si.si, si_in = si.si_in, si_step = si.si_step, parse_si = si.parse_si, PREFIX = si.PREFIX,
-  table = tables.table, write = require "segwise.report.write", json = require "segwise.report.json",
+  table = tables.table, write = require "segwise.report.write",
 }
+
+-- json's own errors count their level from json itself: a tail call keeps
+-- this wrapper out of the way.
+function M.json(value, opts)
+  check_opts("report.json", opts, { out = "string|userdata|table", full = "boolean" })
+  return json(value, opts)
+end
 
 local huge, abs = math.huge, math.abs
 local fmt = string.format
@@ -124,14 +133,48 @@ end
 --   curve = the curve the model approximates, rel_floor = number > 0,
 --   rel_zero = 1e-6, cell_units = "auto"|"header"|"cells"}
 -- @treturn string
+local FIT_TABLE_OPTS = { x = "string", y = "string", units = "table", format = "string",
+  out = "any", digits = "number", curve = "any", rel_floor = "any", rel_zero = "any",
+  cell_units = "string", full = "boolean" }
+
+-- Which circuit form a segment is as it stands: an i(v) model (x in V, y
+-- in A) gives i = j + g*v, a Norton form; a v(i) model gives v = e + r*i,
+-- a Thevenin form.  nil when the units do not tell.
+local function orientation(xu, yu)
+  if xu == "V" and yu == "A" then return "i(v)" end
+  if xu == "A" and yu == "V" then return "v(i)" end
+end
+
+-- Thevenin e, r and Norton j, g of segment k, each labelled for what it is
+-- (for unknown units: y = e + r*x and x = j + g*y).
+local function circuit_forms(model, k, row, orient)
+  local okt, a, b = pcall(model.thevenin, model, k)
+  local okn, c, d = pcall(model.norton, model, k)
+  if orient == "i(v)" then okt, a, b, okn, c, d = okn, c, d, okt, a, b end
+  if okt then row.e, row.r = a, b end
+  if okn then row.j, row.g = c, d end
+end
+
+local function forms_note(orient)
+  if orient == nil then
+    return fmt("y = e + r*x, x = j + g*y; %s: flat segment, no second form\n", DASH)
+  end
+  return fmt("v = e + r*i (Thevenin), i = j + g*v (Norton); %s: flat segment, no %s form\n",
+    DASH, orient == "i(v)" and "Thevenin" or "Norton")
+end
+
 function M.fit_table(model, opts)
-  opts = opts or {}
+  opts = check_opts("report.fit_table", opts, FIT_TABLE_OPTS)
   local F = "segwise.report.fit_table"
   for _, m in ipairs { "nseg", "seg", "thevenin", "norton" } do method_or_fail(model, m, F, "model") end
   check_positive(opts.rel_floor, "rel_floor", F)
   check_positive(opts.rel_zero, "rel_zero", F, true)
   local xu, yu = units_of(opts)
+  local orient = orientation(xu, yu)
   local su, gu = ratio_unit(yu, xu), ratio_unit(xu, yu)
+  -- the units of e, r, j, g: an i(v) model's Thevenin form is v(i)
+  local eu, ru, ju, guu = yu, su, xu, gu
+  if orient == "i(v)" then eu, ru, ju, guu = xu, gu, yu, su end
   local info
   if type(model.fit_info) == "function" then info = model:fit_info() end
   if type(info) ~= "table" then info = nil end
@@ -154,10 +197,7 @@ function M.fit_table(model, opts)
     local s = model:seg(k)
     local row = { k = k, lo = s.lo or s[1], hi = s.hi or s[2],
       slope = s.slope or s[3], intercept = s.intercept or s[4] }
-    local ok, e, r = pcall(model.thevenin, model, k)
-    if ok then row.e, row.r = e, r end
-    local okn, j, g = pcall(model.norton, model, k)
-    if okn then row.j, row.g = j, g end
+    circuit_forms(model, k, row, orient)
     if curve ~= nil then
       local c = compare(row.lo, row.hi, fmt("segment %d", k))
       row.max_abs, row.x_err, row.max_rel = c.max_abs, c.x_abs, c.max_rel
@@ -181,15 +221,15 @@ function M.fit_table(model, opts)
     { name = "to", key = "hi", unit = xu },
     { name = "slope", key = "slope", unit = su },
     { name = "intercept", key = "intercept", unit = yu },
-    { name = "e", key = "e", unit = yu },
-    { name = "r", key = "r", unit = su },
-    { name = "j", key = "j", unit = xu },
-    { name = "g", key = "g", unit = gu },
+    { name = "e", key = "e", unit = eu, optional = true },
+    { name = "r", key = "r", unit = ru, optional = true },
+    { name = "j", key = "j", unit = ju, optional = true },
+    { name = "g", key = "g", unit = guu, optional = true },
   }
   if has_err then
-    cols[#cols + 1] = { name = "max err", key = "max_abs", unit = yu }
-    cols[#cols + 1] = { name = "at", key = "x_err", unit = xu }
-    cols[#cols + 1] = { name = "max rel", key = "rel_shown", unit = "%", scale = 100 }
+    cols[#cols + 1] = { name = "max err", key = "max_abs", unit = yu, optional = true }
+    cols[#cols + 1] = { name = "at", key = "x_err", unit = xu, optional = true }
+    cols[#cols + 1] = { name = "max rel", key = "rel_shown", unit = "%", scale = 100, optional = true }
   end
   local format = opts.format or "text"
   local topts = { format = format, digits = opts.digits, units = opts.cell_units,
@@ -197,7 +237,7 @@ function M.fit_table(model, opts)
   -- CSV keeps raw numbers; the percent column is then a fraction
   if format == "csv" then
     cols[#cols] = cols[#cols] and cols[#cols].key == "rel_shown"
-      and { name = "max rel (fraction)", key = "max_rel" } or cols[#cols]
+      and { name = "max rel (fraction)", key = "max_rel", optional = true } or cols[#cols]
   end
   local tbl = M.table(rows, cols, topts)
   if format == "csv" then return M.write(opts.out, tbl, F) end
@@ -239,7 +279,7 @@ function M.fit_table(model, opts)
   parts[1] = concat(head, "\n") .. "\n"
   parts[2] = tbl
   if format ~= "markdown" then
-    parts[3] = fmt("y = e + r*x (Thevenin), x = j + g*y (Norton); %s: flat segment, no Norton form\n", DASH)
+    parts[3] = forms_note(orient)
   end
   if dashed then
     local note = fmt("%smax rel %s: the curve is near 0 there (give rel_floor and curve)\n",
@@ -275,8 +315,56 @@ end
 --   state = {[name] = segment}, warnings = {string...}, vd = {[name] = volts}?}
 -- @tparam[opt] table opts {format =, out =, digits =}
 -- @treturn string
+local OP_TABLE_OPTS = { format = "string", out = "any", digits = "number", full = "boolean",
+  ground = "boolean", group = "number" }
+
+-- At least this many elements raising one kind of caution print as one line.
+M.GROUP_CAUTIONS = 4
+
+-- Names for a grouped line: all of a few, else the first three and a count.
+local function abbreviated(names)
+  if #names <= 4 then return concat(names, ", ") end
+  return fmt("%s, %s, %s and %d more", names[1], names[2], names[3], #names - 3)
+end
+
+-- The printed cautions: op.warnings one per line, except that a kind raised
+-- by at least `group` elements (op.warning_info tells kind, element and how
+-- bad) prints as one line: kind, count, names, the worst case.
+local function caution_lines(op, group)
+  local w, info = op.warnings, type(op.warning_info) == "table" and op.warning_info or {}
+  local by_kind, order = {}, {}
+  for i = 1, #w do
+    local d = info[i]
+    if type(d) == "table" and d.kind and d.element and d.group then
+      if not by_kind[d.kind] then by_kind[d.kind] = {}; order[#order + 1] = d.kind end
+      local list = by_kind[d.kind]
+      list[#list + 1] = d
+    end
+  end
+  local lines, done = {}, {}
+  for i = 1, #w do
+    local d = info[i]
+    local list = type(d) == "table" and d.kind and by_kind[d.kind]
+    if list and #list >= group then
+      if not done[d.kind] then
+        done[d.kind] = true
+        local names, worst = {}, list[1]
+        for k, e in ipairs(list) do
+          names[k] = e.element
+          if (e.worst or 0) > (worst.worst or 0) then worst = e end
+        end
+        lines[#lines + 1] = fmt("%d %s: %s; worst %s%s (op.warnings lists each)", #list, d.group,
+          abbreviated(names), worst.element, worst.detail and (" " .. worst.detail) or "")
+      end
+    else
+      lines[#lines + 1] = tostring(w[i])
+    end
+  end
+  return lines
+end
+
 function M.op_table(op, opts)
-  opts = opts or {}
+  opts = check_opts("report.op_table", opts, OP_TABLE_OPTS)
   local F = "segwise.report.op_table"
   if type(op) ~= "table" and type(op) ~= "userdata" then
     error(F .. ": op must be an operating point (got " .. type(op) .. ")", 2)
@@ -301,8 +389,9 @@ function M.op_table(op, opts)
         i = op.i and op.i[name], p = op.p and op.p[name],
         state = op.state and op.state[name] }
     end
-    return M.table(rows, { "kind", "name", { name = "v", unit = "V" }, { name = "i", unit = "A" },
-      { name = "p", unit = "W" }, "state" }, { format = "csv", full = opts.full, out = opts.out })
+    return M.table(rows, { "kind", "name", { name = "v", unit = "V" },
+      { name = "i", unit = "A", optional = true }, { name = "p", unit = "W", optional = true },
+      { name = "state", optional = true } }, { format = "csv", full = opts.full, out = opts.out })
   end
   if #vrows > 0 then
     topts.title = format == "text" and "node voltages" or "node voltages"
@@ -321,9 +410,9 @@ function M.op_table(op, opts)
   for _, r in ipairs(erows) do if r.knot then any_bp = true end end
   if #erows > 0 then
     local cols = { { name = "element", key = "name" } }
-    if has_vd then cols[#cols + 1] = { name = "v", key = "v", unit = "V" } end
-    cols[#cols + 1] = { name = "i", key = "i", unit = "A" }
-    cols[#cols + 1] = { name = "p", key = "p", unit = "W" }
+    if has_vd then cols[#cols + 1] = { name = "v", key = "v", unit = "V", optional = true } end
+    cols[#cols + 1] = { name = "i", key = "i", unit = "A", optional = true }
+    cols[#cols + 1] = { name = "p", key = "p", unit = "W", optional = true }
     if type(op.state) == "table" and next(op.state) then
       cols[#cols + 1] = { name = "state", key = "state", align = "right" }
     end
@@ -332,11 +421,10 @@ function M.op_table(op, opts)
     topts.title = "elements"
     parts[#parts + 1] = M.table(erows, cols, topts)
   end
-  local w = op.warnings
-  if type(w) == "table" and #w > 0 then
-    local l = {}
-    for i = 1, #w do
-      l[i] = (format == "markdown" and "- " or "") .. "warning: " .. tostring(w[i])
+  if type(op.warnings) == "table" and #op.warnings > 0 then
+    local l = caution_lines(op, opts.group or M.GROUP_CAUTIONS)
+    for i = 1, #l do
+      l[i] = (format == "markdown" and "- " or "") .. "warning: " .. l[i]
     end
     parts[#parts + 1] = concat(l, "\n") .. "\n"
   end
@@ -357,8 +445,12 @@ end
 --   rel_floor = number > 0 (same as range.rel_floor), rel_zero = 1e-6,
 --   format =, out =, digits =, sort = "max_abs"|"max_rel"|"rms"|nil}
 -- @treturn string
+local COMPARE_FITS_OPTS = { x = "string", y = "string", units = "table", range = "any",
+  rel_floor = "any", rel_zero = "any", format = "string", out = "any", digits = "number",
+  sort = { "max_abs", "max_rel", "rms" }, title = "string", full = "boolean" }
+
 function M.compare_fits(fits, curve, opts)
-  opts = opts or {}
+  opts = check_opts("report.compare_fits", opts, COMPARE_FITS_OPTS)
   local F = "segwise.report.compare_fits"
   if type(fits) ~= "table" or #fits == 0 then
     error(F .. ": fits must be a non-empty list of {name=, model=}", 2)
@@ -407,11 +499,12 @@ function M.compare_fits(fits, curve, opts)
   local cols = {
     { name = "fit", key = "name" },
     { name = "segments", key = "nseg" },
-    { name = "max abs", key = "max_abs", unit = yu },
-    { name = "at", key = "x_abs", unit = xu },
-    csv and { name = "max rel (fraction)", key = "max_rel" } or { name = "max rel", key = "max_rel", unit = "%", scale = 100 },
-    { name = "at", key = "x_rel", unit = xu },
-    { name = "rms", key = "rms", unit = yu },
+    { name = "max abs", key = "max_abs", unit = yu, optional = true },
+    { name = "at", key = "x_abs", unit = xu, optional = true },
+    csv and { name = "max rel (fraction)", key = "max_rel", optional = true }
+      or { name = "max rel", key = "max_rel", unit = "%", scale = 100, optional = true },
+    { name = "at", key = "x_rel", unit = xu, optional = true },
+    { name = "rms", key = "rms", unit = yu, optional = true },
   }
   return M.table(rows, cols, { format = format, digits = opts.digits, out = opts.out,
     title = opts.title, full = opts.full, empty = csv and "" or DASH })

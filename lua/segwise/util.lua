@@ -9,28 +9,46 @@ local function describe(v)
   return t
 end
 
+-- The one message for a key that is not among the known ones:
+-- "segwise.<fname>: unknown <noun> '<key>' (known: a, b, c)".
+function util.unknown(fname, noun, key, known, level)
+  local names = {}
+  for _, name in ipairs(known) do
+    names[#names + 1] = math.type(name) == "integer" and ("[%d]"):format(name) or tostring(name)
+  end
+  table.sort(names)
+  error(("segwise.%s: unknown %s '%s' (known: %s)"):format(fname, noun, tostring(key),
+    #names > 0 and table.concat(names, ", ") or "none"), level + 1)
+end
+
+local function spec_names(spec)
+  local names = {}
+  for name in pairs(spec) do names[#names + 1] = name end
+  return names
+end
+
 -- spec maps option name -> "number" | "string" | "boolean" | "table" |
--- "function" | "any" | {enum values...} | "number|table" (alternatives).
-function util.check_opts(fname, opts, spec)
+-- "function" | "userdata" | "any" | {enum values...} | "number|table"
+-- (alternatives).  noun names what the keys are ("option" unless told);
+-- level counts as error()'s does from the caller of check_opts' caller
+-- (default 3: the user of a public function that calls check_opts).
+function util.check_opts(fname, opts, spec, noun, level)
+  noun, level = noun or "option", level or 3
   if opts == nil then return {} end
   if type(opts) ~= "table" then
-    error(("segwise.%s: options must be a table (got %s)"):format(fname, describe(opts)), 3)
+    error(("segwise.%s: %ss must be a table (got %s)"):format(fname, noun, describe(opts)), level)
   end
   for k, v in pairs(opts) do
     local want = spec[k]
-    if want == nil then
-      local names = {}
-      for name in pairs(spec) do names[#names + 1] = name end
-      table.sort(names)
-      error(("segwise.%s: unknown option '%s' (known: %s)"):format(fname, tostring(k), table.concat(names, ", ")), 3)
-    end
+    if want == nil then util.unknown(fname, noun, k, spec_names(spec), level) end
     if type(want) == "table" then
       local ok = false
       for _, e in ipairs(want) do if v == e then ok = true end end
       if not ok then
         local quoted = {}
         for _, e in ipairs(want) do quoted[#quoted + 1] = ("%q"):format(tostring(e)) end
-        error(("segwise.%s: option %s must be one of %s (got %s)"):format(fname, k, table.concat(quoted, ", "), describe(v)), 3)
+        error(("segwise.%s: %s %s must be one of %s (got %s)"):format(fname, noun, k,
+          table.concat(quoted, ", "), describe(v)), level)
       end
     elseif want ~= "any" then
       local ok = false
@@ -38,10 +56,11 @@ function util.check_opts(fname, opts, spec)
         if type(v) == alt or (alt == "table" and util.is_array(v)) then ok = true end
       end
       if not ok then
-        error(("segwise.%s: option %s must be a %s (got %s)"):format(fname, k, want:gsub("|", " or "), describe(v)), 3)
+        error(("segwise.%s: %s %s must be a %s (got %s)"):format(fname, noun, k,
+          want:gsub("|", " or "), describe(v)), level)
       end
       if type(v) == "number" and v ~= v then
-        error(("segwise.%s: option %s is NaN"):format(fname, k), 3)
+        error(("segwise.%s: %s %s is NaN"):format(fname, noun, k), level)
       end
     end
   end

@@ -4,6 +4,7 @@
 
 local si = require "segwise.report.si"
 local write = require "segwise.report.write"
+local util = require "segwise.util"
 
 local M = {}
 
@@ -28,12 +29,19 @@ local function pad(s, w, align)
   return string.rep(" ", n) .. s
 end
 
+-- The fields of a column table (the checks of their values follow below);
+-- [1] and [2] are name and key given by position.
+local COLUMN_FIELDS = { name = "any", key = "string|number", unit = "any", fmt = "any", fn = "any",
+  align = "any", digits = "number", scale = "number", si = "boolean", optional = "boolean",
+  [1] = "string", [2] = "string|number" }
+
 -- Normalises one column spec.
 local function norm_column(c, i)
   if type(c) == "string" then return { name = c, key = c } end
   if type(c) ~= "table" then
     error(fmt("segwise.report.table: column %d must be a name or a table (got %s)", i, type(c)), 3)
   end
+  util.check_opts(fmt("report.table: column %d", i), c, COLUMN_FIELDS, "field", 4)
   local name = c.name or c.key or c[1]
   if type(name) ~= "string" then
     error(fmt("segwise.report.table: column %d needs a name", i), 3)
@@ -51,7 +59,8 @@ local function norm_column(c, i)
     error(fmt("segwise.report.table: column '%s': unit must be a string", name), 3)
   end
   return { name = name, key = c.key or c[2] or name, unit = c.unit, fmt = c.fmt,
-    fn = c.fn, align = c.align, digits = c.digits, scale = c.scale, si = c.si }
+    fn = c.fn, align = c.align, digits = c.digits, scale = c.scale, si = c.si,
+    optional = c.optional }
 end
 
 local function cell_value(col, row, r)
@@ -72,6 +81,44 @@ local function cell_value(col, row, r)
     end
   end
   return v
+end
+
+-- The keys a (dotted) column key could have meant: those of the rows, or
+-- of their nested tables along the path as far as it goes ("i.RA").
+local function reachable_keys(rows, key)
+  local seen, names = {}, {}
+  for _, row in ipairs(rows) do
+    local t, prefix = row, ""
+    if type(key) == "string" then
+      for part in key:gmatch("([^.]+)%.") do
+        if type(t[part]) ~= "table" then break end
+        t, prefix = t[part], prefix .. part .. "."
+      end
+    end
+    for k in pairs(t) do
+      local name = prefix .. tostring(k)
+      if not seen[name] then seen[name] = true; names[#names + 1] = name end
+    end
+  end
+  return names
+end
+
+-- A column that names a key no row holds is a typo, not an empty column
+-- (columns computed by fn, or marked optional, may be empty).
+local function check_column_keys(rows, cols)
+  if #rows == 0 then return end
+  for i, col in ipairs(cols) do
+    if not col.fn and not col.optional then
+      local filled = false
+      for r = 1, #rows do
+        if cell_value(col, rows[r], r) ~= nil then filled = true; break end
+      end
+      if not filled then
+        util.unknown(fmt("report.table: column %d ('%s')", i, col.name), "row key", col.key,
+          reachable_keys(rows, col.key), 3)
+      end
+    end
+  end
 end
 
 local function plain_number(v, digits)
@@ -294,17 +341,25 @@ end
 
 local RENDER = { text = render_text, csv = render_csv, markdown = render_markdown, md = render_markdown }
 
+-- The options of M.table (the values of format, units and span are
+-- checked there, with their own messages).
+local TABLE_OPTS = { format = "string", out = "string|userdata|table", digits = "number",
+  units = "string", span = "any", full = "boolean", numfmt = "string", title = "string",
+  eol = "string", empty = "string", sep = "string" }
+
 --- Formats rows as a table.
 -- @tparam {table,...} rows list of row tables
 -- @tparam {string|table,...} columns names, or {name=, key=, unit=, fmt=, fn=, align=, digits=, scale=,
---   si = false (no prefix: one plain unit)}; a dotted key such as "i.D1" reads row.i.D1
+--   si = false (no prefix: one plain unit), optional = true (may be empty in every row)};
+--   a dotted key such as "i.D1" reads row.i.D1; a key that no row holds is an error
 -- @tparam[opt] table opts {format = "text"|"csv"|"markdown", out = path or handle,
 --   digits = 3, units = "auto"|"header"|"cells" (see human_cells), span = 4 (decades, for "auto"),
 --   full = false (CSV %.17g), numfmt = "%.6g",
---   title = string, eol = "\n" (CSV), empty = "" (text for nil cells)}
+--   title = string, eol = "\n" (CSV), empty = "" (text for nil cells), sep = "  " (text)};
+--   unknown option names are errors
 -- @treturn string the table
 function M.table(rows, columns, opts)
-  opts = opts or {}
+  opts = util.check_opts("report.table", opts, TABLE_OPTS)
   if type(rows) ~= "table" then
     error("segwise.report.table: rows must be a list of tables (got " .. type(rows) .. ")", 2)
   end
@@ -316,7 +371,6 @@ function M.table(rows, columns, opts)
   if type(columns) ~= "table" or #columns == 0 then
     error("segwise.report.table: columns must be a non-empty list", 2)
   end
-  if type(opts) ~= "table" then error("segwise.report.table: opts must be a table", 2) end
   if opts.units ~= nil and opts.units ~= "auto" and opts.units ~= "header" and opts.units ~= "cells" then
     error("segwise.report.table: units must be 'auto', 'header' or 'cells' (got " .. tostring(opts.units) .. ")", 2)
   end
@@ -325,6 +379,7 @@ function M.table(rows, columns, opts)
   end
   local cols = {}
   for i, c in ipairs(columns) do cols[i] = norm_column(c, i) end
+  check_column_keys(rows, cols)
   local format = opts.format or "text"
   local render = RENDER[format]
   if not render then
