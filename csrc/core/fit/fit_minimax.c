@@ -611,6 +611,84 @@ static int bracket_guess(const fit_data *d, size_t nseg, int continuous, const f
   return SW_OK;
 }
 
+/* The level bracket [*elo, *ehi] of the continuous count by reachable
+ * sets, and *lower, a level no model of nseg segments gets below.
+ * Reachable sets cost more than a greedy pass: bracket their optimum
+ * between the discontinuous optimum (a continuous model is also a
+ * discontinuous one) and the continuous greedy's level, then bisect
+ * coarsely; the fixed-knot minimax that follows settles the level. */
+static int reach_levels(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
+                        tube_ws *w, double *elo, double *ehi, double *lower, int *found,
+                        size_t *iters, sw_err *err)
+{
+  double eg = *ehi, gl = 0, g;
+  size_t m, it;
+  int use_greedy = !(k && k->has_last), known, tries, st;
+  if ((st = level_guess(d, nseg, 0, NULL, w, 1e-5, &g, err))) return st;
+  if (g > 0 && (st = bracket_guess(d, nseg, 0, NULL, w, g, elo, ehi, &known, err))) return st;
+  /* known = 1: without constraints the start level meets any count */
+  if ((st = greedy_level(d, nseg, 0, NULL, w, 1e-4, 1, elo, ehi, found, &it, err))) return st;
+  *iters += it;
+  *ehi = *elo;
+  *lower = *elo; /* the discontinuous bound holds for every continuous model */
+  gl = *elo;     /* and for the continuous greedy */
+  if (use_greedy) {
+    int gknown = 0;
+    if ((st = level_guess(d, nseg, 1, k, w, 1e-8, &g, err))) return st;
+    if (g > 0 && (st = bracket_guess(d, nseg, 1, k, w, g, &gl, &eg, &gknown, err))) return st;
+    if ((st = greedy_level(d, nseg, 1, k, w, 1e-6, gknown, &gl, &eg, found, &it, err))) return st;
+    if (*found) *ehi = eg;
+  }
+  for (tries = 0; tries < 200; tries++) {
+    if ((st = count_at(d, *ehi, 1, continuous, k, nseg, w, NULL, NULL, NULL, &m, err))) return st;
+    if (m <= nseg) break;
+    *elo = *ehi;
+    *ehi *= 1.25;
+  }
+  /* the greedy level is usually within the bisection's precision of the
+   * optimum: one probe just below it settles that case, where bisection
+   * would spend a dozen reachable-set passes all finding no model */
+  if (tries < 200 && *ehi * (1 - 0.9e-4) > *elo) {
+    double probe = *ehi * (1 - 0.9e-4); /* an infeasible probe ends the bisection */
+    if ((st = count_at(d, probe, 1, continuous, k, nseg, w, NULL, NULL, NULL, &m, err))) return st;
+    if (m <= nseg) *ehi = probe; else *elo = probe;
+  }
+  for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && *ehi - *elo > 1e-4 * *ehi; it++) {
+    double mid = fit_mid_level(*elo, *ehi);
+    if ((st = count_at(d, mid, 1, continuous, k, nseg, w, NULL, NULL, NULL, &m, err))) return st;
+    if (m <= nseg) *ehi = mid; else *elo = mid;
+  }
+  *iters += it;
+  *found = tries < 200;
+  return SW_OK;
+}
+
+/* Knots of m segments (kx[0..m]) split to exactly nseg: the segment with
+ * most samples is split at its middle sample until the count is reached. */
+static int split_to_count(const fit_data *d, const double *kx, size_t m, size_t nseg,
+                          double *knots, sw_err *err)
+{
+  size_t j, *idx = sw_alloc(nseg + 1, sizeof *idx, err);
+  if (!idx) return SW_ENOMEM;
+  for (j = 0; j <= m; j++) idx[j] = j == 0 ? 0 : j == m ? d->n - 1 : fit_lower(d, kx[j]);
+  while (m < nseg) {
+    size_t best = m, span = 0, mid;
+    for (j = 0; j < m; j++)
+      if (idx[j + 1] - idx[j] > span) { span = idx[j + 1] - idx[j]; best = j; }
+    mid = idx[best] + span / 2;
+    if (span < 2 || !(d->x[mid] > d->x[idx[best]]) || !(d->x[mid] < d->x[idx[best + 1]])) {
+      free(idx);
+      return sw_err_set(err, SW_EINVAL, "too few samples for %zu segments", nseg);
+    }
+    memmove(idx + best + 2, idx + best + 1, (m - best) * sizeof *idx);
+    idx[best + 1] = mid;
+    m++;
+  }
+  for (j = 0; j <= nseg; j++) knots[j] = d->x[idx[j]];
+  free(idx);
+  return SW_OK;
+}
+
 /* Smallest e whose greedy count is at most nseg, by bisection; the knots of
  * that greedy pass (split to exactly nseg) in knots[0..nseg]. */
 static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
@@ -618,9 +696,9 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
 {
   tube_ws w;
   rec_list R;
-  double elo = 0, ehi = fit_start_level(d), *kx = NULL, *ky = NULL, lower;
-  size_t m, it, j, *idx = NULL;
-  int st, tries, reach, found;
+  double elo = 0, ehi = fit_start_level(d), *kx = NULL, *ky = NULL, lower = 0;
+  size_t m, it = 0;
+  int st, reach, found;
   memset(&R, 0, sizeof R);
   memset(&w, 0, sizeof w);
   kx = sw_alloc(d->n + 1, sizeof *kx, err);
@@ -628,49 +706,9 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   if (!kx || !ky) { st = SW_ENOMEM; goto done; }
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
   reach = continuous && (!convex_data(d) || (k && k->has_last));
-  lower = 0;
   if (reach) {
-    /* reachable sets cost more than a greedy pass: bracket their optimum
-     * between the discontinuous optimum (a continuous model is also a
-     * discontinuous one) and the continuous greedy's level, then bisect
-     * coarsely; the fixed-knot minimax that follows settles the level */
-    double eg = ehi, gl = 0, g;
-    int use_greedy = !(k && k->has_last), known;
-    if ((st = level_guess(d, nseg, 0, NULL, &w, 1e-5, &g, err))) goto done;
-    if (g > 0 && (st = bracket_guess(d, nseg, 0, NULL, &w, g, &elo, &ehi, &known, err))) goto done;
-    /* known = 1: without constraints the start level meets any count */
-    if ((st = greedy_level(d, nseg, 0, NULL, &w, 1e-4, 1, &elo, &ehi, &found, &it, err))) goto done;
-    *iters += it;
-    ehi = elo;
-    lower = elo; /* the discontinuous bound holds for every continuous model */
-    gl = elo;    /* and for the continuous greedy */
-    if (use_greedy) {
-      int gknown = 0;
-      if ((st = level_guess(d, nseg, 1, k, &w, 1e-8, &g, err))) goto done;
-      if (g > 0 && (st = bracket_guess(d, nseg, 1, k, &w, g, &gl, &eg, &gknown, err))) goto done;
-      if ((st = greedy_level(d, nseg, 1, k, &w, 1e-6, gknown, &gl, &eg, &found, &it, err))) goto done;
-      if (found) ehi = eg;
-    }
-    for (tries = 0; tries < 200; tries++) {
-      if ((st = count_at(d, ehi, 1, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
-      if (m <= nseg) break;
-      elo = ehi;
-      ehi *= 1.25;
-    }
-    /* the greedy level is usually within the bisection's precision of the
-     * optimum: one probe just below it settles that case, where bisection
-     * would spend a dozen reachable-set passes all finding no model */
-    if (tries < 200 && ehi * (1 - 0.9e-4) > elo) {
-      double probe = ehi * (1 - 0.9e-4); /* an infeasible probe ends the bisection */
-      if ((st = count_at(d, probe, 1, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
-      if (m <= nseg) ehi = probe; else elo = probe;
-    }
-    for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && ehi - elo > 1e-4 * ehi; it++) {
-      double mid = fit_mid_level(elo, ehi);
-      if ((st = count_at(d, mid, 1, continuous, k, nseg, &w, NULL, NULL, NULL, &m, err))) goto done;
-      if (m <= nseg) ehi = mid; else elo = mid;
-    }
-    found = tries < 200;
+    if ((st = reach_levels(d, nseg, continuous, k, &w, &elo, &ehi, &lower, &found, iters, err)))
+      goto done;
   } else {
     double g;
     int known = 0;
@@ -679,6 +717,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
       goto done;
     if ((st = greedy_level(d, nseg, continuous, k, &w, 1e-7, known, &elo, &ehi, &found, &it, err)))
       goto done;
+    *iters += it;
   }
   if (!found) {
     st = sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
@@ -687,29 +726,10 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   }
   *e_lo = reach ? lower : elo; /* the greedy counts are exact: elo is infeasible for any knots */
   *e_hi = ehi;
-  *iters += it;
   if ((st = count_at(d, ehi, reach, continuous, k, nseg, &w, &R, kx, ky, &m, err))) goto done;
   if (m > nseg) { st = sw_err_set(err, SW_ENUMERIC, "segment count search did not settle"); goto done; }
-  /* split the segment with most samples at its middle sample until nseg */
-  idx = sw_alloc(nseg + 1, sizeof *idx, err);
-  if (!idx) { st = SW_ENOMEM; goto done; }
-  for (j = 0; j <= m; j++) idx[j] = j == 0 ? 0 : j == m ? d->n - 1 : fit_lower(d, kx[j]);
-  while (m < nseg) {
-    size_t best = m, span = 0, mid;
-    for (j = 0; j < m; j++)
-      if (idx[j + 1] - idx[j] > span) { span = idx[j + 1] - idx[j]; best = j; }
-    mid = idx[best] + span / 2;
-    if (span < 2 || !(d->x[mid] > d->x[idx[best]]) || !(d->x[mid] < d->x[idx[best + 1]])) {
-      st = sw_err_set(err, SW_EINVAL, "too few samples for %zu segments", nseg);
-      goto done;
-    }
-    memmove(idx + best + 2, idx + best + 1, (m - best) * sizeof *idx);
-    idx[best + 1] = mid;
-    m++;
-  }
-  for (j = 0; j <= nseg; j++) knots[j] = d->x[idx[j]];
+  st = split_to_count(d, kx, m, nseg, knots, err);
 done:
-  free(idx);
   free(kx);
   free(ky);
   recs_free(&R);
