@@ -178,7 +178,8 @@ static size_t greedy(const fit_data *d, double e, int continuous, const fit_cons
     double smin, smax;
     int ok;
     fit_slope_bounds(k, m == 0, 0, &smin, &smax);
-    q = fit_tube_run(d, e, p, d->n - 1, alo, ahi, smin, smax, w, &ok, NULL, NULL, NULL, NULL);
+    q = fit_tube_run(d, e, (fit_span){p, d->n - 1, alo, ahi, smin, smax},
+                         w, NULL, &ok);
     if (!ok || !(d->x[q] > d->x[p])) return SIZE_MAX;
     m++;
     if (R && (*st = recs_push(R, p, q, &w->P, err))) return SIZE_MAX;
@@ -786,7 +787,8 @@ static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi
     size_t q;
     fit_slope_bounds(k, j == 0, j == nseg - 1, &smin, &smax);
     if (smin > smax) return SW_OK;
-    q = fit_tube_run(d, e, pi[j], qi[j], alo, ahi, smin, smax, w, &ok, NULL, NULL, NULL, NULL);
+    q = fit_tube_run(d, e, (fit_span){pi[j], qi[j], alo, ahi, smin, smax},
+                         w, NULL, &ok);
     if (!ok || q < qi[j]) return SW_OK;
     if (R && (st = recs_push(R, pi[j], qi[j], &w->P, err))) return st;
     value_range(&w->P, d->x[qi[j]] - d->x[pi[j]], &alo, &ahi);

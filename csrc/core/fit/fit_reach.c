@@ -212,12 +212,12 @@ static int reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, 
         fit_slope_bounds(k, first, 0, &smin, &smax);
         ec.j = j;
         ec.t = t;
-        q = fit_tube_run(d, e, r.ci[j], d->n - 1, P->lo, P->hi, smin, smax, r.w, &ok, r.rlo, r.rhi,
-                         expand_stop, &ec);
+        q = fit_tube_run(d, e, (fit_span){r.ci[j], d->n - 1, P->lo, P->hi, smin, smax},
+                         r.w, &(fit_track){r.rlo, r.rhi, expand_stop, &ec}, &ok);
         if (!ok) continue;
         if (last_bounds(k, first, &smin, &smax))
-          q = fit_tube_run(d, e, r.ci[j], d->n - 1, P->lo, P->hi, smin, smax, r.w, &ok, r.rlo, r.rhi,
-                           NULL, NULL);
+          q = fit_tube_run(d, e, (fit_span){r.ci[j], d->n - 1, P->lo, P->hi, smin, smax},
+                         r.w, &(fit_track){r.rlo, r.rhi, NULL, NULL}, &ok);
         if (ok && q == d->n - 1 && r.ci[fin] == d->n - 1) {
           add_piece(&r, fin, r.rlo[q], r.rhi[q], j, t, level);
           if (r.np[fin]) *count = level;
@@ -240,7 +240,8 @@ static int reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, 
       int ok, first = Q->from == SIZE_MAX;
       if (at == fin) last_bounds(k, first, &smin, &smax);
       else fit_slope_bounds(k, first, 0, &smin, &smax);
-      fit_tube_run(d, e, r.ci[i], r.ci[at], Q->lo, Q->hi, smin, smax, r.w, &ok, NULL, NULL, NULL, NULL);
+      fit_tube_run(d, e, (fit_span){r.ci[i], r.ci[at], Q->lo, Q->hi, smin, smax},
+                         r.w, NULL, &ok);
       a = fit_tube_start_for(r.w, d->x[r.ci[at]] - d->x[r.ci[i]], target);
       seg--;
       kx[seg] = d->x[r.ci[i]];

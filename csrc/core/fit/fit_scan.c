@@ -149,10 +149,14 @@ static int ring_cut(ring *R, size_t top, double al, double be, double ga, size_t
 /* Lines a + s*(x - x[p]) with a in [alo, ahi] and s in [smin, smax] through
  * the bands of samples p..qmax.  Returns the last index q all of p..q fit,
  * with ws->P their polygon; *ok = 0 when even the samples at x[p] do not. */
-size_t fit_tube_run(const fit_data *d, double e, size_t p, size_t qmax, double alo, double ahi,
-                    double smin, double smax, fit_tube *w, int *ok, double *rlo, double *rhi,
-                    fit_stop_fn stop, void *sctx)
+size_t fit_tube_run(const fit_data *d, double e, fit_span sp, fit_tube *w, const fit_track *tr,
+                    int *ok)
 {
+  size_t p = sp.p, qmax = sp.qmax;
+  double alo = sp.alo, ahi = sp.ahi, smin = sp.smin, smax = sp.smax;
+  double *rlo = tr ? tr->rlo : NULL, *rhi = tr ? tr->rhi : NULL;
+  fit_stop_fn stop = tr ? tr->stop : NULL;
+  void *sctx = tr ? tr->sctx : NULL;
   double X0 = d->x[p], l, u, D, pa[4], ps[4];
   size_t i = p, last, hu, hl, keep;
   ring *R = &w->R;

@@ -38,9 +38,20 @@ void fit_tube_free(fit_tube *w);
  * each sample up to q, and stop (when given) may end the run there.
  * *ok = 0 when even the samples at x[p] fail. */
 typedef int (*fit_stop_fn)(void *ctx, size_t i, double lo, double hi);
-size_t fit_tube_run(const fit_data *d, double e, size_t p, size_t qmax, double alo, double ahi,
-                    double smin, double smax, fit_tube *w, int *ok, double *rlo, double *rhi,
-                    fit_stop_fn stop, void *sctx);
+/* Where a run starts and what its lines may be. */
+typedef struct fit_span {
+  size_t p, qmax;           /* first sample, last sample the run may reach */
+  double alo, ahi;          /* the lines' values at x[p] */
+  double smin, smax;        /* their slopes */
+} fit_span;
+/* What a run reports as it goes (every field may be NULL). */
+typedef struct fit_track {
+  double *rlo, *rhi;        /* range of the lines' values at each sample */
+  fit_stop_fn stop;         /* may end the run at a sample */
+  void *sctx;
+} fit_track;
+size_t fit_tube_run(const fit_data *d, double e, fit_span sp, fit_tube *w, const fit_track *tr,
+                    int *ok);
 double fit_tube_start_for(const fit_tube *w, double h, double target);
 void fit_slope_bounds(const fit_cons *k, int first, int lastseg, double *smin, double *smax);
 
