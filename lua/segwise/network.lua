@@ -198,7 +198,8 @@ return function(sw, core)
     local slack = 1e-9 * math.max(math.abs(e.lo), math.abs(e.hi), 1e-300)
     if x < e.lo - slack or x > e.hi + slack then
       local beyond = x < e.lo and e.lo - x or x - e.hi
-      caution(op, ("%s operates at %s = %s, outside its model's knots [%s, %s]: the model is extrapolated there, so refit over a range that covers this point"):format(
+      caution(op, ("%s operates at %s = %s, outside its model's knots [%s, %s]: the model is "
+        .. "extrapolated there, so refit over a range that covers this point"):format(
         e.name, e.x, fmt(x), fmt(e.lo), fmt(e.hi)),
         { kind = "range", element = e.name, group = "devices operate outside their model's knots",
           worst = beyond / math.max(e.hi - e.lo, 1e-300),
@@ -209,7 +210,10 @@ return function(sw, core)
   local function pmax_caution(e, op)
     local p = math.abs(op.p[e.name])
     if e.pmax > 0 and p > e.pmax then
-      caution(op, ("%s dissipates %s W, above its pmax rating of %s W: as the README cautions, a device driven beyond its rating leaves the range its model describes and may be damaged, so this operating point cannot be trusted"):format(e.name, fmt(p), fmt(e.pmax)),
+      caution(op, ("%s dissipates %s W, above its pmax rating of %s W: as the README cautions, "
+        .. "a device driven beyond its rating leaves the range its model describes and may be "
+        .. "damaged, so this operating point cannot be trusted"):format(e.name, fmt(p),
+        fmt(e.pmax)),
         { kind = "pmax", element = e.name, group = "devices dissipate above their pmax rating",
           worst = p / e.pmax, detail = ("(%s W, rated %s W)"):format(fmt(p), fmt(e.pmax)) })
     end
@@ -222,8 +226,8 @@ return function(sw, core)
     op.method = info and info.method
     op.warnings, op.warning_info = {}, {}
     if info and info.nfound and info.nfound > 1 then
-      caution(op, ("%d operating points exist; this is one of them (net:solve_all() lists every one)"):format(info.nfound),
-        { kind = "several" })
+      caution(op, ("%d operating points exist; this is one of them "
+        .. "(net:solve_all() lists every one)"):format(info.nfound), { kind = "several" })
     end
     for _, e in ipairs(elements or self:info().elements) do
       if e.kind == "element" then
@@ -243,7 +247,8 @@ return function(sw, core)
       if not self._exact[d] then missing[#missing + 1] = d end
     end
     if #missing > 0 and #missing == #self._devices then
-      error(("segwise.network:solve: exact = true needs an exact curve, and no device has one (%s): give net:element(name, a, b, model, {exact = curve})"):format(
+      error(("segwise.network:solve: exact = true needs an exact curve, and no device has one "
+        .. "(%s): give net:element(name, a, b, model, {exact = curve})"):format(
         table.concat(missing, ", ")), 3)
     end
     return missing
@@ -251,8 +256,10 @@ return function(sw, core)
 
   local function exact_caution(op, missing)
     if #missing == 0 then return end
-    caution(op, ("exact = true: %s %s no exact curve, so %s PWL model stands in for the exact law; that part of the answer is the PWL one"):format(
-      table.concat(missing, ", "), #missing == 1 and "has" or "have", #missing == 1 and "its" or "their"),
+    local one = #missing == 1
+    caution(op, ("exact = true: %s %s no exact curve, so %s PWL model stands in for the exact "
+      .. "law; that part of the answer is the PWL one"):format(
+      table.concat(missing, ", "), one and "has" or "have", one and "its" or "their"),
       { kind = "exact" })
   end
 
@@ -386,10 +393,12 @@ return function(sw, core)
     local names, count, factors = {}, 1.0, {}
     for name, r in pairs(ranges) do
       if type(name) ~= "string" or self._values[name] == nil then
-        error(("segwise.network:corners: no source, gain or resistor named '%s'"):format(tostring(name)), 3)
+        error(("segwise.network:corners: no source, gain or resistor named '%s'")
+          :format(tostring(name)), 3)
       end
       if (type(r) ~= "table" and not util.is_array(r)) or #r == 0 then
-        error(("segwise.network:corners: %s must be a list of values ({lo, hi} or {v1, v2, ...})"):format(name), 3)
+        error(("segwise.network:corners: %s must be a list of values ({lo, hi} or {v1, v2, ...})")
+          :format(name), 3)
       end
       for k = 1, #r do check_number("network:corners", ("%s[%d]"):format(name, k), r[k], 3) end
       names[#names + 1] = name
@@ -400,8 +409,9 @@ return function(sw, core)
       factors[#factors + 1] = tostring(#ranges[n])
     end
     if count > MAX_CORNERS then
-      error(("segwise.network:corners: %s = %.0f corners, more than the cap of %d (2^20): use fewer levels or net:montecarlo"):format(
-        table.concat(factors, " x "), count, MAX_CORNERS), 3)
+      error(("segwise.network:corners: %s = %.0f corners, more than the cap of %d (2^20): "
+        .. "use fewer levels or net:montecarlo"):format(table.concat(factors, " x "), count,
+        MAX_CORNERS), 3)
     end
     return names, math.tointeger(count)
   end
@@ -431,8 +441,11 @@ return function(sw, core)
   -- ({lo, hi}: the two-level case); min and max of each element's branch
   -- voltage, current and power over the corners.
   function Network:corners(ranges, opts)
-    if type(ranges) ~= "table" then error("segwise.network:corners: expected a table {name = {lo, hi}, ...}", 2) end
-    opts = check_opts("network:corners", opts, { method = { "auto", "assumed", "enumerate", "lcp" }, max_states = "number" })
+    if type(ranges) ~= "table" then
+      error("segwise.network:corners: expected a table {name = {lo, hi}, ...}", 2)
+    end
+    opts = check_opts("network:corners", opts,
+      { method = { "auto", "assumed", "enumerate", "lcp" }, max_states = "number" })
     local names, count = corner_levels(self, ranges)
     local keep = {}
     for _, n in ipairs(names) do keep[n] = self._values[n] end
@@ -461,12 +474,15 @@ return function(sw, core)
   local function check_positive_spread(self, name, t, gauss)
     if self._kinds[name] ~= "r" then return end
     if not gauss and t >= 1 then
-      error(("segwise.network:montecarlo: %s tolerance %s can draw a resistance of 0 or below (nominal * (1 - %s)); a resistor's tolerance must be below 1"):format(
-        name, fmt(t), fmt(t)), 4)
+      error(("segwise.network:montecarlo: %s tolerance %s can draw a resistance of 0 or below "
+        .. "(nominal * (1 - %s)); a resistor's tolerance must be below 1"):format(name, fmt(t),
+        fmt(t)), 4)
     end
     if gauss and t >= MAX_SD_POSITIVE then
-      error(("segwise.network:montecarlo: %s sd %s: a normal draw %s sd below nominal is a resistance of 0 or below; a resistor's relative sd must be below 1/6 (then such a draw has a probability below about 1e-9 per run)"):format(
-        name, fmt(t), fmt(1 / t)), 4)
+      error(("segwise.network:montecarlo: %s sd %s: a normal draw %s sd below nominal is a "
+        .. "resistance of 0 or below; a resistor's relative sd must be below 1/6 (then such a "
+        .. "draw has a probability below about 1e-9 per run)"):format(name, fmt(t),
+        fmt(1 / t)), 4)
     end
   end
 
@@ -474,23 +490,29 @@ return function(sw, core)
   local function spreads(self, vary)
     local names, tols, gauss = {}, {}, {}
     for name in pairs(vary) do
-      if type(name) ~= "string" then error("segwise.network:montecarlo: keys must be element names", 3) end
+      if type(name) ~= "string" then
+        error("segwise.network:montecarlo: keys must be element names", 3)
+      end
       names[#names + 1] = name
     end
     table.sort(names)
     for k, name in ipairs(names) do
       local t = vary[name]
       if type(t) == "table" then
-        check_opts("network:montecarlo: " .. name, t, { tol = "number", sd = "number" }, "option", 4)
+        check_opts("network:montecarlo: " .. name, t, { tol = "number", sd = "number" },
+          "option", 4)
       end
       if type(t) == "number" then tols[k], gauss[k] = t, false
       elseif type(t) == "table" and (t.tol ~= nil) ~= (t.sd ~= nil) then
         tols[k], gauss[k] = t.tol or t.sd, t.sd ~= nil
       else
-        error(("segwise.network:montecarlo: %s must be a tolerance, {tol = t} or {sd = s}"):format(name), 3)
+        error(("segwise.network:montecarlo: %s must be a tolerance, {tol = t} or {sd = s}")
+          :format(name), 3)
       end
       check_number("network:montecarlo", name .. " tolerance", tols[k], 3)
-      if tols[k] < 0 then error(("segwise.network:montecarlo: %s tolerance must be >= 0"):format(name), 3) end
+      if tols[k] < 0 then
+        error(("segwise.network:montecarlo: %s tolerance must be >= 0"):format(name), 3)
+      end
       check_positive_spread(self, name, tols[k], gauss[k])
     end
     return names, tols, gauss
@@ -549,7 +571,9 @@ return function(sw, core)
     end
     local list = call("network:montecarlo", self._c.montecarlo, self._c, names, tols, gauss, runs, seed, opts.max_states)
     local elements = self:info().elements
-    for k, op in ipairs(list) do list[k] = finish_op(self, op, { method = "montecarlo" }, elements) end
+    for k, op in ipairs(list) do
+      list[k] = finish_op(self, op, { method = "montecarlo" }, elements)
+    end
     local out = run_stats(list)
     out.runs = list
     return out

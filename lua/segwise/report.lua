@@ -229,7 +229,8 @@ function M.fit_table(model, opts)
   if has_err then
     cols[#cols + 1] = { name = "max err", key = "max_abs", unit = yu, optional = true }
     cols[#cols + 1] = { name = "at", key = "x_err", unit = xu, optional = true }
-    cols[#cols + 1] = { name = "max rel", key = "rel_shown", unit = "%", scale = 100, optional = true }
+    cols[#cols + 1] = { name = "max rel", key = "rel_shown", unit = "%", scale = 100,
+      optional = true }
   end
   local format = opts.format or "text"
   local topts = { format = format, digits = opts.digits, units = opts.cell_units,
