@@ -62,6 +62,7 @@ void lsw_curve_bind(lua_State *L, int idx, sw_curve *copy, lsw_callctx *ctx)
 {
   lsw_curve *c = lsw_checkcurve(L, idx);
   idx = lua_absindex(L, idx);
+  luaL_checkstack(L, 3, "segwise: no room on the Lua stack for a curve"); /* before busy++ */
   *copy = c->c;
   memset(ctx, 0, sizeof *ctx);
   ctx->L = L;

@@ -268,6 +268,11 @@ static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_i
   ctx = lua_newuserdatauv(L, (m ? m : 1) * sizeof *ctx, 0);
   lua_getiuservalue(L, 1, 2);
   top = lua_gettop(L);
+  /* each device's curve takes three slots (itself, its function, an error
+   * slot): reserve them all before any curve is marked busy */
+  if (m > 300000 || !lua_checkstack(L, (int)(3 * m) + 8))
+    luaL_error(L, "segwise.network:solve: %d devices with exact curves are more than one "
+               "exact solve can hold", (int)m);
   for (k = 0; k < m; k++) {
     lua_rawgeti(L, top, (lua_Integer)k + 1);
     if (lua_isnil(L, -1)) { lua_pop(L, 1); ptr[k] = NULL; continue; }
