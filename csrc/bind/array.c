@@ -25,7 +25,8 @@ lsw_array *lsw_newarray(lua_State *L, size_t n)
   lsw_array *a = array_push_empty(L);
   sw_err err;
   if (n > ARRAY_MAX)
-    luaL_error(L, "segwise.array: %zu elements is more than the limit of %zu", n, ARRAY_MAX);
+    luaL_error(L, "segwise.array: %f elements is more than the limit of %f", (double)n,
+               (double)ARRAY_MAX); /* lua_pushfstring knows no %zu */
   a->data = sw_alloc(n, sizeof *a->data, &err);
   if (!a->data) {
     lsw_raise(L, "array", &err);

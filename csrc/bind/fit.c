@@ -51,8 +51,8 @@ static int name_index(lua_State *L, const char *key, const char *const names[], 
   }
   if (more) luaL_addstring(&b, more);
   luaL_pushresult(&b);
-  return luaL_error(L, "segwise.fit: %s must be one of %s (got %s)", key, lua_tostring(L, -1),
-                    s ? s : luaL_typename(L, -2));
+  return luaL_error(L, "segwise.fit: %s must be one of %s (got %s%s%s)", key, lua_tostring(L, -1),
+                    s ? "\"" : "", s ? s : luaL_typename(L, -2), s ? "\"" : "");
 }
 
 static int opt_choice(lua_State *L, const char *key, const char *const names[], int dflt)
@@ -79,6 +79,13 @@ static void read_through(lua_State *L, sw_fit_opts *o)
   if (lua_getfield(L, 2, "through") == LUA_TNIL) { lua_pop(L, 1); return; }
   if (!lua_istable(L, -1)) luaL_error(L, "segwise.fit: through must be a list of {x, y} pairs");
   n = (size_t)luaL_len(L, -1);
+  lua_pushnil(L); /* a keyed table ({x =, y =}) is not a list: refuse, not ignore */
+  while (lua_next(L, -2)) {
+    if (!lua_isinteger(L, -2) || lua_tointeger(L, -2) < 1 || (size_t)lua_tointeger(L, -2) > n)
+      luaL_error(L, "segwise.fit: through must be a list of {x, y} pairs (it has the key %s)",
+                 luaL_tolstring(L, -2, NULL));
+    lua_pop(L, 1);
+  }
   buf = lsw_scratch(L, 2 * n + 1);
   for (i = 0; i < n; i++) {
     int k;

@@ -295,10 +295,10 @@ return function(sw, core)
     op = finish_op(self, op, info)
     exact_caution(op, missing)
     stability_caution(op)
-    -- a count from the methods that count (load line, enumeration); the
-    -- assumed-state method and Lemke stop at the first point (C gives 0)
+    -- a count from the methods that count (load line, enumeration); 0 from
+    -- the assumed-state method and Lemke, which stop at the first point
     op.pmatrix, op.pmatrix_test = info.pmatrix, info.pmatrix_test
-    op.nfound = info.nfound and info.nfound > 0 and info.nfound or nil
+    op.nfound = info.nfound or 0
     op.lowrank_updates = info.lowrank_updates
     if info.trace then op.trace = trace_text(self, info.trace) end
     return op
