@@ -1,0 +1,40 @@
+-- Inputs that used to be ignored or garbled without a word now get a clear
+-- error naming the option.
+local sw = require "segwise"
+
+local function errmsg(f, ...)
+  local ok, msg = pcall(f, ...)
+  assert.is_false(ok, "expected an error")
+  return tostring(msg)
+end
+
+describe("segwise: nothing silently ignored", function()
+  local law = sw.curve.diode { is = 1e-14, n = 1, vt = 0.025852 }
+
+  it("through as a keyed table is refused, not ignored", function()
+    assert.matches("segwise.fit: through must be a list of {x, y} pairs %(it has the key x%)",
+      errmsg(sw.fit, law, { lo = 0.2, hi = 0.8, through = { x = 0.5, y = 0 } }))
+  end)
+
+  it("a list of pairs still works, in any order", function()
+    local m = sw.fit(law, { lo = 0.2, hi = 0.8, through = { { 0.7, law(0.7) }, { 0.5, law(0.5) } } })
+    assert.is.near(law(0.5), m(0.5), 1e-12)  -- the model passes through both points
+    assert.is.near(law(0.7), m(0.7), 1e-12)
+  end)
+
+  it("a bad knot scheme name is quoted in the message", function()
+    assert.matches('or a list %(got "bogus"%)', errmsg(sw.fit, law, { lo = 0.2, hi = 0.8, knots = "bogus" }))
+  end)
+
+  it("one owner for the defaults: minimax and lsq default to optimal knots", function()
+    assert.are.equal("optimal", sw.fit(law, { lo = 0.2, hi = 0.8 }):fit_info().knots)
+    assert.are.equal("optimal", sw.fit(law, { lo = 0.2, hi = 0.8, criterion = "lsq" }):fit_info().knots)
+    assert.are.equal("uniform", sw.fit(law, { lo = 0.2, hi = 0.8, criterion = "interp" }):fit_info().knots)
+  end)
+
+  it("a knot list without the range ends gets them", function()
+    local m = sw.fit(law, { lo = 0.2, hi = 0.8, knots = sw.array { 0.5 } })
+    local xs = m:knots()
+    assert.are.same({ 0.2, 0.5, 0.8 }, xs)
+  end)
+end)
