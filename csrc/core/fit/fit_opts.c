@@ -67,6 +67,9 @@ static int check_numbers(const sw_fit_opts *o, sw_err *err)
   if (o->has_slope_last && (st = check_finite("slope_last", o->slope_last, err))) return st;
   if (o->tol == o->tol && !(o->tol > 0))
     return sw_err_set(err, SW_EINVAL, "tol (%g) must be positive", o->tol);
+  if (o->rel && o->tol >= 1) /* a band as wide as the curve: a percentage given as a number */
+    return sw_err_set(err, SW_EINVAL, "tol (%g) is a relative error of %g %%: with error = "
+                      "\"rel\" tol is a fraction below 1 (1 %% is 0.01)", o->tol, 100 * o->tol);
   if (o->rel_floor == o->rel_floor && !(o->rel_floor > 0))
     return sw_err_set(err, SW_EINVAL, "rel_floor (%g) must be positive", o->rel_floor);
   return SW_OK;
