@@ -50,6 +50,7 @@ build = {
         "csrc/core/pwl/pwl_compare.c",
         "csrc/core/pwl/pwl_eval.c",
         "csrc/core/pwl/pwl_io.c",
+        "csrc/core/pwl/pwl_prov.c",
         "csrc/core/text/textnum.c",
         "csrc/core/text/textread.c",
       },

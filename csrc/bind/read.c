@@ -180,12 +180,152 @@ static int l_array_read(lua_State *L)
   return 1;
 }
 
-/* m:save(path [, {x_unit=, y_unit=}]) */
+/* ---- Provenance: fit_info's fields <-> the file's "# fit" lines -------- */
+
+static const char *const prov_texts[] = {"source", "criterion", "knots", "error", "checked",
+                                         "made", NULL};
+static const char *const prov_numbers[] = {"lo", "hi", "tol", "rel_floor", "max_abs", "x_abs",
+                                           "max_rel", "x_rel", "rms", NULL};
+
+static int by_name(const void *a, const void *b)
+{
+  return strcmp(*(const char *const *)a, *(const char *const *)b);
+}
+
+/* A curve parameter's value (at the top) as text; 0 for kinds not kept. */
+static int param_text(lua_State *L, char *buf, size_t cap)
+{
+  if (lua_type(L, -1) == LUA_TNUMBER) sw_pwl_prov_format(lua_tonumber(L, -1), buf, cap);
+  else if (lua_type(L, -1) == LUA_TBOOLEAN)
+    snprintf(buf, cap, "%s", lua_toboolean(L, -1) ? "true" : "false");
+  else if (lua_type(L, -1) == LUA_TSTRING) snprintf(buf, cap, "%s", lua_tostring(L, -1));
+  else return 0;
+  return 1;
+}
+
+/* fit_info.curve (the table at t): its kind and scalar parameters, sorted
+ * by name so that a file reads the same from one save to the next. */
+static int prov_curve(lua_State *L, int t, sw_pwl_prov *p, sw_err *err)
+{
+  const char *names[SW_PROV_NPARAM + 1];
+  char value[SW_PROV_WORD + 1];
+  size_t n = 0, k;
+  int st = SW_OK;
+  if (lua_getfield(L, t, "kind") == LUA_TSTRING)
+    st = sw_pwl_prov_set_text(p, "curve", lua_tostring(L, -1), err);
+  else
+    st = sw_err_set(err, SW_EINVAL, "curve.kind must be a string (got %s)", luaL_typename(L, -1));
+  lua_pop(L, 1);
+  lua_pushnil(L);
+  while (!st && lua_next(L, t)) {
+    lua_pop(L, 1);
+    if (lua_type(L, -1) != LUA_TSTRING || strcmp(lua_tostring(L, -1), "kind") == 0) continue;
+    if (n == SW_PROV_NPARAM)
+      st = sw_err_set(err, SW_EINVAL, "curve has more than %d parameters", SW_PROV_NPARAM);
+    else names[n++] = lua_tostring(L, -1); /* the key stays alive in the table */
+  }
+  if (st) return st;
+  qsort(names, n, sizeof names[0], by_name);
+  for (k = 0; k < n && !st; k++) {
+    lua_getfield(L, t, names[k]);
+    if (param_text(L, value, sizeof value)) st = sw_pwl_prov_add_param(p, names[k], value, err);
+    lua_pop(L, 1);
+  }
+  return st;
+}
+
+/* The fit_info table at t into p. */
+static int prov_from_info(lua_State *L, int t, sw_pwl_prov *p, sw_err *err)
+{
+  int i, st = SW_OK, type;
+  for (i = 0; prov_texts[i] && !st; i++) {
+    type = lua_getfield(L, t, prov_texts[i]);
+    if (type == LUA_TSTRING) st = sw_pwl_prov_set_text(p, prov_texts[i], lua_tostring(L, -1), err);
+    else if (type != LUA_TNIL)
+      st = sw_err_set(err, SW_EINVAL, "%s must be a string (got %s)", prov_texts[i],
+                      luaL_typename(L, -1));
+    lua_pop(L, 1);
+  }
+  for (i = 0; prov_numbers[i] && !st; i++) {
+    type = lua_getfield(L, t, prov_numbers[i]);
+    if (type == LUA_TNUMBER)
+      st = sw_pwl_prov_set_number(p, prov_numbers[i], lua_tonumber(L, -1), err);
+    else if (type != LUA_TNIL)
+      st = sw_err_set(err, SW_EINVAL, "%s must be a number (got %s)", prov_numbers[i],
+                      luaL_typename(L, -1));
+    lua_pop(L, 1);
+  }
+  if (!st) {
+    type = lua_getfield(L, t, "continuous");
+    if (type == LUA_TBOOLEAN) sw_pwl_prov_set_continuous(p, lua_toboolean(L, -1));
+    else if (type != LUA_TNIL)
+      st = sw_err_set(err, SW_EINVAL, "continuous must be true or false (got %s)",
+                      luaL_typename(L, -1));
+    lua_pop(L, 1);
+  }
+  if (!st) {
+    type = lua_getfield(L, t, "curve");
+    if (type == LUA_TTABLE) st = prov_curve(L, lua_gettop(L), p, err);
+    else if (type != LUA_TNIL)
+      st = sw_err_set(err, SW_EINVAL, "curve must be a table (got %s)", luaL_typename(L, -1));
+    lua_pop(L, 1);
+  }
+  if (!st) st = sw_pwl_prov_check(p, err);
+  if (st) sw_err_prefix(err, "fit_info ");
+  return st;
+}
+
+static void push_param(lua_State *L, const char *v)
+{
+  if (strcmp(v, "true") == 0 || strcmp(v, "false") == 0) lua_pushboolean(L, v[0] == 't');
+  else if (lua_stringtonumber(L, v) == 0) lua_pushstring(L, v);
+}
+
+/* The fit_info table of a loaded model: what the file states, loaded = true. */
+static void push_info(lua_State *L, const sw_pwl_prov *p, const sw_pwl *m)
+{
+  const char *const texts[] = {p->source, p->criterion, p->knots, p->error, p->checked, p->made};
+  const double numbers[] = {p->lo, p->hi, p->tol, p->rel_floor, p->max_abs, p->x_abs,
+                            p->max_rel, p->x_rel, p->rms};
+  size_t k;
+  lua_createtable(L, 0, 20);
+  lua_pushboolean(L, 1);
+  lua_setfield(L, -2, "loaded");
+  lua_pushinteger(L, (lua_Integer)m->nseg);
+  lua_setfield(L, -2, "segments");
+  for (k = 0; prov_texts[k]; k++)
+    if (texts[k][0]) {
+      lua_pushstring(L, texts[k]);
+      lua_setfield(L, -2, prov_texts[k]);
+    }
+  for (k = 0; prov_numbers[k]; k++)
+    if (numbers[k] == numbers[k]) {
+      lua_pushnumber(L, numbers[k]);
+      lua_setfield(L, -2, prov_numbers[k]);
+    }
+  if (p->continuous >= 0) {
+    lua_pushboolean(L, p->continuous);
+    lua_setfield(L, -2, "continuous");
+  }
+  if (p->curve[0]) {
+    lua_createtable(L, 0, (int)p->nparam + 1);
+    lua_pushstring(L, p->curve);
+    lua_setfield(L, -2, "kind");
+    for (k = 0; k < p->nparam; k++) {
+      push_param(L, p->param[k].value);
+      lua_setfield(L, -2, p->param[k].name);
+    }
+    lua_setfield(L, -2, "curve");
+  }
+}
+
+/* m:save(path [, {x_unit=, y_unit=}]): fit_info's provenance goes along. */
 static int l_save(lua_State *L)
 {
   lsw_model *m = lsw_checkmodel(L, 1);
   const char *path = luaL_checkstring(L, 2);
   const char *xu = NULL, *yu = NULL;
+  sw_pwl_prov prov;
   sw_err err;
   if (!lua_isnoneornil(L, 3)) {
     static const char *const allowed[] = {"x_unit", "y_unit", NULL};
@@ -200,18 +340,28 @@ static int l_save(lua_State *L)
       luaL_error(L, "segwise.model:save: y_unit must be a string (got %s)", luaL_typename(L, -1));
     yu = lua_tostring(L, -1);
   }
-  if (sw_pwl_save(&m->m, path, xu, yu, &err)) return lsw_raise(L, "model:save", &err);
+  sw_pwl_prov_init(&prov);
+  if (lua_getiuservalue(L, 1, 1) == LUA_TTABLE && prov_from_info(L, lua_gettop(L), &prov, &err))
+    return lsw_raise(L, "model:save", &err);
+  if (sw_pwl_save_prov(&m->m, path, xu, yu, &prov, &err)) return lsw_raise(L, "model:save", &err);
   return 0;
 }
 
-/* load_model(path) -> model, x unit, y unit */
+/* load_model(path) -> model, x unit, y unit; the file's provenance becomes
+ * the model's fit_info. */
 static int l_load_model(lua_State *L)
 {
   const char *path = luaL_checkstring(L, 1);
   char xu[SW_UNIT_MAX], yu[SW_UNIT_MAX];
   lsw_model *m = lsw_newmodel(L);
+  int midx = lua_gettop(L);
+  sw_pwl_prov prov;
   sw_err err;
-  if (sw_pwl_load_units(&m->m, path, xu, yu, &err)) return lsw_raise(L, "pwl.load", &err);
+  if (sw_pwl_load_prov(&m->m, path, xu, yu, &prov, &err)) return lsw_raise(L, "pwl.load", &err);
+  if (prov.present) {
+    push_info(L, &prov, &m->m);
+    lua_setiuservalue(L, midx, 1);
+  }
   lua_pushstring(L, xu);
   lua_pushstring(L, yu);
   return 3;

@@ -16,13 +16,26 @@ local SPEC = {
   monotone = "boolean", grid = "number", offset = "number", max_segments = "number",
 }
 
+-- How the model was made, beside its errors in m:fit_info(): m:save writes
+-- these into the model file and sw.pwl.load reads them back
+-- (csrc/core/pwl/pwl_prov.c).  The range is the model's span (the fit's
+-- lo and hi are its end knots).
+local function provenance(m, curve, core)
+  local info, xs = m:fit_info(), m:knots()
+  info.curve = curve:params()
+  info.source = core.curve_sources and core.curve_sources[curve]
+  info.lo, info.hi = xs[1], xs[#xs]
+  info.made = os.date("!%Y-%m-%dT%H:%M:%SZ")
+end
+
 return function(sw, core)
   function sw.fit(curve, opts)
     if getmetatable(curve) == nil or getmetatable(curve).__name ~= "segwise.Curve" then
       error(("segwise.fit: curve must be a segwise curve (got %s)"):format(util.describe(curve)), 2)
     end
     opts = util.check_opts("fit", opts, SPEC)
-    local m = util.call(2, "fit", core.fit, curve, opts)
+    local m = util.call("fit", core.fit, curve, opts)
+    provenance(m, curve, core)
     return m
   end
 end

@@ -6,11 +6,12 @@ local util = require "segwise.util"
 
 return function(sw, core)
   local check_opts, describe = util.check_opts, util.describe
+  -- the file each curve read here came from, for a fit's provenance
+  core.curve_sources = core.curve_sources or setmetatable({}, { __mode = "k" })
 
   -- The core function's error at the user's call site, under the public
-  -- name (see util.call_as); callers keep it out of tail position, so
-  -- their own frame stands between it and the user.
-  local function call(fname, f, ...) return util.call_as(2, fname, f, ...) end
+  -- name (see util.call_as).
+  local function call(fname, f, ...) return util.call_as(fname, f, ...) end
 
   local function check_path(fname, path)
     if type(path) ~= "string" then
@@ -80,6 +81,7 @@ return function(sw, core)
       local msg = where or (path .. ": " .. tostring(c):gsub("^.-segwise%.curve%.samples: ", ""))
       error("segwise.curve.read: " .. msg, 2)
     end
+    core.curve_sources[c] = path
     return c
   end
 

@@ -36,7 +36,8 @@ static int check_unit(const char *u, const char *which, sw_err *err)
   return SW_OK;
 }
 
-static void write_model(FILE *f, const sw_pwl *m, const char *xunit, const char *yunit)
+static void write_model(FILE *f, const sw_pwl *m, const char *xunit, const char *yunit,
+                        const sw_pwl_prov *prov)
 {
   size_t k, n = m->nseg;
   int ext = (m->extend >= SW_EXTEND_LINE && m->extend <= SW_EXTEND_ERROR) ? (int)m->extend : 0;
@@ -47,6 +48,7 @@ static void write_model(FILE *f, const sw_pwl *m, const char *xunit, const char 
   fprintf(f, "#   (beyond the end knots: line = the end segment continues, hold = the end\n"
              "#    value stays, error = evaluation is refused)\n");
   fprintf(f, "# segments: %zu\n", n);
+  sw_pwl_prov_write(f, prov);
   fprintf(f, "# one row per knot; y_left is the value reached from the left, y_right the\n"
              "# value leaving to the right (equal where the model is continuous);\n"
              "# slope_right is the slope leaving to the right, kept so that a model\n"
@@ -63,6 +65,12 @@ static void write_model(FILE *f, const sw_pwl *m, const char *xunit, const char 
 int sw_pwl_save(const sw_pwl *m, const char *path, const char *xunit,
                 const char *yunit, sw_err *err)
 {
+  return sw_pwl_save_prov(m, path, xunit, yunit, NULL, err);
+}
+
+int sw_pwl_save_prov(const sw_pwl *m, const char *path, const char *xunit,
+                     const char *yunit, const sw_pwl_prov *prov, sw_err *err)
+{
   char *tmp;
   char why[128];
   FILE *f;
@@ -72,6 +80,7 @@ int sw_pwl_save(const sw_pwl *m, const char *path, const char *xunit,
     return sw_err_set(err, SW_EINVAL, "the model is empty");
   if (!path || !*path) return sw_err_set(err, SW_EINVAL, "the path is empty");
   if (check_unit(xunit, "x", err) || check_unit(yunit, "y", err)) return err ? err->code : SW_EINVAL;
+  if (prov && sw_pwl_prov_check(prov, err)) return err ? err->code : SW_EINVAL;
   len = strlen(path);
   tmp = sw_alloc(len + 5, 1, err);
   if (!tmp) return SW_ENOMEM;
@@ -86,7 +95,7 @@ int sw_pwl_save(const sw_pwl *m, const char *path, const char *xunit,
     return SW_EIO;
   }
   errno = 0;
-  write_model(f, m, xunit, yunit);
+  write_model(f, m, xunit, yunit, prov);
   bad = ferror(f) || fflush(f) != 0 || fsync(fileno(f)) != 0;
   if (bad) os_error(errno, why, sizeof why);
   if (fclose(f) != 0 && !bad) { bad = 1; os_error(errno, why, sizeof why); }
@@ -110,14 +119,17 @@ int sw_pwl_save(const sw_pwl *m, const char *path, const char *xunit,
   return SW_OK;
 }
 
-/* Reads "# key: value" comment lines for the extension rule, the units and
- * the segment count.  *nseg_said stays 0 when the header does not say. */
+/* Reads "# key: value" comment lines for the extension rule, the units,
+ * the segment count and the provenance.  *nseg_said stays 0 when the header
+ * does not say. */
 static int read_header(const char *buf, const char *path, sw_extend *ext,
                        char *xunit, char *yunit, size_t *nseg_said, size_t *said_line,
-                       sw_err *err)
+                       sw_pwl_prov *prov, sw_err *err)
 {
   const char *p = buf;
   size_t line = 1;
+  sw_prov_seen seen;
+  memset(&seen, 0, sizeof seen);
   *ext = SW_EXTEND_LINE;
   while (*p) {
     const char *eol = strchr(p, '\n');
@@ -165,6 +177,9 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
               dst[i] = ((unsigned char)v[i] < 0x20 && v[i] != '\t') ? ' ' : v[i];
             dst[ul] = '\0';
           }
+        } else if (sw_pwl_prov_read_line(prov, &seen, q, klen, v, (size_t)(ve - v), path, line,
+                                          err)) {
+          return err ? err->code : SW_EINVAL;
         }
       }
     }
@@ -178,6 +193,12 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
 int sw_pwl_load_units(sw_pwl *m, const char *path, char *xunit, char *yunit,
                       sw_err *err)
 {
+  return sw_pwl_load_prov(m, path, xunit, yunit, NULL, err);
+}
+
+int sw_pwl_load_prov(sw_pwl *m, const char *path, char *xunit, char *yunit,
+                     sw_pwl_prov *prov, sw_err *err)
+{
   static const sw_text_opts opts = {',', 1};
   sw_text_col cols[4] = {{"x", 0, 1.0, 0}, {"y_left", 0, 1.0, 0}, {"y_right", 0, 1.0, 0},
                          {"slope_right", 0, 1.0, 1}};
@@ -186,8 +207,11 @@ int sw_pwl_load_units(sw_pwl *m, const char *path, char *xunit, char *yunit,
   char *buf = NULL;
   size_t len;
   sw_extend ext;
+  sw_pwl_prov scratch;
   int st;
 
+  if (!prov) prov = &scratch; /* bad provenance lines are errors all the same */
+  sw_pwl_prov_init(prov);
   memset(m, 0, sizeof *m);
   if (xunit) xunit[0] = '\0';
   if (yunit) yunit[0] = '\0';
@@ -195,7 +219,7 @@ int sw_pwl_load_units(sw_pwl *m, const char *path, char *xunit, char *yunit,
   st = sw_text_slurp(path, &buf, &len, err);
   if (st) return st;
   st = sw_text_parse(buf, len, path, &opts, cols, 4, col, &lines, &n, err);
-  if (!st) st = read_header(buf, path, &ext, xunit, yunit, &nseg_said, &said_line, err);
+  if (!st) st = read_header(buf, path, &ext, xunit, yunit, &nseg_said, &said_line, prov, err);
   free(buf);
   if (st) goto done;
 
