@@ -254,6 +254,18 @@ static void push_trace(lua_State *L, const sw_net *net, const sw_net_trace *t)
   }
 }
 
+/* op.unique (true, false, or absent when not determined), its reason,
+ * and op.stability into the op table on top. */
+static void push_verdict(lua_State *L, const sw_net_verdict *v, int stability, int exact)
+{
+  if (v->unique != SW_UNIQUE_UNKNOWN) { lua_pushboolean(L, v->unique == SW_UNIQUE_YES); lua_setfield(L, -2, "unique"); }
+  if (exact) lua_pushfstring(L, "%s (said of the PWL circuit, not of the exact curves)", v->reason);
+  else lua_pushstring(L, v->reason);
+  lua_setfield(L, -2, "unique_reason");
+  lua_pushstring(L, stability_name(stability));
+  lua_setfield(L, -2, "stability");
+}
+
 /* Binds the exact curves (user value 2) and runs Newton from op. */
 static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_iter)
 {
@@ -300,8 +312,9 @@ static int l_solve(lua_State *L)
   const sw_net *net = &n->net;
   size_t m, it = 0, nfound = 0, count = 0, updates = 0;
   const char *used = methods[method], *how = NULL;
-  int *start = NULL, *state;
+  int *start = NULL, *state, stab;
   lsw_hold *h;
+  sw_net_verdict verdict;
   sw_err err = { 0, "" };
   lua_settop(L, 8);
   prepare(L, n, "network:solve");
@@ -347,8 +360,13 @@ static int l_solve(lua_State *L)
   }
   if (sw_net_op_from_state(net, state, &h->ops[0], &err)) return lsw_raise(L, "network:solve", &err);
   h->ops[0].iterations = it;
+  if (sw_net_unique(net, nfound, nfound ? it : 0, method == 3 ? pm : -2, how, max_states, &verdict, &err))
+    return lsw_raise(L, "network:solve", &err);
+  stab = sw_net_op_stability(net, &h->ops[0], verdict.monotone, &err); /* of the PWL point */
+  if (stab < 0) return lsw_raise(L, "network:solve", &err);
   if (exact) run_exact(L, n, &h->ops[0], max_iter);
   push_op(L, net, &h->ops[0]);
+  push_verdict(L, &verdict, stab, exact);
   lua_createtable(L, 0, 5);
   lua_pushstring(L, exact ? "exact" : used); lua_setfield(L, -2, "method");
   lua_pushinteger(L, (lua_Integer)nfound); lua_setfield(L, -2, "nfound");
@@ -370,6 +388,7 @@ static int l_solve_all(lua_State *L)
   size_t count = 0, visited = 0, k, m;
   int *all = NULL;
   lsw_hold *h;
+  sw_net_verdict verdict;
   sw_err err = { 0, "" };
   prepare(L, n, "network:solve_all");
   m = net->ndev;
@@ -385,11 +404,12 @@ static int l_solve_all(lua_State *L)
     if (s < 0) return lsw_raise(L, "network:solve_all", &err);
     h->ops[k].stability = s;
   }
+  if (count && sw_net_unique(net, count, visited, -2, NULL, max_states, &verdict, &err))
+    return lsw_raise(L, "network:solve_all", &err);
   lua_createtable(L, (int)count, 0);
   for (k = 0; k < count; k++) {
     push_op(L, net, &h->ops[k]);
-    lua_pushstring(L, stability_name(h->ops[k].stability));
-    lua_setfield(L, -2, "stability");
+    push_verdict(L, &verdict, h->ops[k].stability, 0);
     lua_rawseti(L, -2, (lua_Integer)k + 1);
   }
   return 1;

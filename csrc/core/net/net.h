@@ -191,6 +191,32 @@ int sw_net_enumerate(const sw_net *net, double max_states, int **states,
 int sw_net_lcp(const sw_net *net, int *state, size_t *pivots, int *pmatrix,
                const char **how, sw_err *err);
 
+/* The LCP matrix's P-matrix test alone (no pivoting), for the uniqueness
+ * verdict: pmatrix 1 proven, 0 refuted, -1 not determined (models with
+ * jumps, a singular reference system, or too large to test cheaply). */
+int sw_net_lcp_ptest(const sw_net *net, int *pmatrix, const char **how, sw_err *err);
+
+/* What a solve knows about its answer (net_unique.c). */
+enum { SW_UNIQUE_UNKNOWN = -1, SW_UNIQUE_NO = 0, SW_UNIQUE_YES = 1 };
+typedef struct sw_net_verdict {
+  int unique;         /* SW_UNIQUE_* */
+  int monotone;       /* 1: the monotone network theorem applies */
+  char reason[400];   /* in words: the proof, the other points, or why neither */
+} sw_net_verdict;
+/* Whether the monotone network theorem applies to the circuit: 2 yes,
+ * every device strictly increasing; 1 yes, with flat segments pinned; 0 no
+ * (why says which element breaks it); -SW_ENOMEM on failure. */
+int sw_net_monotone(const sw_net *net, char *why, size_t cap, sw_err *err);
+/* The uniqueness verdict of a solve.  nfound: points an enumeration of
+ * every state found (0: none ran); pmatrix/how: the LCP test when the
+ * solve ran it (pmatrix -2 when not).  max_states caps the enumeration the
+ * verdict may run itself. */
+int sw_net_unique(const sw_net *net, size_t nfound, size_t nstates, int pmatrix,
+                  const char *how, double max_states, sw_net_verdict *out, sw_err *err);
+/* Stability of a solve's point: stable by the theorem when monotone, else
+ * the eigenvalue test when the circuit is small enough, else unknown. */
+int sw_net_op_stability(const sw_net *net, const sw_net_op *op, int monotone, sw_err *err);
+
 /* Newton on the exact curves (curves[j] may be NULL: the PWL model is used)
  * started at op; op is updated in place. */
 int sw_net_exact(const sw_net *net, const sw_curve *const *curves,

@@ -362,17 +362,71 @@ done:
   return rc;
 }
 
+/* Stable, unstable or marginal from the finite generalised eigenvalues
+ * alpha/beta: the sign of the rightmost real part, marginal when it is
+ * zero to 1e-9 of the largest magnitude. */
+static int classify(const gsl_vector_complex *alpha, const gsl_vector *beta)
+{
+  size_t j;
+  double worst = -INFINITY, big = 0;
+  for (j = 0; j < beta->size; j++) {
+    double bt = gsl_vector_get(beta, j);
+    gsl_complex al = gsl_vector_complex_get(alpha, j);
+    double re, mag;
+    if (fabs(bt) <= 1e-10 * (fabs(GSL_REAL(al)) + fabs(GSL_IMAG(al)))) continue; /* infinite */
+    re = GSL_REAL(al) / bt;
+    mag = hypot(GSL_REAL(al), GSL_IMAG(al)) / fabs(bt);
+    if (re > worst) worst = re;
+    if (mag > big) big = mag;
+  }
+  if (worst == -INFINITY) return SW_NET_STABLE; /* no dynamics at all */
+  if (fabs(worst) <= 1e-9 * big) return SW_NET_MARGINAL;
+  return worst < 0 ? SW_NET_STABLE : SW_NET_UNSTABLE;
+}
+
+/* The same test on the m x m port form: with the capacitance inside each
+ * device's branch (branch current i = i_dev + s v), the linear rows keep
+ * y = K z and each segment row a v + b i_dev = 0 becomes
+ * (a Xv + b Xi) z = s (b Xv) z.  For circuits too large for the full one. */
+static int stability_ports(const sw_net *net, const int *state, int *label, sw_err *err)
+{
+  size_t m = net->ndev, j, c;
+  gsl_matrix *A = gsl_matrix_alloc(m, m), *B = gsl_matrix_alloc(m, m);
+  gsl_vector_complex *alpha = gsl_vector_complex_alloc(m);
+  gsl_vector *beta = gsl_vector_alloc(m);
+  gsl_eigen_gen_workspace *w = gsl_eigen_gen_alloc(m);
+  int rc = SW_OK;
+  if (!A || !B || !alpha || !beta || !w) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in the stability test"); goto done; }
+  for (j = 0; j < m; j++) {
+    const sw_net_seg *g = &net->dev[j].seg[state[j]];
+    for (c = 0; c < m; c++) {
+      gsl_matrix_set(A, j, c, g->a * net->Xv[j * m + c] + g->b * net->Xi[j * m + c]);
+      gsl_matrix_set(B, j, c, g->b * net->Xv[j * m + c]);
+    }
+  }
+  if (gsl_eigen_gen(A, B, alpha, beta, w)) { rc = sw_err_set(err, SW_ENUMERIC, "the eigenvalue computation for the stability test failed"); goto done; }
+  *label = classify(alpha, beta);
+done:
+  gsl_matrix_free(A); gsl_matrix_free(B); gsl_vector_complex_free(alpha); gsl_vector_free(beta);
+  gsl_eigen_gen_free(w);
+  return rc;
+}
+
+/* Sizes of the stability tests (about 0.1 s each): the full MNA pencil up
+ * to this many unknowns, the port form up to this many devices. */
+#define STAB_FULL_MAX 300
+#define STAB_PORTS_MAX 250
+
 /* Sign of the rightmost finite generalised eigenvalue of (G + s*C) y = 0,
  * C a unit capacitance across each device. */
-static int stability_of(const sw_net *net, const int *state, int *label, sw_err *err)
+static int stability_full(const sw_net *net, const int *state, int *label, sw_err *err)
 {
-  size_t N = net->nunk, k, j;
+  size_t N = net->nunk, k;
   gsl_matrix *G = gsl_matrix_alloc(N, N), *C = gsl_matrix_calloc(N, N);
   gsl_vector_complex *alpha = gsl_vector_complex_alloc(N);
   gsl_vector *beta = gsl_vector_alloc(N);
   gsl_eigen_gen_workspace *w = gsl_eigen_gen_alloc(N);
   int rc = SW_OK;
-  double worst = -INFINITY, big = 0;
   if (!G || !C || !alpha || !beta || !w) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in the stability test"); goto done; }
   sw_net_stamp(net, state, G, NULL);
   for (k = 0; k < net->ndev; k++) {
@@ -383,23 +437,22 @@ static int stability_of(const sw_net *net, const int *state, int *label, sw_err 
     if (a && b) { *gsl_matrix_ptr(C, a - 1, b - 1) += 1; *gsl_matrix_ptr(C, b - 1, a - 1) += 1; }
   }
   if (gsl_eigen_gen(G, C, alpha, beta, w)) { rc = sw_err_set(err, SW_ENUMERIC, "the eigenvalue computation for the stability test failed"); goto done; }
-  for (j = 0; j < N; j++) {
-    double bt = gsl_vector_get(beta, j);
-    gsl_complex al = gsl_vector_complex_get(alpha, j);
-    double re, mag;
-    if (fabs(bt) <= 1e-10 * (fabs(GSL_REAL(al)) + fabs(GSL_IMAG(al)))) continue; /* infinite */
-    re = GSL_REAL(al) / bt;
-    mag = hypot(GSL_REAL(al), GSL_IMAG(al)) / fabs(bt);
-    if (re > worst) worst = re;
-    if (mag > big) big = mag;
-  }
-  if (worst == -INFINITY) *label = SW_NET_STABLE; /* no dynamics at all */
-  else if (fabs(worst) <= 1e-9 * big) *label = SW_NET_MARGINAL;
-  else *label = worst < 0 ? SW_NET_STABLE : SW_NET_UNSTABLE;
+  *label = classify(alpha, beta);
 done:
   gsl_matrix_free(G); gsl_matrix_free(C); gsl_vector_complex_free(alpha); gsl_vector_free(beta);
   gsl_eigen_gen_free(w);
   return rc;
+}
+
+/* The full test when it is small, else the port form, else unknown. */
+static int stability_of(const sw_net *net, const int *state, int *label, sw_err *err)
+{
+#ifndef STAB_FORCE_PORTS
+  if (net->nunk <= STAB_FULL_MAX) return stability_full(net, state, label, err);
+#endif
+  if (net->ndev <= STAB_PORTS_MAX) return stability_ports(net, state, label, err);
+  *label = SW_NET_UNKNOWN;
+  return SW_OK;
 }
 
 /* On a breakpoint the point is stable only when it is stable with each
