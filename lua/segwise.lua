@@ -7,8 +7,8 @@ local util = require "segwise.util"
 local sw = { version = core.version, core = core }
 local check_opts, check_number = util.check_opts, util.check_number
 -- core calls from a public function: errors point at the user's line
--- (parenthesised returns are not tail calls, so the levels hold)
-local function call(fname, f, ...) return (util.call(3, fname, f, ...)) end
+-- (util.call finds it on the stack)
+local function call(fname, f, ...) return util.call(fname, f, ...) end
 
 ---------------------------------------------------------------- curves
 sw.curve = {}

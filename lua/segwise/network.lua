@@ -37,7 +37,7 @@ return function(sw, core)
   end
 
   -- The C method's error at the caller's level (see util.call).
-  local function call(fname, f, ...) return util.call(2, fname, f, ...) end
+  local function call(fname, f, ...) return util.call(fname, f, ...) end
 
   -- numbers used as node names index results as strings too
   local by_string = { __index = function(t, k) if type(k) == "number" then return rawget(t, tostring(k)) end end }

@@ -83,12 +83,37 @@ function util.is_array(v)
   return type(v) == "userdata" and mt ~= nil and mt.__name == "segwise.Array"
 end
 
+-- This library's own sources: lua/segwise.lua and everything under
+-- lua/segwise/ (wherever they are installed).
+local LIB_ROOT = debug.getinfo(1, "S").source:match("^(@.*)[/\\]segwise[/\\]util%.lua$")
+local function in_library(source)
+  if not LIB_ROOT then return false end
+  local n = #LIB_ROOT
+  return source:sub(1, n) == LIB_ROOT and
+    (source:sub(n + 1) == "/segwise.lua" or source:sub(n + 1, n + 9) == "/segwise/")
+end
+
+-- The level, as error() counts it from the caller of this function, of the
+-- first frame that is not this library's: the user's line (or the C
+-- function, such as pcall, that called the library).
+local function user_level()
+  local level = 3
+  while true do
+    local info = debug.getinfo(level, "S")
+    if not info then return 1 end
+    if not in_library(info.source) then return level - 1 end
+    level = level + 1
+  end
+end
+
 -- Calls core function f for the public function fname, so that its error
 -- points at the user's line, not at this library's: a segwise message loses
--- the library position and is raised again at the caller's level; any other
--- error value (a callback's own) passes through unchanged.  rename: the
--- message goes under fname even when the core named its own function.
-local function call_with(level, fname, rename, f, ...)
+-- the library position and is raised again at the first frame outside the
+-- library, found by walking the stack (no level to count by hand, tail
+-- calls or not); any other error value (a callback's own) passes through
+-- unchanged.  rename: the message goes under fname even when the core named
+-- its own function.
+local function call_with(fname, rename, f, ...)
   local r = table.pack(pcall(f, ...))
   if r[1] then return table.unpack(r, 2, r.n) end
   local msg = r[2]
@@ -97,18 +122,14 @@ local function call_with(level, fname, rename, f, ...)
     if bare then
       -- a core function called through pcall has no name of its own
       bare = bare:gsub(rename and "^segwise[%w_.:]*: " or "^segwise: ", "segwise." .. fname .. ": ", 1)
-      error(bare, level + 1)
+      error(bare, user_level())
     end
   end
   error(msg, 0)
 end
 
--- level counts as error()'s does from the function that calls util.call
--- (1: that function, 2: its caller); a tail call `return util.call(...)`
--- takes that function's place, so count from its caller then.
--- (call_with is tail-called below: it stands where these were.)
-function util.call(level, fname, f, ...) return call_with(level, fname, false, f, ...) end
-function util.call_as(level, fname, f, ...) return call_with(level, fname, true, f, ...) end
+function util.call(fname, f, ...) return call_with(fname, false, f, ...) end
+function util.call_as(fname, f, ...) return call_with(fname, true, f, ...) end
 
 util.describe = describe
 return util
