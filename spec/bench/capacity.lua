@@ -9,10 +9,10 @@ local LIMIT = 1.0
 
 local function ladder(size, m)
   local net = sw.network()
-  net:vsource("E", "n0", "0", 5)
+  net:vsource("VBUS", "n0", "0", 5)
   for j = 1, size do
-    net:resistor("R" .. j, "n" .. (j - 1), "n" .. j, 1000)
-    net:element("D" .. j, "n" .. j, "0", m, { x = "v" })
+    net:resistor("RSEG" .. j, "n" .. (j - 1), "n" .. j, 1000)
+    net:element("DIODE" .. j, "n" .. j, "0", m, { x = "v" })
   end
   return net
 end

@@ -18,10 +18,10 @@ return function(B)
   local values_array = sw.array(values) -- sweeps take arrays: no table on the way in
   for _, size in ipairs { 10, 20, 50 } do
     local net = sw.network()
-    net:vsource("E", "n0", "0", 1)
+    net:vsource("VBUS", "n0", "0", 1)
     for j = 1, size do
-      net:resistor("R" .. j, "n" .. (j - 1), "n" .. j, R)
-      net:element("D" .. j, "n" .. j, "0", m, { x = "v" })
+      net:resistor("RSEG" .. j, "n" .. (j - 1), "n" .. j, R)
+      net:element("DIODE" .. j, "n" .. j, "0", m, { x = "v" })
     end
     local params = { size, R, IS, NVT, FTOL }
     for k = 1, N do params[5 + k] = values[k] end
@@ -31,7 +31,7 @@ return function(B)
     local med = B.rounds_of {
       { label = "segwise", run = function()
         local t = os.clock()
-        local res = net:sweep("E", values_array, { out = { "i.D1" } })
+        local res = net:sweep("VBUS", values_array, { out = { "i.DIODE1" } })
         t = os.clock() - t
         if not currents then
           currents, info = {}, res
@@ -41,7 +41,7 @@ return function(B)
       end },
       { label = "refactor", run = function()
         local t = os.clock()
-        local res = net:sweep("E", values_array, { out = { "i.D1" }, lowrank = false })
+        local res = net:sweep("VBUS", values_array, { out = { "i.DIODE1" }, lowrank = false })
         t = os.clock() - t
         info_full = res
         return t

@@ -16,9 +16,9 @@ return function(B)
   local m = sw.fit(c, { lo = 0, hi = 0.75, tol = FIT_TOL })
   t_fit = os.clock() - t_fit
   local net = sw.network()
-  net:vsource("E", "a", "0", 1)
-  net:resistor("R", "a", "b", R)
-  net:element("D", "b", "0", m, { x = "v" })
+  net:vsource("VBUS", "a", "0", 1)
+  net:resistor("RSER", "a", "b", R)
+  net:element("DIODE", "b", "0", m, { x = "v" })
   local values = {}
   for k = 1, N do values[k] = 0.5 + 9.5 * (k - 1) / (N - 1) end
   local values_array = sw.array(values) -- sweeps take arrays: no table on the way in
@@ -30,7 +30,7 @@ return function(B)
   local sides = {
     { label = "segwise", run = function()
       local t = os.clock()
-      local res = net:sweep("E", values_array, { out = { "i.D" } })
+      local res = net:sweep("VBUS", values_array, { out = { "i.DIODE" } })
       t = os.clock() - t
       if not currents then
         currents = {}

@@ -376,13 +376,13 @@ static int build_net(sw_net *net, sw_err *err)
   int rc;
   memset(&m, 0, sizeof m);
   if ((rc = sw_pwl_from_points(&m, x, y, 4, err))) return rc;
-  if (!(rc = add2(net, SW_NET_V, "V1", "a", "0", 5, err)) &&
-      !(rc = add2(net, SW_NET_R, "R1", "a", "b", 100, err)) &&
-      !(rc = sw_net_add_device(net, "D1", "b", "c", &m, 0, 0.5, err)) &&
-      !(rc = sw_net_add_device(net, "D2", "c", "0", &m, 0, 0, err)) &&
-      !(rc = add2(net, SW_NET_R, "R2", "c", "0", 2000, err)) &&
-      !(rc = sw_net_add(net, SW_NET_VCVS, "E1", vc, NULL, 2, err)) &&
-      !(rc = add2(net, SW_NET_R, "R3", "d", "0", 50, err)))
+  if (!(rc = add2(net, SW_NET_V, "VIN", "a", "0", 5, err)) &&
+      !(rc = add2(net, SW_NET_R, "RSER", "a", "b", 100, err)) &&
+      !(rc = sw_net_add_device(net, "DIODE", "b", "c", &m, 0, 0.5, err)) &&
+      !(rc = sw_net_add_device(net, "DIODE2", "c", "0", &m, 0, 0, err)) &&
+      !(rc = add2(net, SW_NET_R, "RLOAD", "c", "0", 2000, err)) &&
+      !(rc = sw_net_add(net, SW_NET_VCVS, "AMP", vc, NULL, 2, err)) &&
+      !(rc = add2(net, SW_NET_R, "RLINK", "d", "0", 50, err)))
     rc = SW_OK;
   sw_pwl_free(&m);
   return rc;

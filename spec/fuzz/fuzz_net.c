@@ -97,7 +97,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     const char *nodes[4];
     const char *ctrl = NULL;
     double value = fuzz_double(&in);
-    snprintf(names[k], sizeof names[k], "E%u", (unsigned)(k % 7)); /* repeats on purpose */
+    snprintf(names[k], sizeof names[k], "EL%u", (unsigned)(k % 7)); /* repeats on purpose */
     nodes[0] = node_name(&in); nodes[1] = node_name(&in);
     nodes[2] = node_name(&in); nodes[3] = node_name(&in);
     if (kind == SW_NET_CCVS || kind == SW_NET_CCCS) ctrl = names[fuzz_u8(&in) % (k + 1)];
