@@ -36,11 +36,11 @@ end
 -- VIN -> RFEED -> n1 -> RLINK2 -> n2 ...; a device from every node to ground.
 local function ladder(size, model, head)
   local net = sw.network()
-  net:vsource("VIN", "n0", "0", 5)
+  net:vsource("VIN", "tap0", "0", 5)
   if head then head(net) end
   for j = 1, size do
-    net:resistor((j == 1 and "RFEED" or "RLINK") .. j, "n" .. (j - 1), "n" .. j, 1000)
-    net:element("DIODE" .. j, "n" .. j, "0", model)
+    net:resistor((j == 1 and "RFEED" or "RLINK") .. j, "tap" .. (j - 1), "tap" .. j, 1000)
+    net:element("DIODE" .. j, "tap" .. j, "0", model)
   end
   return net
 end
@@ -105,14 +105,37 @@ describe("segwise.network uniqueness", function()
       net:resistor("RSHUNT", "a", "0", 1000)
       net:vcvs("BUFFER", "b", "0", "a", "0", 4)
       for j = 1, 12 do
-        net:resistor("RLINK" .. j, j == 1 and "b" or ("n" .. (j - 1)), "n" .. j, 100)
-        net:element("DIODE" .. j, "n" .. j, "0", three)
+        net:resistor("RLINK" .. j, j == 1 and "b" or ("tap" .. (j - 1)), "tap" .. j, 100)
+        net:element("DIODE" .. j, "tap" .. j, "0", three)
       end
       for _, method in ipairs { "auto", "assumed", "lcp" } do
         local op = net:solve { method = method }
         assert.is_true(op.unique, method)
         assert.truthy(op.unique_reason:find("P-matrix (strictly diagonally dominant", 1, true), method)
         assert.are.equal("stable", op.stability)
+      end
+    end)
+
+    it("counts a vccs across its own terminals as a conductance, and no other controlled source", function()
+      local model = sw.pwl { x = { 0, 0.6, 0.8 }, y = { 0, 1e-4, 0.02 } }
+      local function circuit(gm, cp, cm)
+        local net = sw.network()
+        net:vsource("VIN", "in", "0", 5)
+        net:resistor("RSER", "in", "a", 1000)
+        net:vccs("LEAK", "a", "0", cp, cm, gm) -- gm * (V(cp) - V(cm)) from a to ground
+        net:element("DIODE", "a", "0", model)
+        net:element("DIODE2", "a", "b", model)
+        net:resistor("RLOAD", "b", "0", 500)
+        return net:solve()
+      end
+      -- 1 mS across its own terminals, either way round
+      assert.truthy(circuit(1e-3, "a", "0").unique_reason:find("monotone network theorem", 1, true))
+      assert.truthy(circuit(-1e-3, "0", "a").unique_reason:find("monotone network theorem", 1, true))
+      -- a negative conductance, or a control taken elsewhere: outside the theorem
+      -- (these small circuits are then settled by enumeration)
+      for _, op in ipairs { circuit(-1e-3, "a", "0"), circuit(1e-3, "b", "0") } do
+        assert.is_nil(op.unique_reason:find("monotone", 1, true))
+        assert.truthy(op.unique_reason:find("enumeration", 1, true))
       end
     end)
 
