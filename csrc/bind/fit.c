@@ -171,8 +171,10 @@ static void push_per_segment(lua_State *L, const sw_pwl *m, const double *seg)
   }
 }
 
-/* The fit-info table of model m made by info from options u. */
-static void push_info(lua_State *L, const sw_pwl *m, const sw_fit_info *info, const double *seg)
+/* The fit-info table of model m made by info from options u; exact: the
+ * curve is sampled, so the rechecked error is exact (else refined). */
+static void push_info(lua_State *L, const sw_pwl *m, const sw_fit_info *info, const double *seg,
+                      int exact)
 {
   const sw_fit_opts *u = &info->used;
   lua_createtable(L, 0, 16);
@@ -192,6 +194,8 @@ static void push_info(lua_State *L, const sw_pwl *m, const sw_fit_info *info, co
   set_num(L, "x_rel", info->x_rel);
   set_num(L, "rms", info->rms);
   set_num(L, "internal", info->internal);
+  lua_pushstring(L, exact ? "exact" : "refined");
+  lua_setfield(L, -2, "checked");
   lua_pushinteger(L, (lua_Integer)info->iterations);
   lua_setfield(L, -2, "iterations");
   if (u->tol > 0) set_num(L, "tol", u->tol);
@@ -224,7 +228,7 @@ static int l_fit(lua_State *L)
                              seg + 2 * m->m.nseg, &err);
   lsw_curve_done(L, &ctx);
   if (st) return lsw_raise(L, FNAME, &err);
-  push_info(L, &m->m, &info, seg);
+  push_info(L, &m->m, &info, seg, copy.kind == SW_CURVE_SAMPLES);
   lua_setiuservalue(L, midx, 1);
   lua_pushvalue(L, midx);
   return 1;

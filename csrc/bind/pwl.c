@@ -277,57 +277,85 @@ static double opt_field(lua_State *L, int idx, const char *key, double dflt)
   return v;
 }
 
-/* m:compare(curve [, {lo=, hi=, n=, rel_floor=}]) */
-static int l_compare(lua_State *L)
+/* Unknown keys of compare's options table are refused. */
+static void compare_check_keys(lua_State *L)
 {
-  lsw_model *m = lsw_checkmodel(L, 1);
-  lsw_curve *c = lsw_checkcurve(L, 2);
-  double lo, hi, n, floor;
-  sw_compare out;
-  sw_curve copy;
-  lsw_callctx ctx;
-  sw_err err;
-  int st;
-  if (!lua_isnoneornil(L, 3)) {
-    static const char *const known[] = {"lo", "hi", "n", "rel_floor", NULL};
-    if (!lua_istable(L, 3)) return lsw_error(L, "options must be a table (got %s)", luaL_typename(L, 3));
-    lua_pushnil(L);
-    while (lua_next(L, 3)) {
-      int k, ok = 0;
-      lua_pop(L, 1);
-      for (k = 0; known[k]; k++) ok |= lua_type(L, -1) == LUA_TSTRING && strcmp(lua_tostring(L, -1), known[k]) == 0;
-      if (!ok) return lsw_error(L, "unknown option '%s' (known: lo, hi, n, rel_floor)", luaL_tolstring(L, -1, NULL));
-    }
+  static const char *const known[] = {"lo", "hi", "n", "rel_floor", NULL};
+  if (lua_isnoneornil(L, 3)) return;
+  if (!lua_istable(L, 3)) lsw_error(L, "options must be a table (got %s)", luaL_typename(L, 3));
+  lua_pushnil(L);
+  while (lua_next(L, 3)) {
+    int k, ok = 0;
+    lua_pop(L, 1);
+    for (k = 0; known[k]; k++)
+      ok |= lua_type(L, -1) == LUA_TSTRING && strcmp(lua_tostring(L, -1), known[k]) == 0;
+    if (!ok)
+      lsw_error(L, "unknown option '%s' (known: lo, hi, n, rel_floor)",
+                luaL_tolstring(L, -1, NULL));
   }
-  lo = c->c.lo > m->m.x[0] ? c->c.lo : m->m.x[0];
-  hi = c->c.hi < m->m.x[m->m.nseg] ? c->c.hi : m->m.x[m->m.nseg];
-  lo = opt_field(L, 3, "lo", lo);
-  hi = opt_field(L, 3, "hi", hi);
-  n = opt_field(L, 3, "n", 2001);
-  floor = opt_field(L, 3, "rel_floor", 0);
-  if (n < 2 || n > 1e8) return luaL_error(L, "segwise.model:compare: n = %f must be between 2 and 1e8", n);
-  lua_settop(L, 3);
-  lsw_curve_bind(L, 2, &copy, &ctx);
-  m->busy++;
-  st = sw_pwl_compare(&m->m, &copy, lo, hi, (size_t)n, floor, &out, &err);
-  m->busy--;
-  lsw_curve_done(L, &ctx);
-  if (st) return lsw_raise(L, "model:compare", &err);
-  lua_createtable(L, 0, 8);
-  set_num(L, "max_abs", out.max_abs);
-  set_num(L, "x_abs", out.x_abs);
-  set_num(L, "rms", out.rms);
-  if (!out.rel_undefined) {
-    set_num(L, "max_rel", out.max_rel);
-    set_num(L, "x_rel", out.x_rel);
+}
+
+static void compare_push(lua_State *L, const sw_compare *out, double lo, double hi)
+{
+  lua_createtable(L, 0, 9);
+  set_num(L, "max_abs", out->max_abs);
+  set_num(L, "x_abs", out->x_abs);
+  set_num(L, "rms", out->rms);
+  if (!out->rel_undefined) {
+    set_num(L, "max_rel", out->max_rel);
+    set_num(L, "x_rel", out->x_rel);
   } else {
-    lua_pushfstring(L, "relative error undefined: the curve is 0 near x = %f (give rel_floor)", out.x_zero);
+    lua_pushfstring(L, "relative error undefined: the curve is 0 near x = %f (give rel_floor)",
+                    out->x_zero);
     lua_setfield(L, -2, "rel_note");
   }
-  lua_pushinteger(L, (lua_Integer)out.npoints);
+  lua_pushinteger(L, (lua_Integer)out->npoints);
   lua_setfield(L, -2, "points");
+  lua_pushstring(L, out->exact ? "exact" : "refined");
+  lua_setfield(L, -2, "checked");
   set_num(L, "lo", lo);
   set_num(L, "hi", hi);
+}
+
+/* m:compare(curve_or_model [, {lo=, hi=, n=, rel_floor=}]): a model as the
+ * reference is piecewise linear, so its check is exact like a sampled
+ * curve's. */
+static int l_compare(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1), *ref = luaL_testudata(L, 2, LSW_MODEL_MT);
+  lsw_curve *c = NULL;
+  double lo, hi, n, floor, dlo, dhi;
+  sw_compare out;
+  sw_err err;
+  int st;
+  if (ref && ref->freed) return lsw_error(L, "model used after free() (argument #2)");
+  if (!ref && !luaL_testudata(L, 2, LSW_CURVE_MT))
+    return lsw_error(L, "argument #2 must be a segwise curve or model (got %s)",
+                     luaL_typename(L, 2));
+  if (!ref) c = lsw_checkcurve(L, 2);
+  compare_check_keys(L);
+  dlo = ref ? ref->m.x[0] : c->c.lo;
+  dhi = ref ? ref->m.x[ref->m.nseg] : c->c.hi;
+  lo = opt_field(L, 3, "lo", dlo > m->m.x[0] ? dlo : m->m.x[0]);
+  hi = opt_field(L, 3, "hi", dhi < m->m.x[m->m.nseg] ? dhi : m->m.x[m->m.nseg]);
+  n = opt_field(L, 3, "n", 2001);
+  floor = opt_field(L, 3, "rel_floor", 0);
+  if (n < 2 || n > 1e8)
+    return luaL_error(L, "segwise.model:compare: n = %f must be between 2 and 1e8", n);
+  lua_settop(L, 3);
+  if (ref) {
+    st = sw_pwl_compare_pwl(&m->m, &ref->m, lo, hi, floor, &out, &err);
+  } else {
+    sw_curve copy;
+    lsw_callctx ctx;
+    lsw_curve_bind(L, 2, &copy, &ctx);
+    m->busy++;
+    st = sw_pwl_compare(&m->m, &copy, lo, hi, (size_t)n, floor, &out, &err);
+    m->busy--;
+    lsw_curve_done(L, &ctx);
+  }
+  if (st) return lsw_raise(L, "model:compare", &err);
+  compare_push(L, &out, lo, hi);
   return 1;
 }
 

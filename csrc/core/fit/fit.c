@@ -580,59 +580,29 @@ done:
   return st;
 }
 
+/* Each segment's own error: its line alone, compared as m:compare does (on
+ * its own knots, so exact for sampled curves and a jump's side counted). */
 int sw_fit_segment_errors(const sw_pwl *m, const sw_curve *c, double rel_floor, double *max_abs,
                           double *x_abs, double *max_rel, sw_err *err)
 {
-  size_t k, i;
+  sw_pwl one;
+  size_t k;
+  int st;
+  memset(&one, 0, sizeof one);
+  if ((st = sw_pwl_alloc(&one, 1, err))) return st;
   for (k = 0; k < m->nseg; k++) {
-    double a = m->x[k], b = m->x[k + 1];
-    max_abs[k] = 0;
-    x_abs[k] = a;
-    max_rel[k] = 0;
-    if (c->kind == SW_CURVE_SAMPLES) {
-      /* the segment's line against the samples inside and the curve at its
-       * ends; the samples inside found by bisection (x is sorted) */
-      size_t first = 0, hi_i = c->n;
-      while (first < hi_i) {
-        size_t mid = first + (hi_i - first) / 2;
-        if (c->x[mid] <= a) first = mid + 1; else hi_i = mid;
-      }
-      for (i = 0; i <= c->n + 1; i++) {
-        double x, y, v, r;
-        int st;
-        if (i == 1 && first > 0) i = first + 1; /* skip to the first sample past a */
-        x = i == 0 ? a : i == c->n + 1 ? b : c->x[i - 1];
-        if (i > 0 && i <= c->n && x >= b) { i = c->n; continue; }
-        if (i > 0 && i <= c->n && x <= a) continue;
-        if (i == 0 || i == c->n + 1) { if ((st = sw_curve_eval(c, x, &y, err))) return st; }
-        else y = c->y[i - 1];
-        v = fabs(sw_pwl_line(m, k, x) - y);
-        if (v > max_abs[k]) { max_abs[k] = v; x_abs[k] = x; }
-        if (rel_floor > 0 || y != 0) {
-          r = v / (fabs(y) > rel_floor ? fabs(y) : rel_floor);
-          if (max_rel[k] == max_rel[k] && r > max_rel[k]) max_rel[k] = r;
-        } else {
-          max_rel[k] = NAN;
-        }
-      }
-    } else {
-      sw_pwl one;
-      sw_compare cmp;
-      int st;
-      memset(&one, 0, sizeof one);
-      if ((st = sw_pwl_alloc(&one, 1, err))) return st;
-      one.x[0] = a;
-      one.x[1] = b;
-      one.ya[0] = m->ya[k];
-      one.yb[0] = m->yb[k];
-      st = sw_pwl_finish(&one, err);
-      if (!st) st = sw_pwl_compare(&one, c, a, b, 201, rel_floor, &cmp, err);
-      sw_pwl_free(&one);
-      if (st) return st;
-      max_abs[k] = cmp.max_abs;
-      x_abs[k] = cmp.x_abs;
-      max_rel[k] = cmp.rel_undefined ? NAN : cmp.max_rel;
-    }
+    sw_compare cmp;
+    one.x[0] = m->x[k];
+    one.x[1] = m->x[k + 1];
+    one.ya[0] = m->ya[k];
+    one.yb[0] = m->yb[k];
+    st = sw_pwl_finish(&one, err);
+    if (!st) st = sw_pwl_compare(&one, c, one.x[0], one.x[1], 201, rel_floor, &cmp, err);
+    if (st) break;
+    max_abs[k] = cmp.max_abs;
+    x_abs[k] = cmp.x_abs;
+    max_rel[k] = cmp.rel_undefined ? NAN : cmp.max_rel;
   }
-  return SW_OK;
+  sw_pwl_free(&one);
+  return st;
 }

@@ -7,9 +7,8 @@
 #include "curve/curve.h"
 #include "pwl/pwl.h"
 
-/* sw_pwl_compare of m against c on [lo, hi] with n grid points, plus (for
- * analytic curves) a search for each segment's own error peaks
- * (fit_check.c). */
+/* The fit report's error of m against c on [lo, hi]: sw_pwl_compare with n
+ * grid points (exact for sampled curves, refined for analytic ones). */
 int fit_recheck(const sw_pwl *m, const sw_curve *c, double lo, double hi, size_t n,
                 double rel_floor, sw_compare *cmp, sw_err *err);
 

@@ -69,24 +69,38 @@ int sw_pwl_inverse(const sw_pwl *m, sw_pwl *out, sw_err *err);
 int sw_pwl_canonical(const sw_pwl *m, double *a, double *b, double *c,
                      double *beta, sw_err *err);
 
-/* Error of model against curve over [lo, hi]. */
+/* Error of model against curve over [lo, hi]: max_abs and max_rel are upper
+ * bounds (suprema: at a jump a one-sided limit counts) reached at x_abs and
+ * x_rel, exact for sampled curves and models, refined for laws and functions. */
 typedef struct sw_compare {
   double max_abs, x_abs; /* largest |m - f| and where */
   double max_rel, x_rel; /* largest |m - f| / max(|f|, rel_floor) and where */
-  double rms;            /* root mean square of m - f over [lo, hi] */
-  size_t npoints;        /* evaluation points used */
+  double rms;            /* root mean square of m - f: at the samples of a sampled
+                            curve (at the points examined when none lies in
+                            [lo, hi]), else over [lo, hi] */
+  size_t npoints;        /* evaluation points used (before refinement) */
   int rel_undefined;     /* 1: no rel_floor and f is 0 at or crosses 0 near x_zero;
                             max_rel is then NaN */
   double x_zero;
+  int exact;             /* 1: the maxima are exact (both sides piecewise linear);
+                            0: grid maxima refined by GSL's Brent minimiser */
 } sw_compare;
 
-/* Sampled curves: errors at the samples inside [lo, hi].  Other curves: a
- * grid of n points plus every knot, the maxima refined by GSL's Brent
- * minimiser on each bracketing interval.  rel_floor <= 0 and a curve value of
- * 0 inside the range leave the relative error undefined (flagged, not an
- * error, so the absolute figures stay usable). */
+/* Sampled curves: the curve is the linear interpolant of its samples, so the
+ * largest error is at a sample, a knot of the model, or (relative error with
+ * rel_floor) where the curve crosses +-rel_floor: all are examined, the
+ * result is exact and n is unused.  Other curves: a grid of n points plus
+ * every knot and segment middle; on each segment's own line every grid
+ * maximum (ends and ties too) is bracketed and refined by GSL's Brent
+ * minimiser.  rel_floor <= 0 and a curve value of 0 inside the range leave
+ * the relative error undefined (flagged, not an error, so the absolute
+ * figures stay usable). */
 int sw_pwl_compare(const sw_pwl *m, const sw_curve *c, double lo, double hi,
                    size_t n, double rel_floor, sw_compare *out, sw_err *err);
+/* m against the reference model ref on [lo, hi] (inside ref's knots): exact,
+ * rms over [lo, hi] in closed form. */
+int sw_pwl_compare_pwl(const sw_pwl *m, const sw_pwl *ref, double lo, double hi,
+                       double rel_floor, sw_compare *out, sw_err *err);
 
 /* Model file: CSV of knots (x, y from the left, y from the right) with a
  * '#' header; written to path.tmp and renamed into place. */
