@@ -137,7 +137,9 @@ static int diag_dominant(const lcp_sys *s)
 }
 
 /* 1 when every principal minor is positive (n <= 12), else the sufficient
- * tests: strict diagonal dominance, then M + M^T positive definite. */
+ * tests: strict diagonal dominance, then M + M^T positive definite.
+ * 0 refuted, -1 not determined, PTEST_NOMEM out of memory. */
+#define PTEST_NOMEM (-2)
 static int pmatrix_test(const lcp_sys *s, const char **how)
 {
   size_t n = s->n, mask, r, c;
@@ -152,7 +154,7 @@ static int pmatrix_test(const lcp_sys *s, const char **how)
       double det;
       for (r = 0; r < n; r++) if (mask & ((size_t)1 << r)) idx[k++] = r;
       A = gsl_matrix_alloc(k, k); p = gsl_permutation_alloc(k);
-      if (!A || !p) { gsl_matrix_free(A); gsl_permutation_free(p); *how = "not determined"; return -1; }
+      if (!A || !p) { gsl_matrix_free(A); gsl_permutation_free(p); *how = "not determined"; return PTEST_NOMEM; }
       for (r = 0; r < k; r++) for (c = 0; c < k; c++) gsl_matrix_set(A, r, c, s->M[idx[r] * n + idx[c]]);
       det = gsl_linalg_LU_decomp(A, p, &sgn) ? 0 : gsl_linalg_LU_det(A, sgn);
       gsl_matrix_free(A); gsl_permutation_free(p);
@@ -164,7 +166,7 @@ static int pmatrix_test(const lcp_sys *s, const char **how)
   {
     gsl_matrix *S = gsl_matrix_alloc(n, n);
     int ok;
-    if (!S) { *how = "not determined"; return -1; }
+    if (!S) { *how = "not determined"; return PTEST_NOMEM; }
     for (r = 0; r < n; r++) for (c = 0; c < n; c++) gsl_matrix_set(S, r, c, s->M[r * n + c] + s->M[c * n + r]);
     ok = gsl_linalg_cholesky_decomp1(S) == GSL_SUCCESS;
     gsl_matrix_free(S);
@@ -264,6 +266,11 @@ int sw_net_lcp(const sw_net *net, int *state, size_t *pivots, int *pmatrix,
     return rc;
   }
   *pmatrix = pmatrix_test(&s, how);
+  if (*pmatrix == PTEST_NOMEM) {
+    *pmatrix = -1;
+    rc = sw_err_set(err, SW_ENOMEM, "out of memory in the P-matrix test");
+    goto done;
+  }
   u = sw_alloc(s.n, sizeof *u, err);
   v = sw_alloc(2 * m, sizeof *v, err);
   if (!u || !v) { rc = SW_ENOMEM; goto done; }
@@ -316,5 +323,9 @@ int sw_net_lcp_ptest(const sw_net *net, int *pmatrix, const char **how, sw_err *
   }
   if (rc == SW_OK) *pmatrix = pmatrix_test(&s, how);
   lcp_free(&s);
+  if (*pmatrix == PTEST_NOMEM) {
+    *pmatrix = -1;
+    return sw_err_set(err, SW_ENOMEM, "out of memory in the P-matrix test");
+  }
   return rc;
 }
