@@ -266,8 +266,10 @@ static void push_verdict(lua_State *L, const sw_net_verdict *v, int stability, i
   lua_setfield(L, -2, "stability");
 }
 
-/* Binds the exact curves (user value 2) and runs Newton from op. */
-static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_iter)
+/* Binds the exact curves (user value 2) and runs Newton from op; info
+ * says how the answer was reached. */
+static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_iter,
+                      sw_net_exact_info *info)
 {
   size_t m = n->net.ndev, k;
   const sw_curve **ptr;
@@ -292,11 +294,18 @@ static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_i
     ptr[k] = &copies[k];
   }
   n->busy++;
-  rc = sw_net_exact(&n->net, ptr, op, max_iter > 0 ? (size_t)max_iter : 0, &err);
+  rc = sw_net_exact_run(&n->net, ptr, op, max_iter > 0 ? (size_t)max_iter : 0, info, &err);
   n->busy--;
   for (k = m; k-- > 0;) if (ptr[k]) { lsw_curve_done(L, &ctx[k]); lua_pop(L, 1); }
   lua_settop(L, top - 4);
   if (rc) lsw_raise(L, "network:solve", &err);
+}
+
+/* op.exact_method, op.exact_steps into the op table on top. */
+static void push_exact_info(lua_State *L, const sw_net_exact_info *x)
+{
+  lua_pushstring(L, x->method); lua_setfield(L, -2, "exact_method");
+  lua_pushinteger(L, (lua_Integer)x->steps); lua_setfield(L, -2, "exact_steps");
 }
 
 /* n:solve(method, start, trace, max_states, exact, max_iter, lowrank)
@@ -315,6 +324,7 @@ static int l_solve(lua_State *L)
   int *start = NULL, *state, stab;
   lsw_hold *h;
   sw_net_verdict verdict;
+  sw_net_exact_info xinfo = { NULL, 0, 0 };
   sw_err err = { 0, "" };
   lua_settop(L, 8);
   prepare(L, n, "network:solve");
@@ -364,9 +374,10 @@ static int l_solve(lua_State *L)
     return lsw_raise(L, "network:solve", &err);
   stab = sw_net_op_stability(net, &h->ops[0], verdict.monotone, &err); /* of the PWL point */
   if (stab < 0) return lsw_raise(L, "network:solve", &err);
-  if (exact) run_exact(L, n, &h->ops[0], max_iter);
+  if (exact) run_exact(L, n, &h->ops[0], max_iter, &xinfo);
   push_op(L, net, &h->ops[0]);
   push_verdict(L, &verdict, stab, exact);
+  if (exact) push_exact_info(L, &xinfo);
   lua_createtable(L, 0, 5);
   lua_pushstring(L, exact ? "exact" : used); lua_setfield(L, -2, "method");
   lua_pushinteger(L, (lua_Integer)nfound); lua_setfield(L, -2, "nfound");

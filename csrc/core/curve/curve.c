@@ -235,21 +235,116 @@ static double diode_rd(const sw_curve *c, double i)
   return c->ideality * c->vt / (i + c->is) + c->rs;
 }
 
+/* i + is of the i(v) law at v, from the junction's own exponential
+ * is*exp((v - i*rs)/nvt): i + is formed by addition loses every digit once
+ * i rounds to -is (reverse bias beyond about 37 n*Vt). */
+static int diode_i_plus_is(const sw_curve *c, double v, double *s, sw_err *err)
+{
+  double i;
+  int st = diode_i_of_v(c, v, &i, err);
+  if (st) return st;
+  *s = c->is * exp((v - i * c->rs) / (c->ideality * c->vt));
+  return SW_OK;
+}
+
 static int diode_deriv(const sw_curve *c, double x, int order, double *d, sw_err *err)
 {
-  double nvt = c->ideality * c->vt, i, r, s;
+  double nvt = c->ideality * c->vt, s = 0, q;
+  int st;
   if (c->x_is_i) {
     if (!(x > -c->is)) return sw_err_set(err, SW_ERANGE, "diode v(i) needs i > -is (i = %g)", x);
     s = x + c->is;
     *d = order == 1 ? diode_rd(c, x) : -nvt / (s * s);
     return SW_OK;
   }
-  if (diode_i_of_v(c, x, &i, err)) return err ? err->code : SW_ERANGE;
-  r = diode_rd(c, i);
-  s = i + c->is;
-  /* di/dv = 1/R(i); d2i/dv2 = nvt / (s^2 R^3) */
-  *d = order == 1 ? 1.0 / r : nvt / (s * s * r * r * r);
+  if ((st = diode_i_plus_is(c, x, &s, err))) return st;
+  /* di/dv = s / (nvt + rs s); d2i/dv2 = nvt s / (nvt + rs s)^3, both finite
+   * as s -> 0 (deep reverse bias) and, with rs > 0, as s -> infinity */
+  if (c->rs > 0 && !sw_isfinite(s)) { *d = order == 1 ? 1.0 / c->rs : 0.0; return SW_OK; }
+  q = nvt + c->rs * s;
+  *d = order == 1 ? s / q : nvt * s / (q * q * q);
   return SW_OK;
+}
+
+/* A diode's v(i) is the better row at and above zero current (its tangent
+ * lands near the curve from either side, where i(v) climbs down an
+ * exponential one n*Vt per step), its i(v) below zero, toward i = -is
+ * where v(i) ends. */
+int sw_curve_newton_flip(const sw_curve *c, double x, double y)
+{
+  double i;
+  if (c->kind != SW_CURVE_DIODE) return 0;
+  i = c->x_is_i ? x : y;
+  return c->x_is_i ? !(i >= 0) : i >= 0;
+}
+
+int sw_curve_newton_lost(const sw_curve *c, double x)
+{
+  return c->kind == SW_CURVE_DIODE && c->x_is_i && !(x + c->is > 1e-9 * c->is);
+}
+
+/* One end of a flipped diode's domain: the law's value at x, where an
+ * infinite end or v(i)'s open end at -is maps to an infinite one. */
+static int diode_flip_end(const sw_curve *c, double x, double *y, sw_err *err)
+{
+  if (!sw_isfinite(x) || (c->x_is_i && x <= -c->is)) { *y = x > 0 ? INFINITY : -INFINITY; return SW_OK; }
+  return diode_eval(c, x, y, err);
+}
+
+int sw_curve_flip(const sw_curve *c, sw_curve *out, sw_err *err)
+{
+  double lo, hi;
+  int st;
+  if (c->kind != SW_CURVE_DIODE) return sw_err_set(err, SW_EINVAL, "only the diode law has a closed inverse");
+  if ((st = diode_flip_end(c, c->lo, &lo, err)) || (st = diode_flip_end(c, c->hi, &hi, err))) return st;
+  *out = *c;
+  out->x_is_i = !c->x_is_i;
+  /* i(v) -> v(i): v = -inf maps to the open end i = -is itself */
+  out->lo = !c->x_is_i && !sw_isfinite(c->lo) ? -c->is : lo;
+  out->hi = hi;
+  return SW_OK;
+}
+
+/* A step of a diode's v(i) row may cut i + is by at most a factor of 100
+ * (v falls by up to n*Vt*ln 100): the logarithm's tangent overshoots past
+ * i = -is, where the law ends. */
+static double diode_limit_fall(const sw_curve *c, double i0, double di)
+{
+  double s0 = i0 + c->is;
+  if (!(s0 > 0) || !(di < -0.99 * s0)) return di;
+  return -0.99 * s0;
+}
+
+/* A diode's i(v) is convex: the tangent at v0 predicts at v0 + dv a current
+ * below the law's, and the exact law reaches that predicted current at a
+ * far smaller rise.  A rise of more than 2 n*Vt is cut to that voltage
+ * (never below 2 n*Vt): with s0 = i0 + is and q = n*Vt + rs*s0 the rise is
+ * n*Vt*ln(1 + dv/q) + rs*s0*dv/q, logarithmic in the junction and linear
+ * in the series resistance. */
+double sw_curve_limit_step(const sw_curve *c, double x0, double dx)
+{
+  double nvt, s0 = 0, q, rise;
+  sw_err e;
+  if (c->kind != SW_CURVE_DIODE) return dx;
+  if (c->x_is_i) return diode_limit_fall(c, x0, dx);
+  nvt = c->ideality * c->vt;
+  if (!(dx > 2 * nvt)) return dx;
+  if (diode_i_plus_is(c, x0, &s0, &e)) return 2 * nvt;
+  if (!sw_isfinite(s0)) return c->rs > 0 ? dx : 2 * nvt;
+  q = nvt + c->rs * s0;
+  rise = nvt * log1p(dx / q) + c->rs * s0 * (dx / q);
+  if (!(rise > 2 * nvt)) rise = 2 * nvt;
+  return rise < dx ? rise : dx;
+}
+
+/* i(v)'s slope (i + is) / (n*Vt + rs*(i + is)) at i + is = 1e-12 is: below
+ * that the current is -is to twelve digits, whatever v is. */
+double sw_curve_slope_floor(const sw_curve *c)
+{
+  double s;
+  if (c->kind != SW_CURVE_DIODE || c->x_is_i) return 0;
+  s = 1e-12 * c->is;
+  return s / (c->ideality * c->vt + c->rs * s);
 }
 
 static int call_fn(const sw_curve *c, double x, double *y, sw_err *err)

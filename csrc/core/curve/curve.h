@@ -62,4 +62,23 @@ int sw_curve_deriv2(const sw_curve *c, double x, double *d2y, sw_err *err);
 /* 1 when the domain is a finite interval. */
 int sw_curve_bounded(const sw_curve *c);
 
+/* Newton on a law: the orientation to solve it in, its inverse, and the
+ * law's own step limit.  sw_curve_newton_flip is 1 when, near the point
+ * (x, y), the law is better solved as its inverse (a diode: v(i) at and
+ * above zero current, i(v) below, toward i = -is where v(i) ends).  sw_curve_flip writes the same law with x and y exchanged, its
+ * domain mapped through the law (SW_EINVAL for kinds without a closed
+ * inverse). */
+int sw_curve_newton_flip(const sw_curve *c, double x, double y);
+int sw_curve_flip(const sw_curve *c, sw_curve *out, sw_err *err);
+/* 1 when the law's row can no longer resolve x (a diode's v(i) once i + is
+ * falls below 1e-9 is: the inverse orientation must take over). */
+int sw_curve_newton_lost(const sw_curve *c, double x);
+/* The part of a proposed Newton step dx from x0 that the law's tangent at
+ * x0 can be trusted for (dx itself for laws without a limit): a diode's
+ * i(v) limits rises of v, its v(i) falls of i toward -is. */
+double sw_curve_limit_step(const sw_curve *c, double x0, double dx);
+/* A floor for the law's slope in a Newton Jacobian, where the true slope
+ * vanishes in rounding (0 for laws without one). */
+double sw_curve_slope_floor(const sw_curve *c);
+
 #endif

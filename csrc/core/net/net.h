@@ -218,7 +218,18 @@ int sw_net_unique(const sw_net *net, size_t nfound, size_t nstates, int pmatrix,
 int sw_net_op_stability(const sw_net *net, const sw_net_op *op, int monotone, sw_err *err);
 
 /* Newton on the exact curves (curves[j] may be NULL: the PWL model is used)
- * started at op; op is updated in place. */
+ * started at op; op is updated in place.  max_iter caps each Newton run
+ * (0: 200).  info (may be NULL) says how the answer was reached. */
+typedef struct sw_net_exact_info {
+  const char *method;  /* "newton": full steps; "limited": some step cut at a
+                        * junction or halved; "continuation": from the PWL
+                        * model toward the exact curves (static strings) */
+  size_t iterations;   /* Newton steps taken, every stage counted */
+  size_t steps;        /* continuation steps in lambda (0 without) */
+} sw_net_exact_info;
+int sw_net_exact_run(const sw_net *net, const sw_curve *const *curves,
+                     sw_net_op *op, size_t max_iter, sw_net_exact_info *info,
+                     sw_err *err);
 int sw_net_exact(const sw_net *net, const sw_curve *const *curves,
                  sw_net_op *op, size_t max_iter, sw_err *err);
 
