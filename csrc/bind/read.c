@@ -211,9 +211,9 @@ static int prov_curve(lua_State *L, int t, sw_pwl_prov *p, sw_err *err)
   char value[SW_PROV_WORD + 1];
   size_t n = 0, k;
   int st = SW_OK;
-  if (lua_getfield(L, t, "kind") == LUA_TSTRING)
-    st = sw_pwl_prov_set_text(p, "curve", lua_tostring(L, -1), err);
-  else
+  int type = lua_getfield(L, t, "kind");
+  if (type == LUA_TSTRING) st = sw_pwl_prov_set_text(p, "curve", lua_tostring(L, -1), err);
+  else if (type != LUA_TNIL)
     st = sw_err_set(err, SW_EINVAL, "curve.kind must be a string (got %s)", luaL_typename(L, -1));
   lua_pop(L, 1);
   lua_pushnil(L);
@@ -307,10 +307,12 @@ static void push_info(lua_State *L, const sw_pwl_prov *p, const sw_pwl *m)
     lua_pushboolean(L, p->continuous);
     lua_setfield(L, -2, "continuous");
   }
-  if (p->curve[0]) {
+  if (p->curve[0] || p->nparam) {
     lua_createtable(L, 0, (int)p->nparam + 1);
-    lua_pushstring(L, p->curve);
-    lua_setfield(L, -2, "kind");
+    if (p->curve[0]) {
+      lua_pushstring(L, p->curve);
+      lua_setfield(L, -2, "kind");
+    }
     for (k = 0; k < p->nparam; k++) {
       push_param(L, p->param[k].value);
       lua_setfield(L, -2, p->param[k].name);

@@ -203,8 +203,6 @@ int sw_pwl_prov_check(const sw_pwl_prov *p, sw_err *err)
     return sw_err_set(err, SW_EINVAL, "x_abs is given without max_abs");
   if (p->x_rel == p->x_rel && p->max_rel != p->max_rel)
     return sw_err_set(err, SW_EINVAL, "x_rel is given without max_rel");
-  if (p->nparam && !p->curve[0])
-    return sw_err_set(err, SW_EINVAL, "curve parameters are given without the curve's kind");
   return SW_OK;
 }
 
@@ -229,7 +227,10 @@ static void put_number(FILE *f, double v)
 
 static void write_field(FILE *f, const sw_pwl_prov *p, const field *fd)
 {
-  double v = cnum_at(p, fd->off), w = fd->off2 ? cnum_at(p, fd->off2) : NAN;
+  int numeric = fd->kind == F_RANGE || fd->kind == F_POS || fd->kind == F_NONNEG ||
+                fd->kind == F_ERR;
+  double v = numeric ? cnum_at(p, fd->off) : NAN;
+  double w = numeric && fd->off2 ? cnum_at(p, fd->off2) : NAN;
   switch (fd->kind) {
   case F_WORD: case F_TEXT: case F_PATH:
     if (ctext_at(p, fd->off)[0]) fprintf(f, "# fit %s: %s\n", fd->key, ctext_at(p, fd->off));
