@@ -47,7 +47,10 @@ for k, r in ipairs(rows) do
   local ex = net:solve { exact = true }
   sweep[k] = { vf = values[k], v_in = r.v["in"], i_dz = r.i.DZ, i_exact = ex.i.DZ, p_dz = r.p.DZ,
                share = r.p.DZ / PMAX * 100, rated = math.abs(r.p.DZ) <= PMAX and "within" or "OVER",
-               warnings = #r.warnings }
+               warnings = #r.warnings, over_rating = 0 }
+  for w = 1, #r.warnings do
+    if r.warning_info[w].kind == "pmax" then sweep[k].over_rating = sweep[k].over_rating + 1 end
+  end
 end
 net:set("VF", FAULT)
 say(("fault voltage sweep (clamp rated %s):"):format(sw.si(PMAX, "W")))

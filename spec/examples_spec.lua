@@ -245,7 +245,7 @@ describe("segwise examples", function()
         assert.is.near(p, row.p_dz, 1e-12)
         local want = math.abs(p) > r.pmax
         assert.are.equal(want and "OVER" or "within", row.rated)
-        assert.are.equal(want and 1 or 0, row.warnings)
+        assert.are.equal(want and 1 or 0, row.over_rating)
         if want then over = over + 1 end
       end
       assert.are.equal(2, over)                        -- 24 V and 36 V (hand estimate: ~1.4 W, ~2.6 W)

@@ -20,6 +20,8 @@ return function(sw, core)
   -- print(op) in a REPL shows the operating-point table
   Op.__tostring = function(op) return require("segwise.report").op_table(op) end
 
+  local function fmt(x) return ("%.6g"):format(x) end
+
   local function name_arg(fname, what, v)
     if type(v) == "number" then return tostring(v) end
     if type(v) ~= "string" or v == "" then
@@ -43,8 +45,8 @@ return function(sw, core)
   local by_string = { __index = function(t, k) if type(k) == "number" then return rawget(t, tostring(k)) end end }
 
   function sw.network()
-    return setmetatable({ _c = core.net_new(), _values = {}, _devices = {}, _kinds = {}, _exact = {} },
-      Network)
+    return setmetatable({ _c = core.net_new(), _values = {}, _devices = {}, _kinds = {}, _exact = {},
+      _ratings = {}, _active = {}, _stated = {} }, Network)
   end
 
   local function add(self, fname, kind, name, nodes, ctrl, value, unit)
@@ -57,9 +59,35 @@ return function(sw, core)
     return self
   end
 
-  function Network:resistor(name, a, b, ohms) return add(self, "network:resistor", "r", name, { a, b }, nil, ohms, "ohms") end
-  function Network:vsource(name, p, m, volts) return add(self, "network:vsource", "v", name, { p, m }, nil, volts, "volts") end
-  function Network:isource(name, from, to, amps) return add(self, "network:isource", "i", name, { from, to }, nil, amps, "amps") end
+  -- Ratings of resistors and sources ({pmax = W}, and {imax = A} on a
+  -- voltage source): an operating point above them gets a caution, as a
+  -- device's pmax does.
+  local RATINGS = {
+    ["network:resistor"] = { pmax = "number" },
+    ["network:vsource"] = { pmax = "number", imax = "number" },
+    ["network:isource"] = { pmax = "number" },
+  }
+  local function rate(self, fname, name, opts)
+    opts = check_opts(fname, opts, RATINGS[fname])
+    for k, v in pairs(opts) do
+      check_number(fname, k, v, 3)
+      if not (v > 0) then error(("segwise.%s: %s (%s) must be positive"):format(fname, k, fmt(v)), 3) end
+    end
+    self._ratings[name_arg(fname, "name", name)] = next(opts) and opts or nil
+  end
+
+  function Network:resistor(name, a, b, ohms, opts)
+    rate(self, "network:resistor", name, opts)
+    return add(self, "network:resistor", "r", name, { a, b }, nil, ohms, "ohms")
+  end
+  function Network:vsource(name, p, m, volts, opts)
+    rate(self, "network:vsource", name, opts)
+    return add(self, "network:vsource", "v", name, { p, m }, nil, volts, "volts")
+  end
+  function Network:isource(name, from, to, amps, opts)
+    rate(self, "network:isource", name, opts)
+    return add(self, "network:isource", "i", name, { from, to }, nil, amps, "amps")
+  end
   function Network:vcvs(name, p, m, cp, cm, gain) return add(self, "network:vcvs", "vcvs", name, { p, m, cp, cm }, nil, gain, "gain") end
   function Network:vccs(name, from, to, cp, cm, gm) return add(self, "network:vccs", "vccs", name, { from, to, cp, cm }, nil, gm, "gm") end
   function Network:ccvs(name, p, m, ctrl, r)
@@ -77,12 +105,17 @@ return function(sw, core)
     if not sw.is_model(model) then
       error(("segwise.network:element: %s: model must be a segwise model (got %s)"):format(name, type(model)), 2)
     end
-    opts = check_opts("network:element", opts, { x = { "v", "i" }, exact = "userdata", pmax = "number" })
+    opts = check_opts("network:element", opts,
+      { x = { "v", "i" }, exact = "userdata", pmax = "number", active = "boolean" })
     if opts.pmax ~= nil then check_number("network:element", "pmax", opts.pmax) end
     call("network:element", self._c.device, self._c, name, a, b, model, opts.x == "i", opts.pmax or 0, opts.exact)
     self._devices[#self._devices + 1] = name
     self._kinds[name] = "element"
     self._exact[name] = opts.exact ~= nil
+    -- active: the device may deliver power (a solar cell), so negative
+    -- absorbed power is no sign of a model artefact
+    self._active[name] = opts.active or nil
+    self._stated[name] = model:fit_info() -- the model's stated error, when it was fitted
     return self
   end
 
@@ -99,7 +132,6 @@ return function(sw, core)
   function Network:free() self._c:free() end
 
   ---------------------------------------------------------------- trace text
-  local function fmt(x) return ("%.6g"):format(x) end
 
   local function seg_text(self, dev, label, xname, unit)
     for _, s in ipairs(self:segments(dev)) do
@@ -219,6 +251,74 @@ return function(sw, core)
     end
   end
 
+  -- A passive device absorbing negative power: its model is not passive
+  -- there (a minimax line through a diode gives a small negative current
+  -- just above 0 V), so the answer is an artefact of the model.
+  local function passivity_caution(self, e, op)
+    local p = op.p[e.name]
+    if self._active[e.name] or p == nil or not (p < 0) then return end
+    local v, i = op.vd[e.name], op.i[e.name]
+    if v == nil or i == nil or v == 0 or i == 0 then return end
+    caution(op, ("%s absorbs negative power (%s W at v = %s V, i = %s A): its model is not "
+      .. "passive there, so this part of the answer is an artefact of the model (refit so the "
+      .. "model passes through 0, or mark a device that delivers power with active = true)"):format(
+      e.name, fmt(p), fmt(v), fmt(i)),
+      { kind = "passivity", element = e.name, group = "devices absorb negative power",
+        worst = -p, detail = ("(%s W)"):format(fmt(p)) })
+  end
+
+  -- The device's y quantity (i for an i(v) model, v for v(i)) is not well
+  -- above the model's stated error: the answer is within the model's noise.
+  local NOISE_FACTOR = 10
+  -- The stated error at y: absolute, or for a relative fit max_rel of
+  -- max(|y|, rel_floor).
+  local function stated_error(fi, y)
+    if fi.error == "rel" then
+      if not fi.max_rel then return nil end
+      return fi.max_rel * math.max(math.abs(y), fi.rel_floor or 0)
+    end
+    return fi.max_abs
+  end
+  local function noise_caution(self, e, op)
+    local fi = self._stated[e.name]
+    local y = e.x == "i" and op.vd[e.name] or op.i[e.name]
+    local err = fi and y ~= nil and stated_error(fi, y)
+    if not err or err <= 0 or math.abs(y) >= NOISE_FACTOR * err then return end
+    local q, unit = e.x == "i" and "v" or "i", e.x == "i" and "V" or "A"
+    caution(op, ("%s operates at %s = %s %s, less than %d times its model's stated error (%s %s): "
+      .. "the answer is within the model's noise there; %s"):format(
+      e.name, q, fmt(y), unit, NOISE_FACTOR, fmt(err), unit,
+      fi.error == "rel" and "a smaller rel_floor keeps values this small accurate"
+        or "refit with error = \"rel\" to keep small values accurate"),
+      { kind = "noise", element = e.name, group = "devices operate within their model's error",
+        worst = err / math.max(math.abs(y), 1e-300),
+        detail = ("(%s = %s %s, error %s %s)"):format(q, fmt(y), unit, fmt(err), unit) })
+  end
+
+  -- Resistors and sources above their own ratings.
+  local function rating_cautions(self, op)
+    local names = {}
+    for name in pairs(self._ratings) do names[#names + 1] = name end
+    table.sort(names)
+    for _, name in ipairs(names) do
+      local r, p, i = self._ratings[name], op.p[name], op.i[name]
+      if r.pmax and p and math.abs(p) > r.pmax then
+        caution(op, ("%s dissipates %s W, above its pmax rating of %s W: check the part's "
+          .. "rating and its derating with temperature"):format(name, fmt(math.abs(p)), fmt(r.pmax)),
+          { kind = "pmax", element = name, group = "elements dissipate above their pmax rating",
+            worst = math.abs(p) / r.pmax,
+            detail = ("(%s W, rated %s W)"):format(fmt(math.abs(p)), fmt(r.pmax)) })
+      end
+      if r.imax and i and math.abs(i) > r.imax then
+        caution(op, ("%s carries %s A, above its current limit imax of %s A"):format(
+          name, fmt(math.abs(i)), fmt(r.imax)),
+          { kind = "imax", element = name, group = "sources carry more than their imax",
+            worst = math.abs(i) / r.imax,
+            detail = ("(%s A, limit %s A)"):format(fmt(math.abs(i)), fmt(r.imax)) })
+      end
+    end
+  end
+
   local function finish_op(self, op, info, elements)
     op = setmetatable(op, Op)
     setmetatable(op.v, by_string)
@@ -233,8 +333,11 @@ return function(sw, core)
       if e.kind == "element" then
         pmax_caution(e, op)
         range_caution(e, op)
+        passivity_caution(self, e, op)
+        noise_caution(self, e, op)
       end
     end
+    rating_cautions(self, op)
     return op
   end
 
