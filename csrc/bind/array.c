@@ -25,7 +25,7 @@ lsw_array *lsw_newarray(lua_State *L, size_t n)
   lsw_array *a = array_push_empty(L);
   sw_err err;
   if (n > ARRAY_MAX)
-    luaL_error(L, "segwise.array: %f elements is more than the limit of %f", (double)n,
+    lsw_fail(L, "array", "%f elements is more than the limit of %f", (double)n,
                (double)ARRAY_MAX); /* lua_pushfstring knows no %zu */
   a->data = sw_alloc(n, sizeof *a->data, &err);
   if (!a->data) {
@@ -40,9 +40,9 @@ static lsw_array *check_array(lua_State *L, int idx, const char *fname)
 {
   lsw_array *a = lsw_toarray(L, idx);
   if (!a)
-    luaL_error(L, "segwise.%s: bad argument #%d (a segwise array expected, got %s)", fname, idx,
+    lsw_fail(L, NULL, "segwise.%s: bad argument #%d (a segwise array expected, got %s)", fname, idx,
                luaL_typename(L, idx));
-  if (a->freed) luaL_error(L, "segwise.%s: array used after free()", fname);
+  if (a->freed) lsw_fail(L, NULL, "segwise.%s: array used after free()", fname);
   return a;
 }
 
@@ -53,11 +53,11 @@ static size_t check_index(lua_State *L, int idx, size_t hi, const char *fname, c
   lua_Integer i = lua_tointegerx(L, idx, &isint);
   if (!isint) {
     if (lua_type(L, idx) == LUA_TNUMBER)
-      luaL_error(L, "segwise.%s: %s %s is not a whole number", fname, what, lua_tostring(L, idx));
-    luaL_error(L, "segwise.%s: %s must be a whole number (got %s)", fname, what, luaL_typename(L, idx));
+      lsw_fail(L, NULL, "segwise.%s: %s %s is not a whole number", fname, what, lua_tostring(L, idx));
+    lsw_fail(L, NULL, "segwise.%s: %s must be a whole number (got %s)", fname, what, luaL_typename(L, idx));
   }
   if (i < 1 || (lua_Unsigned)i > hi)
-    luaL_error(L, "segwise.%s: %s %I out of range 1..%I", fname, what, (lua_Integer)i,
+    lsw_fail(L, NULL, "segwise.%s: %s %I out of range 1..%I", fname, what, (lua_Integer)i,
                (lua_Integer)hi);
   return (size_t)i - 1;
 }
@@ -68,10 +68,10 @@ static int l_array(lua_State *L)
   if (lua_type(L, 1) == LUA_TNUMBER) {
     int isint;
     lua_Integer n = lua_tointegerx(L, 1, &isint);
-    if (!isint) return luaL_error(L, "segwise.array: size %s is not a whole number", lua_tostring(L, 1));
-    if (n < 0) return luaL_error(L, "segwise.array: size %I is negative", (lua_Integer)n);
+    if (!isint) return lsw_fail(L, "array", "size %s is not a whole number", lua_tostring(L, 1));
+    if (n < 0) return lsw_fail(L, "array", "size %I is negative", (lua_Integer)n);
     if ((lua_Unsigned)n > ARRAY_MAX)
-      return luaL_error(L, "segwise.array: size %I is more than the limit of %I", (lua_Integer)n,
+      return lsw_fail(L, "array", "size %I is more than the limit of %I", (lua_Integer)n,
                         (lua_Integer)ARRAY_MAX);
     lsw_newarray(L, (size_t)n);
     return 1;
@@ -80,7 +80,7 @@ static int l_array(lua_State *L)
     lua_Integer len = luaL_len(L, 1), i;
     lsw_array *a;
     if (len < 0 || (lua_Unsigned)len > ARRAY_MAX)
-      return luaL_error(L, "segwise.array: table length %I is out of range", (lua_Integer)len);
+      return lsw_fail(L, "array", "table length %I is out of range", (lua_Integer)len);
     a = lsw_newarray(L, (size_t)len);
     for (i = 1; i <= len; i++) {
       int isnum;
@@ -88,10 +88,10 @@ static int l_array(lua_State *L)
       lua_geti(L, 1, i);
       v = lua_tonumberx(L, -1, &isnum);
       if (!isnum)
-        return luaL_error(L, "segwise.array: element [%I] must be a number (got %s)", (lua_Integer)i,
+        return lsw_fail(L, "array", "element [%I] must be a number (got %s)", (lua_Integer)i,
                           luaL_typename(L, -1));
       if (!isfinite(v))
-        return luaL_error(L, "segwise.array: element [%I] is not finite (%f)", (lua_Integer)i, v);
+        return lsw_fail(L, "array", "element [%I] is not finite (%f)", (lua_Integer)i, v);
       lua_pop(L, 1);
       a->data[i - 1] = v;
     }
@@ -102,7 +102,7 @@ static int l_array(lua_State *L)
     if (src->n) memcpy(a->data, src->data, src->n * sizeof *a->data);
     return 1;
   }
-  return luaL_error(L, "segwise.array: bad argument #1 (a size, a table of numbers or an array expected, got %s)",
+  return lsw_fail(L, "array", "bad argument #1 (a size, a table of numbers or an array expected, got %s)",
                     luaL_typename(L, 1));
 }
 
@@ -111,7 +111,7 @@ static int array_index(lua_State *L)
   lsw_array *a;
   if (lua_type(L, 2) != LUA_TNUMBER) { /* methods by name */
     if (lua_type(L, 2) != LUA_TSTRING)
-      return luaL_error(L, "segwise.array: index must be a whole number (got %s)", luaL_typename(L, 2));
+      return lsw_fail(L, "array", "index must be a whole number (got %s)", luaL_typename(L, 2));
     lua_getmetatable(L, 1);
     lua_getfield(L, -1, "methods");
     lua_pushvalue(L, 2);
@@ -130,14 +130,14 @@ static int array_newindex(lua_State *L)
   int isnum;
   double v;
   if (lua_type(L, 2) != LUA_TNUMBER)
-    return luaL_error(L, "segwise.array: index must be a whole number (got %s)", luaL_typename(L, 2));
+    return lsw_fail(L, "array", "index must be a whole number (got %s)", luaL_typename(L, 2));
   i = check_index(L, 2, a->n, "array", "index");
   v = lua_tonumberx(L, 3, &isnum);
   if (!isnum)
-    return luaL_error(L, "segwise.array: value for [%I] must be a number (got %s)", (lua_Integer)(i + 1),
+    return lsw_fail(L, "array", "value for [%I] must be a number (got %s)", (lua_Integer)(i + 1),
                       luaL_typename(L, 3));
   if (!isfinite(v))
-    return luaL_error(L, "segwise.array: value for [%I] is not finite (%f)", (lua_Integer)(i + 1), v);
+    return lsw_fail(L, "array", "value for [%I] is not finite (%f)", (lua_Integer)(i + 1), v);
   a->data[i] = v;
   return 0;
 }
@@ -168,9 +168,9 @@ static int array_slice(lua_State *L)
   } else {
     int isint;
     lua_Integer jj = lua_tointegerx(L, 3, &isint);
-    if (!isint) return luaL_error(L, "segwise.array:slice: end must be a whole number (got %s)", luaL_typename(L, 3));
+    if (!isint) return lsw_fail(L, "array:slice", "end must be a whole number (got %s)", luaL_typename(L, 3));
     if (jj < (lua_Integer)i || (lua_Unsigned)jj > a->n)
-      return luaL_error(L, "segwise.array:slice: end %I out of range %I..%I", (lua_Integer)jj,
+      return lsw_fail(L, "array:slice", "end %I out of range %I..%I", (lua_Integer)jj,
                         (lua_Integer)i, (lua_Integer)a->n);
     j = (size_t)jj;
   }
@@ -184,7 +184,7 @@ static int array_slice(lua_State *L)
 static int array_release(lua_State *L)
 {
   lsw_array *a = lsw_toarray(L, 1);
-  if (!a) return luaL_error(L, "segwise.array:free: bad argument #1 (a segwise array expected, got %s)",
+  if (!a) return lsw_fail(L, "array:free", "bad argument #1 (a segwise array expected, got %s)",
                             luaL_typename(L, 1));
   free(a->data);
   a->data = NULL;

@@ -51,13 +51,15 @@ typedef struct lsw_callctx {
   lsw_curve *owner; /* marked busy between bind and done */
 } lsw_callctx;
 
-/* Raises a formatted error prefixed with the public name of the running
- * function ("segwise.model:eval: ", "segwise.curve.samples: "), found from
- * the call information; a message that already starts with "segwise." is
- * left as it is. */
-int lsw_error(lua_State *L, const char *fmt, ...);
+/* The one way the binding raises an error: the formatted message under
+ * "segwise.<fname>: ", or, when fname is NULL, under the public name of
+ * the running function found from the call information ("segwise.model:
+ * eval: ", "segwise.curve.samples: ").  A message that already starts with
+ * "segwise." is left as it is.  Formats are lua_pushfstring's (%s %d %I
+ * %f %p %c %%: no %g, no %zu). */
+int lsw_fail(lua_State *L, const char *fname, const char *fmt, ...);
 
-/* Raises err as a Lua error prefixed with "segwise.<fname>: ". */
+/* Raises a core error err through lsw_fail under fname. */
 int lsw_raise(lua_State *L, const char *fname, const sw_err *err);
 
 /* Reads a number sequence (a table or a segwise array) at idx into a

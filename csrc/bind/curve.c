@@ -8,8 +8,8 @@
 lsw_curve *lsw_checkcurve(lua_State *L, int idx)
 {
   lsw_curve *c = luaL_testudata(L, idx, LSW_CURVE_MT);
-  if (!c) lsw_error(L, "argument #%d must be a segwise curve (got %s)", idx, luaL_typename(L, idx));
-  if (c->freed) lsw_error(L, "curve used after free() (argument #%d)", idx);
+  if (!c) lsw_fail(L, NULL, "argument #%d must be a segwise curve (got %s)", idx, luaL_typename(L, idx));
+  if (c->freed) lsw_fail(L, NULL, "curve used after free() (argument #%d)", idx);
   return c;
 }
 
@@ -110,7 +110,7 @@ static int curve_release(lua_State *L)
 static double opt_range(lua_State *L, int idx, double dflt, const char *name)
 {
   if (lua_isnoneornil(L, idx)) return dflt;
-  if (!lua_isnumber(L, idx)) luaL_error(L, "segwise.curve: %s must be a number (got %s)", name, luaL_typename(L, idx));
+  if (!lua_isnumber(L, idx)) lsw_fail(L, "curve", "%s must be a number (got %s)", name, luaL_typename(L, idx));
   return lua_tonumber(L, idx);
 }
 
@@ -134,7 +134,7 @@ static int l_curve_samples(lua_State *L)
   int sort = lua_toboolean(L, 3), dup = lua_toboolean(L, 4);
   sw_err err;
   lsw_curve *c;
-  if (nx != ny) return luaL_error(L, "segwise.curve.samples: xs has %d values but ys has %d", (int)nx, (int)ny);
+  if (nx != ny) return lsw_fail(L, "curve.samples", "xs has %d values but ys has %d", (int)nx, (int)ny);
   c = new_curve(L);
   if (sw_curve_samples(&c->c, x, y, nx, sort, dup, &err)) return lsw_raise(L, "curve.samples", &err);
   return 1;
@@ -257,7 +257,7 @@ static int l_kind(lua_State *L)
 static int l_points(lua_State *L)
 {
   lsw_curve *c = lsw_checkcurve(L, 1);
-  if (c->c.kind != SW_CURVE_SAMPLES) return luaL_error(L, "segwise.curve:points: only sampled curves have points (this is a %s curve)", kind_name(c->c.kind));
+  if (c->c.kind != SW_CURVE_SAMPLES) return lsw_fail(L, "curve:points", "only sampled curves have points (this is a %s curve)", kind_name(c->c.kind));
   lsw_pushdoubles(L, c->c.x, c->c.n);
   lsw_pushdoubles(L, c->c.y, c->c.n);
   return 2;

@@ -19,7 +19,7 @@ static int opt_number(lua_State *L, const char *key, double *v)
   int t = lua_getfield(L, 2, key), has = 0;
   if (t != LUA_TNIL) {
     if (!lua_isnumber(L, -1))
-      luaL_error(L, "segwise.fit: %s must be a number (got %s)", key, luaL_typename(L, -1));
+      lsw_fail(L, "fit", "%s must be a number (got %s)", key, luaL_typename(L, -1));
     *v = lua_tonumber(L, -1);
     has = 1;
   }
@@ -51,7 +51,7 @@ static int name_index(lua_State *L, const char *key, const char *const names[], 
   }
   if (more) luaL_addstring(&b, more);
   luaL_pushresult(&b);
-  return luaL_error(L, "segwise.fit: %s must be one of %s (got %s%s%s)", key, lua_tostring(L, -1),
+  return lsw_fail(L, "fit", "%s must be one of %s (got %s%s%s)", key, lua_tostring(L, -1),
                     s ? "\"" : "", s ? s : luaL_typename(L, -2), s ? "\"" : "");
 }
 
@@ -77,12 +77,12 @@ static void read_through(lua_State *L, sw_fit_opts *o)
   size_t n, i;
   double *buf;
   if (lua_getfield(L, 2, "through") == LUA_TNIL) { lua_pop(L, 1); return; }
-  if (!lua_istable(L, -1)) luaL_error(L, "segwise.fit: through must be a list of {x, y} pairs");
+  if (!lua_istable(L, -1)) lsw_fail(L, "fit", "through must be a list of {x, y} pairs");
   n = (size_t)luaL_len(L, -1);
   lua_pushnil(L); /* a keyed table ({x =, y =}) is not a list: refuse, not ignore */
   while (lua_next(L, -2)) {
     if (!lua_isinteger(L, -2) || lua_tointeger(L, -2) < 1 || (size_t)lua_tointeger(L, -2) > n)
-      luaL_error(L, "segwise.fit: through must be a list of {x, y} pairs (it has the key %s)",
+      lsw_fail(L, "fit", "through must be a list of {x, y} pairs (it has the key %s)",
                  luaL_tolstring(L, -2, NULL));
     lua_pop(L, 1);
   }
@@ -90,11 +90,11 @@ static void read_through(lua_State *L, sw_fit_opts *o)
   for (i = 0; i < n; i++) {
     int k;
     if (lua_geti(L, -2, (lua_Integer)i + 1) != LUA_TTABLE)
-      luaL_error(L, "segwise.fit: through[%d] must be a pair {x, y} of numbers", (int)i + 1);
+      lsw_fail(L, "fit", "through[%d] must be a pair {x, y} of numbers", (int)i + 1);
     for (k = 0; k < 2; k++) {
       lua_geti(L, -1, k + 1);
       if (!lua_isnumber(L, -1))
-        luaL_error(L, "segwise.fit: through[%d] must be a pair {x, y} of numbers", (int)i + 1);
+        lsw_fail(L, "fit", "through[%d] must be a pair {x, y} of numbers", (int)i + 1);
       buf[k * n + i] = lua_tonumber(L, -1);
       lua_pop(L, 1);
     }

@@ -58,7 +58,7 @@ static void hold_ops(lua_State *L, lsw_hold *h, size_t n)
 static lsw_net *check_net(lua_State *L, int idx)
 {
   lsw_net *n = luaL_checkudata(L, idx, LSW_NET_MT);
-  if (n->freed) luaL_error(L, "segwise.network: network used after free()");
+  if (n->freed) lsw_fail(L, "network", "network used after free()");
   return n;
 }
 
@@ -101,7 +101,7 @@ static const char *node_arg(lua_State *L, int idx, const char *what)
     return lua_tostring(L, idx); /* converts in place: numbers name nodes too */
   }
   if (lua_type(L, idx) != LUA_TSTRING)
-    luaL_error(L, "segwise.network: %s must be a node name (string or number, got %s)", what, luaL_typename(L, idx));
+    lsw_fail(L, "network", "%s must be a node name (string or number, got %s)", what, luaL_typename(L, idx));
   return lua_tostring(L, idx);
 }
 
@@ -166,17 +166,17 @@ static void fill_start(lua_State *L, int tidx, const sw_net *net, int *st)
     const char *name;
     size_t el, s;
     lua_Integer label;
-    if (lua_type(L, -2) != LUA_TSTRING) luaL_error(L, "segwise.network:solve: start keys must be device names");
+    if (lua_type(L, -2) != LUA_TSTRING) lsw_fail(L, "network:solve", "start keys must be device names");
     name = lua_tostring(L, -2);
     el = sw_net_find(net, name);
-    if (el == SW_NET_NONE || net->el[el].kind != SW_NET_DEV) luaL_error(L, "segwise.network:solve: start: no device named '%s'", name);
-    if (!lua_isinteger(L, -1)) luaL_error(L, "segwise.network:solve: start.%s must be an integer segment number", name);
+    if (el == SW_NET_NONE || net->el[el].kind != SW_NET_DEV) lsw_fail(L, "network:solve", "start: no device named '%s'", name);
+    if (!lua_isinteger(L, -1)) lsw_fail(L, "network:solve", "start.%s must be an integer segment number", name);
     label = lua_tointeger(L, -1);
     {
       const sw_net_dev *d = &net->dev[net->el[el].dev];
       for (s = 0; s < d->nseg; s++) if (d->seg[s].label == label) break;
       if (s == d->nseg)
-        luaL_error(L, "segwise.network:solve: start.%s = %d is not a segment of its model (segments %d..%d)", name, (int)label, d->seg[0].label, d->seg[d->nseg - 1].label);
+        lsw_fail(L, "network:solve", "start.%s = %d is not a segment of its model (segments %d..%d)", name, (int)label, d->seg[0].label, d->seg[d->nseg - 1].label);
       st[net->el[el].dev] = (int)s;
     }
     lua_pop(L, 1);
@@ -285,7 +285,7 @@ static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_i
   /* each device's curve takes three slots (itself, its function, an error
    * slot): reserve them all before any curve is marked busy */
   if (m > 300000 || !lua_checkstack(L, (int)(3 * m) + 8))
-    luaL_error(L, "segwise.network:solve: %d devices with exact curves are more than one "
+    lsw_fail(L, "network:solve", "%d devices with exact curves are more than one "
                "exact solve can hold", (int)m);
   for (k = 0; k < m; k++) {
     lua_rawgeti(L, top, (lua_Integer)k + 1);
@@ -432,8 +432,8 @@ static size_t sweep_target(lua_State *L, lsw_net *n, int **start)
   const char *name = luaL_checkstring(L, 2);
   size_t el = sw_net_find(&n->net, name);
   *start = NULL;
-  if (el == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: no element named '%s'", name);
-  if (n->net.el[el].kind == SW_NET_DEV) luaL_error(L, "segwise.network:sweep: '%s' is a device; sweep a source, gain or resistor", name);
+  if (el == SW_NET_NONE) lsw_fail(L, "network:sweep", "no element named '%s'", name);
+  if (n->net.el[el].kind == SW_NET_DEV) lsw_fail(L, "network:sweep", "'%s' is a device; sweep a source, gain or resistor", name);
   prepare(L, n, "network:sweep");
   if (!lua_isnoneornil(L, 4)) {
     luaL_checktype(L, 4, LUA_TTABLE);
@@ -480,7 +480,7 @@ static const double *sweep_values(lua_State *L, int idx, size_t *n)
   size_t k;
   if (!a || a->freed) return lsw_checkdoubles(L, idx, "values", n, 0);
   for (k = 0; k < a->n; k++)
-    if (!sw_isfinite(a->data[k])) luaL_error(L, "segwise.network:sweep: values[%d] is not finite (%f)", (int)(k + 1), a->data[k]);
+    if (!sw_isfinite(a->data[k])) lsw_fail(L, "network:sweep", "values[%d] is not finite (%f)", (int)(k + 1), a->data[k]);
   *n = a->n;
   return a->data;
 }
@@ -502,17 +502,17 @@ static void parse_quant(lua_State *L, const sw_net *net, int j, const char *s, s
   size_t f, len = dot ? (size_t)(dot - s) : 0, idx;
   for (f = 0; f < 5; f++) if (dot && strlen(keys[f]) == len && strncmp(s, keys[f], len) == 0) break;
   if (f == 5)
-    luaL_error(L, "segwise.network:sweep: out[%d] = '%s': expected \"i.<element>\", \"vd.<element>\", \"p.<element>\", \"v.<node>\" or \"state.<device>\"", j, s);
+    lsw_fail(L, "network:sweep", "out[%d] = '%s': expected \"i.<element>\", \"vd.<element>\", \"p.<element>\", \"v.<node>\" or \"state.<device>\"", j, s);
   what = dot + 1;
   q->kind = kinds[f];
   if (q->kind == SW_NQ_V) {
     idx = find_node(net, what);
-    if (idx == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': no node named '%s'", j, s, what);
+    if (idx == SW_NET_NONE) lsw_fail(L, "network:sweep", "out[%d] = '%s': no node named '%s'", j, s, what);
   } else {
     idx = sw_net_find(net, what);
-    if (idx == SW_NET_NONE) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': no element named '%s'", j, s, what);
+    if (idx == SW_NET_NONE) lsw_fail(L, "network:sweep", "out[%d] = '%s': no element named '%s'", j, s, what);
     if (q->kind == SW_NQ_STATE) {
-      if (net->el[idx].kind != SW_NET_DEV) luaL_error(L, "segwise.network:sweep: out[%d] = '%s': '%s' is not a PWL device", j, s, what);
+      if (net->el[idx].kind != SW_NET_DEV) lsw_fail(L, "network:sweep", "out[%d] = '%s': '%s' is not a PWL device", j, s, what);
       idx = net->el[idx].dev;
     }
   }
@@ -529,7 +529,7 @@ static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_poin
   int res;
   luaL_checktype(L, outidx, LUA_TTABLE);
   *nq = (size_t)luaL_len(L, outidx);
-  if (*nq == 0) return luaL_error(L, "segwise.network:%s: out must list at least one quantity", fname);
+  if (*nq == 0) return lsw_fail(L, NULL, "segwise.network:%s: out must list at least one quantity", fname);
   *q = lua_newuserdatauv(L, *nq * sizeof **q, 0);
   lua_createtable(L, (int)*nq, (int)*nq + 6);
   res = lua_gettop(L);
@@ -537,7 +537,7 @@ static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_poin
     lsw_array *a;
     lua_geti(L, outidx, (lua_Integer)j + 1);
     if (lua_type(L, -1) != LUA_TSTRING)
-      return luaL_error(L, "segwise.network:%s: out[%d] must be a string (got %s)", fname, (int)j + 1,
+      return lsw_fail(L, NULL, "segwise.network:%s: out[%d] must be a string (got %s)", fname, (int)j + 1,
                         luaL_typename(L, -1));
     parse_quant(L, &n->net, (int)j + 1, lua_tostring(L, -1), &(*q)[j]);
     a = lsw_newarray(L, n_points);
@@ -631,9 +631,9 @@ static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
   a->k = (size_t)luaL_len(L, 2);
   a->tol = lsw_checkdoubles(L, 3, "tol", &nt, 0);
   if (nt != a->k || a->k == 0)
-    luaL_error(L, "segwise.network:montecarlo: %d names but %d tolerances", (int)a->k, (int)nt);
+    lsw_fail(L, "network:montecarlo", "%d names but %d tolerances", (int)a->k, (int)nt);
   if (nr < 1 || nr > 100000000)
-    luaL_error(L, "segwise.network:montecarlo: runs must be in 1..1e8 (got %d)", (int)nr);
+    lsw_fail(L, "network:montecarlo", "runs must be in 1..1e8 (got %d)", (int)nr);
   a->runs = (size_t)nr;
   a->el = lua_newuserdatauv(L, a->k * sizeof *a->el, 0);
   a->gauss = lua_newuserdatauv(L, a->k * sizeof *a->gauss, 0);
@@ -643,7 +643,7 @@ static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
     name = luaL_checkstring(L, -1);
     a->el[q] = sw_net_find(&n->net, name);
     if (a->el[q] == SW_NET_NONE || n->net.el[a->el[q]].kind == SW_NET_DEV)
-      luaL_error(L, "segwise.network:montecarlo: no source, gain or resistor named '%s'", name);
+      lsw_fail(L, "network:montecarlo", "no source, gain or resistor named '%s'", name);
     lua_pop(L, 1);
     lua_geti(L, 4, (lua_Integer)q + 1);
     a->gauss[q] = lua_toboolean(L, -1);
@@ -722,7 +722,7 @@ static int l_segments(lua_State *L)
   const char *name = luaL_checkstring(L, 2);
   size_t el = sw_net_find(&n->net, name), k;
   const sw_net_dev *d;
-  if (el == SW_NET_NONE || n->net.el[el].kind != SW_NET_DEV) return luaL_error(L, "segwise.network: no device named '%s'", name);
+  if (el == SW_NET_NONE || n->net.el[el].kind != SW_NET_DEV) return lsw_fail(L, "network", "no device named '%s'", name);
   d = &n->net.dev[n->net.el[el].dev];
   lua_createtable(L, (int)d->nseg, 0);
   for (k = 0; k < d->nseg; k++) {

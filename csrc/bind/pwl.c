@@ -10,8 +10,8 @@ static const char *const extend_names[] = {"line", "hold", "error", NULL};
 lsw_model *lsw_checkmodel(lua_State *L, int idx)
 {
   lsw_model *m = luaL_testudata(L, idx, LSW_MODEL_MT);
-  if (!m) lsw_error(L, "argument #%d must be a segwise model (got %s)", idx, luaL_typename(L, idx));
-  if (m->freed) lsw_error(L, "model used after free() (argument #%d)", idx);
+  if (!m) lsw_fail(L, NULL, "argument #%d must be a segwise model (got %s)", idx, luaL_typename(L, idx));
+  if (m->freed) lsw_fail(L, NULL, "model used after free() (argument #%d)", idx);
   return m;
 }
 
@@ -46,10 +46,10 @@ static sw_extend check_extend(lua_State *L, int idx)
   const char *s = lua_isnoneornil(L, idx) ? "line" : lua_tostring(L, idx);
   int k;
   if (lua_type(L, idx) != LUA_TSTRING && !lua_isnoneornil(L, idx))
-    lsw_error(L, "the extension rule must be \"line\", \"hold\" or \"error\" (got %s)", luaL_typename(L, idx));
+    lsw_fail(L, NULL, "the extension rule must be \"line\", \"hold\" or \"error\" (got %s)", luaL_typename(L, idx));
   for (k = 0; extend_names[k]; k++)
     if (strcmp(s, extend_names[k]) == 0) return (sw_extend)k;
-  return (sw_extend)lsw_error(L, "the extension rule must be \"line\", \"hold\" or \"error\" (got \"%s\")", s);
+  return (sw_extend)lsw_fail(L, NULL, "the extension rule must be \"line\", \"hold\" or \"error\" (got \"%s\")", s);
 }
 
 /* core.pwl_points(xs, ys, extend) */
@@ -61,7 +61,7 @@ static int l_pwl_points(lua_State *L)
   sw_extend ext = check_extend(L, 3);
   sw_err err;
   lsw_model *m;
-  if (nx != ny) return luaL_error(L, "segwise.pwl: x has %d values but y has %d", (int)nx, (int)ny);
+  if (nx != ny) return lsw_fail(L, "pwl", "x has %d values but y has %d", (int)nx, (int)ny);
   m = lsw_newmodel(L);
   if (sw_pwl_from_points(&m->m, x, y, nx, &err)) return lsw_raise(L, "pwl", &err);
   m->m.extend = ext;
@@ -79,7 +79,7 @@ static int l_pwl_segments(lua_State *L)
   sw_extend ext = check_extend(L, 5);
   sw_err err;
   lsw_model *m;
-  if (n[0] != n[1] || n[0] != n[2] || n[0] != n[3]) return luaL_error(L, "segwise.pwl.segments: field lists differ in length");
+  if (n[0] != n[1] || n[0] != n[2] || n[0] != n[3]) return lsw_fail(L, "pwl.segments", "field lists differ in length");
   m = lsw_newmodel(L);
   if (sw_pwl_from_segments(&m->m, lo, hi, sl, ic, n[0], &err)) return lsw_raise(L, "pwl.segments", &err);
   m->m.extend = ext;
@@ -103,12 +103,12 @@ static int l_eval(lua_State *L)
     double *x, *y;
     if (!lua_isnoneornil(L, 3)) {
       out = lsw_toarray(L, 3);
-      if (!out) return luaL_error(L, "segwise.model:eval: out must be a segwise array (got %s)", luaL_typename(L, 3));
-      if (out->freed) return luaL_error(L, "segwise.model:eval: out used after free()");
+      if (!out) return lsw_fail(L, "model:eval", "out must be a segwise array (got %s)", luaL_typename(L, 3));
+      if (out->freed) return lsw_fail(L, "model:eval", "out used after free()");
     }
     if (in && !in->freed) { /* straight from the array: no copy */
       if (out && out->n < in->n)
-        return luaL_error(L, "segwise.model:eval: out has %d values but x has %d", (int)out->n, (int)in->n);
+        return lsw_fail(L, "model:eval", "out has %d values but x has %d", (int)out->n, (int)in->n);
       if (!out) out = lsw_newarray(L, in->n);
       else lua_pushvalue(L, 3);
       if (sw_pwl_eval_many(&m->m, in->data, out->data, in->n, &err)) return lsw_raise(L, "model:eval", &err);
@@ -116,7 +116,7 @@ static int l_eval(lua_State *L)
     }
     x = lsw_checkdoubles(L, 2, "x", &n, 1);
     if (out) {
-      if (out->n < n) return luaL_error(L, "segwise.model:eval: out has %d values but x has %d", (int)out->n, (int)n);
+      if (out->n < n) return lsw_fail(L, "model:eval", "out has %d values but x has %d", (int)out->n, (int)n);
       if (sw_pwl_eval_many(&m->m, x, out->data, n, &err)) return lsw_raise(L, "model:eval", &err);
       lua_pushvalue(L, 3);
       return 1;
@@ -131,7 +131,7 @@ static int l_eval(lua_State *L)
 static double check_x(lua_State *L, int idx)
 {
   double x = luaL_checknumber(L, idx);
-  if (isnan(x)) luaL_error(L, "bad argument #%d (x is NaN)", idx);
+  if (isnan(x)) lsw_fail(L, NULL, "bad argument #%d (x is NaN)", idx);
   return x;
 }
 
@@ -183,7 +183,7 @@ static size_t check_seg(lua_State *L, lsw_model *m, int idx)
 {
   lua_Integer k = luaL_checkinteger(L, idx);
   if (k < 1 || (lua_Unsigned)k > m->m.nseg)
-    lsw_error(L, "segment index %d is outside 1..%d", (int)k, (int)m->m.nseg);
+    lsw_fail(L, NULL, "segment index %d is outside 1..%d", (int)k, (int)m->m.nseg);
   return (size_t)(k - 1);
 }
 
@@ -272,7 +272,7 @@ static double opt_field(lua_State *L, int idx, const char *key, double dflt)
   if (lua_isnoneornil(L, idx)) return dflt;
   if (lua_getfield(L, idx, key) == LUA_TNIL) { lua_pop(L, 1); return dflt; }
   v = lua_tonumberx(L, -1, &isnum);
-  if (!isnum || !isfinite(v)) lsw_error(L, "option %s must be a finite number", key);
+  if (!isnum || !isfinite(v)) lsw_fail(L, NULL, "option %s must be a finite number", key);
   lua_pop(L, 1);
   return v;
 }
@@ -282,7 +282,7 @@ static void compare_check_keys(lua_State *L)
 {
   static const char *const known[] = {"lo", "hi", "n", "rel_floor", NULL};
   if (lua_isnoneornil(L, 3)) return;
-  if (!lua_istable(L, 3)) lsw_error(L, "options must be a table (got %s)", luaL_typename(L, 3));
+  if (!lua_istable(L, 3)) lsw_fail(L, NULL, "options must be a table (got %s)", luaL_typename(L, 3));
   lua_pushnil(L);
   while (lua_next(L, 3)) {
     int k, ok = 0;
@@ -290,7 +290,7 @@ static void compare_check_keys(lua_State *L)
     for (k = 0; known[k]; k++)
       ok |= lua_type(L, -1) == LUA_TSTRING && strcmp(lua_tostring(L, -1), known[k]) == 0;
     if (!ok)
-      lsw_error(L, "unknown option '%s' (known: lo, hi, n, rel_floor)",
+      lsw_fail(L, NULL, "unknown option '%s' (known: lo, hi, n, rel_floor)",
                 luaL_tolstring(L, -1, NULL));
   }
 }
@@ -328,9 +328,9 @@ static int l_compare(lua_State *L)
   sw_compare out;
   sw_err err;
   int st;
-  if (ref && ref->freed) return lsw_error(L, "model used after free() (argument #2)");
+  if (ref && ref->freed) return lsw_fail(L, NULL, "model used after free() (argument #2)");
   if (!ref && !luaL_testudata(L, 2, LSW_CURVE_MT))
-    return lsw_error(L, "argument #2 must be a segwise curve or model (got %s)",
+    return lsw_fail(L, NULL, "argument #2 must be a segwise curve or model (got %s)",
                      luaL_typename(L, 2));
   if (!ref) c = lsw_checkcurve(L, 2);
   compare_check_keys(L);
@@ -341,7 +341,7 @@ static int l_compare(lua_State *L)
   n = opt_field(L, 3, "n", 2001);
   floor = opt_field(L, 3, "rel_floor", 0);
   if (n < 2 || n > 1e8)
-    return luaL_error(L, "segwise.model:compare: n = %f must be between 2 and 1e8", n);
+    return lsw_fail(L, "model:compare", "n = %f must be between 2 and 1e8", n);
   lua_settop(L, 3);
   if (ref) {
     st = sw_pwl_compare_pwl(&m->m, &ref->m, lo, hi, floor, &out, &err);

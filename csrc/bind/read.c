@@ -25,11 +25,11 @@ static void check_column(lua_State *L, int idx, const char *fname, const char *w
     int isint;
     lua_Integer i = lua_tointegerx(L, idx, &isint);
     if (!isint || i < 1)
-      luaL_error(L, "segwise.%s: %s column %s must be a header name or a number from 1", fname, what,
+      lsw_fail(L, NULL, "segwise.%s: %s column %s must be a header name or a number from 1", fname, what,
                  lua_tostring(L, idx));
     col->index = (size_t)i;
   } else {
-    luaL_error(L, "segwise.%s: %s column must be a header name or a number (got %s)", fname, what,
+    lsw_fail(L, NULL, "segwise.%s: %s column must be a header name or a number (got %s)", fname, what,
                luaL_typename(L, idx));
   }
 }
@@ -40,9 +40,9 @@ static double check_scale(lua_State *L, int idx, const char *fname, const char *
   int isnum;
   double v = lua_tonumberx(L, idx, &isnum);
   if (!isnum || lua_type(L, idx) != LUA_TNUMBER)
-    luaL_error(L, "segwise.%s: %s must be a number (got %s)", fname, what, luaL_typename(L, idx));
+    lsw_fail(L, NULL, "segwise.%s: %s must be a number (got %s)", fname, what, luaL_typename(L, idx));
   if (!sw_isfinite(v) || v == 0)
-    luaL_error(L, "segwise.%s: %s must be finite and non-zero (got %f)", fname, what, v);
+    lsw_fail(L, NULL, "segwise.%s: %s must be finite and non-zero (got %f)", fname, what, v);
   return v;
 }
 
@@ -55,16 +55,16 @@ static void check_opts(lua_State *L, int idx, const char *fname, const char *con
   opts->header = -1;
   if (lua_isnoneornil(L, idx)) return;
   if (!lua_istable(L, idx))
-    luaL_error(L, "segwise.%s: options must be a table (got %s)", fname, luaL_typename(L, idx));
+    lsw_fail(L, NULL, "segwise.%s: options must be a table (got %s)", fname, luaL_typename(L, idx));
   lua_pushnil(L);
   while (lua_next(L, idx)) {
     const char *const *a;
     lua_pop(L, 1);
     if (lua_type(L, -1) != LUA_TSTRING)
-      luaL_error(L, "segwise.%s: option keys must be names (got %s)", fname, luaL_typename(L, -1));
+      lsw_fail(L, NULL, "segwise.%s: option keys must be names (got %s)", fname, luaL_typename(L, -1));
     for (a = allowed; *a; a++)
       if (strcmp(*a, lua_tostring(L, -1)) == 0) break;
-    if (!*a) luaL_error(L, "segwise.%s: unknown option '%s'", fname, lua_tostring(L, -1));
+    if (!*a) lsw_fail(L, NULL, "segwise.%s: unknown option '%s'", fname, lua_tostring(L, -1));
   }
   lua_getfield(L, idx, "delimiter");
   if (!lua_isnil(L, -1)) {
@@ -75,7 +75,7 @@ static void check_opts(lua_State *L, int idx, const char *fname, const char *con
       for (j = 0; names[j]; j++)
         if (strcmp(names[j], lua_tostring(L, -1)) == 0) k = j;
     if (k < 0)
-      luaL_error(L, "segwise.%s: delimiter must be \",\", \";\", \"\\t\", \" \" (or comma, semicolon, tab, space)",
+      lsw_fail(L, NULL, "segwise.%s: delimiter must be \",\", \";\", \"\\t\", \" \" (or comma, semicolon, tab, space)",
                  fname);
     opts->delim = chars[k];
   }
@@ -83,7 +83,7 @@ static void check_opts(lua_State *L, int idx, const char *fname, const char *con
   lua_getfield(L, idx, "header");
   if (!lua_isnil(L, -1)) {
     if (!lua_isboolean(L, -1))
-      luaL_error(L, "segwise.%s: header must be true or false (got %s)", fname, luaL_typename(L, -1));
+      lsw_fail(L, NULL, "segwise.%s: header must be true or false (got %s)", fname, luaL_typename(L, -1));
     opts->header = lua_toboolean(L, -1);
   }
   lua_pop(L, 1);
@@ -125,7 +125,7 @@ static int l_read_columns(lua_State *L)
     if (!lua_isnil(L, -1)) {
       int t = lua_gettop(L);
       if (!lua_istable(L, t))
-        luaL_error(L, "segwise.read_columns: scale must be a table {x =, y =} (got %s)", luaL_typename(L, t));
+        lsw_fail(L, "read_columns", "scale must be a table {x =, y =} (got %s)", luaL_typename(L, t));
       lua_getfield(L, t, "x");
       if (!lua_isnil(L, -1)) cols[0].scale = check_scale(L, -1, "read_columns", "scale.x");
       lua_getfield(L, t, "y");
@@ -335,11 +335,11 @@ static int l_save(lua_State *L)
     check_opts(L, 3, "model:save", allowed, &unused);
     lua_getfield(L, 3, "x_unit");
     if (!lua_isnil(L, -1) && lua_type(L, -1) != LUA_TSTRING)
-      luaL_error(L, "segwise.model:save: x_unit must be a string (got %s)", luaL_typename(L, -1));
+      lsw_fail(L, "model:save", "x_unit must be a string (got %s)", luaL_typename(L, -1));
     xu = lua_tostring(L, -1);
     lua_getfield(L, 3, "y_unit");
     if (!lua_isnil(L, -1) && lua_type(L, -1) != LUA_TSTRING)
-      luaL_error(L, "segwise.model:save: y_unit must be a string (got %s)", luaL_typename(L, -1));
+      lsw_fail(L, "model:save", "y_unit must be a string (got %s)", luaL_typename(L, -1));
     yu = lua_tostring(L, -1);
   }
   sw_pwl_prov_init(&prov);

@@ -23,16 +23,13 @@ static const char *owner_of(lua_State *L)
   return "";
 }
 
-int lsw_error(lua_State *L, const char *fmt, ...)
+/* Pushes "segwise.<owner>:<name>: " for the running C function, found
+ * from the call information. */
+static void push_own_prefix(lua_State *L)
 {
   lua_Debug ar;
   const char *name = NULL, *owner;
-  va_list ap;
   int k;
-  va_start(ap, fmt);
-  lua_pushvfstring(L, fmt, ap);
-  va_end(ap);
-  if (strncmp(lua_tostring(L, -1), "segwise.", 8) == 0) return lua_error(L);
   /* Only names from a field or method call are the function's own: a local
    * or global name is the caller's variable. */
   if (lua_getstack(L, 0, &ar) && lua_getinfo(L, "n", &ar) && ar.name &&
@@ -45,6 +42,17 @@ int lsw_error(lua_State *L, const char *fmt, ...)
     lua_pushfstring(L, "segwise.%s%s%s: ", owner, *owner ? ":" : "", name);
   else      /* called without a name (pcall(m.eval, ...)): name the owner */
     lua_pushfstring(L, *owner ? "segwise.%s: " : "segwise: ", owner);
+}
+
+int lsw_fail(lua_State *L, const char *fname, const char *fmt, ...)
+{
+  va_list ap;
+  va_start(ap, fmt);
+  lua_pushvfstring(L, fmt, ap);
+  va_end(ap);
+  if (strncmp(lua_tostring(L, -1), "segwise.", 8) == 0) return lua_error(L);
+  if (fname) lua_pushfstring(L, "segwise.%s: ", fname);
+  else push_own_prefix(L);
   lua_insert(L, -2);
   lua_concat(L, 2);
   return lua_error(L);
@@ -52,12 +60,12 @@ int lsw_error(lua_State *L, const char *fmt, ...)
 
 int lsw_raise(lua_State *L, const char *fname, const sw_err *err)
 {
-  return luaL_error(L, "segwise.%s: %s", fname, err->msg);
+  return lsw_fail(L, fname, "%s", err->msg);
 }
 
 double *lsw_scratch(lua_State *L, size_t n)
 {
-  if (n > ((size_t)-1) / sizeof(double) / 2) lsw_error(L, "%f values is too many", (double)n);
+  if (n > ((size_t)-1) / sizeof(double) / 2) lsw_fail(L, NULL, "%f values is too many", (double)n);
   return (double *)lua_newuserdatauv(L, (n ? n : 1) * sizeof(double), 0);
 }
 
@@ -74,18 +82,18 @@ double *lsw_checkdoubles(lua_State *L, int idx, const char *what, size_t *n, int
   idx = lua_absindex(L, idx);
   a = lsw_toarray(L, idx);
   if (a) {
-    if (a->freed) lsw_error(L, "%s: array used after free()", what);
+    if (a->freed) lsw_fail(L, NULL, "%s: array used after free()", what);
     buf = lsw_scratch(L, a->n);
     for (i = 0; i < a->n; i++) {
       if (!allow_nonfinite && !isfinite(a->data[i]))
-        lsw_error(L, "%s[%d] is not finite (%f)", what, (int)(i + 1), a->data[i]);
+        lsw_fail(L, NULL, "%s[%d] is not finite (%f)", what, (int)(i + 1), a->data[i]);
       buf[i] = a->data[i];
     }
     *n = a->n;
     return buf;
   }
   if (!lua_istable(L, idx))
-    lsw_error(L, "%s must be a table of numbers or a segwise array (got %s)", what, luaL_typename(L, idx));
+    lsw_fail(L, NULL, "%s must be a table of numbers or a segwise array (got %s)", what, luaL_typename(L, idx));
   len = (size_t)luaL_len(L, idx);
   buf = lsw_scratch(L, len);
   for (i = 0; i < len; i++) {
@@ -93,8 +101,8 @@ double *lsw_checkdoubles(lua_State *L, int idx, const char *what, size_t *n, int
     double v;
     lua_geti(L, idx, (lua_Integer)(i + 1));
     v = lua_tonumberx(L, -1, &isnum);
-    if (!isnum) lsw_error(L, "%s[%d] must be a number (got %s)", what, (int)(i + 1), luaL_typename(L, -1));
-    if (!allow_nonfinite && !isfinite(v)) lsw_error(L, "%s[%d] is not finite (%f)", what, (int)(i + 1), v);
+    if (!isnum) lsw_fail(L, NULL, "%s[%d] must be a number (got %s)", what, (int)(i + 1), luaL_typename(L, -1));
+    if (!allow_nonfinite && !isfinite(v)) lsw_fail(L, NULL, "%s[%d] is not finite (%f)", what, (int)(i + 1), v);
     lua_pop(L, 1);
     buf[i] = v;
   }
@@ -114,6 +122,6 @@ void lsw_pushdoubles(lua_State *L, const double *y, size_t n)
 
 int lsw_refuse_busy(lua_State *L, const char *what)
 {
-  return luaL_error(L, "segwise.%s:free: the %s is in use by a computation that is calling back into Lua; free it after that returns",
+  return lsw_fail(L, NULL, "segwise.%s:free: the %s is in use by a computation that is calling back into Lua; free it after that returns",
                     what, what);
 }
