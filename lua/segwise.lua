@@ -107,16 +107,23 @@ function sw.pwl.segments(list, opts)
 end
 
 -- Thevenin-style check that a model has nothing freed behind it.
-sw.is_model = function(v)
-  local mt = getmetatable(v)
-  return type(v) == "userdata" and mt ~= nil and mt.__name == "segwise.Model"
-end
+sw.is_model = util.is_model
 
 ---------------------------------------------------------------- features
--- Each feature module returns install(sw, core) and adds its public names.
+-- Each feature module returns a table of its public names, nested as they
+-- go in sw (read's {curve = {read = f}, pwl = {load = f}, array = a}).
+local function merge(into, names)
+  for k, v in pairs(names) do
+    if type(v) == "table" and getmetatable(v) == nil and type(into[k]) == "table" then
+      merge(into[k], v)
+    else
+      into[k] = v
+    end
+  end
+end
 for _, name in ipairs { "read", "fit", "network" } do
   if package.searchpath("segwise." .. name, package.path) then
-    require("segwise." .. name)(sw, core)
+    merge(sw, require("segwise." .. name))
   end
 end
 

@@ -4,6 +4,7 @@
 -- together belongs to the C core (csrc/core/fit/fit_opts.c), so the core
 -- used without Lua obeys the same rules.  The model keeps how it was made:
 -- m:fit_info().
+local core = require "segwise.core"
 local util = require "segwise.util"
 
 local CRITERIA = { "minimax", "lsq", "interp", "tangent", "chord" }
@@ -20,7 +21,7 @@ local SPEC = {
 -- these into the model file and sw.pwl.load reads them back
 -- (csrc/core/pwl/pwl_prov.c).  The range is the model's span (the fit's
 -- lo and hi are its end knots).
-local function provenance(m, curve, core)
+local function provenance(m, curve)
   local info, xs = m:fit_info(), m:knots()
   info.curve = curve:params()
   info.source = core.curve_sources and core.curve_sources[curve]
@@ -28,14 +29,16 @@ local function provenance(m, curve, core)
   info.made = os.date("!%Y-%m-%dT%H:%M:%SZ")
 end
 
-return function(sw, core)
-  function sw.fit(curve, opts)
-    if getmetatable(curve) == nil or getmetatable(curve).__name ~= "segwise.Curve" then
-      error(("segwise.fit: curve must be a segwise curve (got %s)"):format(util.describe(curve)), 2)
-    end
-    opts = util.check_opts("fit", opts, SPEC)
-    local m = util.call("fit", core.fit, curve, opts)
-    provenance(m, curve, core)
-    return m
+local M = {}
+
+function M.fit(curve, opts)
+  if getmetatable(curve) == nil or getmetatable(curve).__name ~= "segwise.Curve" then
+    error(("segwise.fit: curve must be a segwise curve (got %s)"):format(util.describe(curve)), 2)
   end
+  opts = util.check_opts("fit", opts, SPEC)
+  local m = util.call("fit", core.fit, curve, opts)
+  provenance(m, curve)
+  return m
 end
+
+return M

@@ -78,6 +78,11 @@ function util.check_number(fname, name, v, level)
   return v
 end
 
+function util.is_model(v)
+  local mt = getmetatable(v)
+  return type(v) == "userdata" and mt ~= nil and mt.__name == "segwise.Model"
+end
+
 function util.is_array(v)
   local mt = getmetatable(v)
   return type(v) == "userdata" and mt ~= nil and mt.__name == "segwise.Array"
