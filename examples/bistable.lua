@@ -4,12 +4,7 @@
 -- there are three operating points: the outer two stable, the middle one
 -- not.  Sweeping the source up and then down shows the hysteresis.
 --   lua5.4 examples/bistable.lua
-if not pcall(require, "segwise") then
-  package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
-  package.cpath = "./build/?.so;" .. package.cpath
-end
-local sw = require "segwise"
-local say = (... == "--quiet") and function() end or print
+local sw, say = dofile("examples/preamble.lua") { ... }
 
 local IP, VP = 10e-3, 0.065              -- tunnelling peak: 10 mA at 65 mV
 local IS, VT = 1e-10, 0.03               -- the diode that takes over above ~0.45 V

@@ -1,15 +1,7 @@
 -- Choosing breakpoints: one measured Schottky diode, five ways to place the
 -- knots, one comparison table and two plots (the fits, and their errors).
 --   lua5.4 examples/breakpoints.lua [--quiet [outdir]]   (default out/examples)
-if not pcall(require, "segwise") then
-  package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
-  package.cpath = "./build/?.so;" .. package.cpath
-end
-local sw = require "segwise"
-local quiet, outdir = ...
-local say = (quiet == "--quiet") and function() end or print
-outdir = outdir or "out/examples"
-os.execute(("mkdir -p %q"):format(outdir))
+local sw, say, outdir = dofile("examples/preamble.lua") { ... }
 
 -- i(v), current in mA in the file.
 local diode = sw.curve.read("examples/data/schottky_iv.csv", { x = "V_V", y = "I_mA", scale = { y = 1e-3 } })

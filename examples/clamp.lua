@@ -5,12 +5,7 @@
 -- input.  Shown: the assumed-state trace, the clamp's current and power
 -- against its rating, and a sweep of fault voltages with the exact law.
 --   lua5.4 examples/clamp.lua
-if not pcall(require, "segwise") then
-  package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
-  package.cpath = "./build/?.so;" .. package.cpath
-end
-local sw = require "segwise"
-local say = (... == "--quiet") and function() end or print
+local sw, say = dofile("examples/preamble.lua") { ... }
 
 local N, V1MA = 15, 6.8                  -- exponent; voltage at 1 mA
 local K = 1e-3 / V1MA ^ N                -- i = K * v^N

@@ -7,16 +7,8 @@
 --   3. sweep the supply; tables and SVG plots into a folder named at the end
 --   lua5.4 examples/demo_study.lua [outdir]            (default ./out/demo)
 --   lua5.4 examples/demo_study.lua --quiet [outdir]    (no printing; for specs)
-if not pcall(require, "segwise") then
-  package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
-  package.cpath = "./build/?.so;" .. package.cpath
-end
-local sw = require "segwise"
-local a1, a2 = ...
-local quiet = a1 == "--quiet"
-local outdir = (quiet and a2 or a1) or "out/demo"
-local say = quiet and function() end or print
-os.execute(("mkdir -p %q"):format(outdir))
+local sw, say, outdir = dofile("examples/preamble.lua") { default = "out/demo", ... }
+local quiet = (...) == "--quiet"
 
 local DATA, RL, VNOM = "examples/data/rectifier_iv.csv", 10, 5.0
 local function heading(s) say(("\n%s\n%s"):format(s, ("="):rep(utf8.len(s)))) end

@@ -4,12 +4,7 @@
 -- and tabulate current and power across the bus range, PWL against the
 -- exact law the (invented) data came from.
 --   lua5.4 examples/led_string.lua            (from the repository root)
-if not pcall(require, "segwise") then
-  package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
-  package.cpath = "./build/?.so;" .. package.cpath
-end
-local sw = require "segwise"
-local say = (... == "--quiet") and function() end or print
+local sw, say = dofile("examples/preamble.lua") { ... }
 
 local BUS, NLED, TARGET = 12.0, 3, 0.020         -- volts, LEDs in the string, amps
 local E24 = { 1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0,

@@ -5,15 +5,7 @@
 -- The rows are INVENTED demo data: i = 20 mA * (v/1 V)^0.6 times
 -- (1 + uniform noise of +-0.3 %), LCG seed 41 (see examples/data/generate.lua).
 --   lua5.4 examples/rig_glue.lua [--quiet [outdir]]   (default out/examples)
-if not pcall(require, "segwise") then
-  package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
-  package.cpath = "./build/?.so;" .. package.cpath
-end
-local sw = require "segwise"
-local quiet, outdir = ...
-local say = (quiet == "--quiet") and function() end or print
-outdir = outdir or "out/examples"
-os.execute(("mkdir -p %q"):format(outdir))
+local sw, say, outdir = dofile("examples/preamble.lua") { ... }
 
 -- As the rig holds them: one table per reading.
 local rows = {

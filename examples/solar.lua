@@ -4,12 +4,7 @@
 -- shunt resistance (the usual one-diode picture); both diodes become PWL
 -- models, the photocurrent is swept.  Values are invented but typical.
 --   lua5.4 examples/solar.lua
-if not pcall(require, "segwise") then
-  package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
-  package.cpath = "./build/?.so;" .. package.cpath
-end
-local sw = require "segwise"
-local say = (... == "--quiet") and function() end or print
+local sw, say = dofile("examples/preamble.lua") { ... }
 
 local CELLS, ISC_STC = 36, 5.0           -- cells in series; photocurrent at 1000 W/m^2
 local RSH, RW, VBAT = 150, 0.1, 12.6     -- module shunt (ohm), wiring + battery (ohm), battery EMF (V)

@@ -1,9 +1,7 @@
 -- The README's tour: a diode law, a 4-segment minimax model over the range
 -- where the diode will work, and that model solved in a small circuit.
 -- (Device values are invented for illustration.)
-package.path = "./lua/?.lua;./lua/?/init.lua;" .. package.path
-package.cpath = "./build/?.so;" .. package.cpath
-local sw = require "segwise"
+local sw = dofile("examples/preamble.lua") { "out" }
 
 -- A small-signal silicon diode (invented values): i(v) from 0.6 V to 0.8 V.
 local d = sw.curve.diode { is = 2.5e-9, n = 1.9, rs = 0.6 }
@@ -35,6 +33,5 @@ spec.series[#spec.series + 1] = { x = { 0.6, 0.8 }, y = { (5 - 0.6) / 470, (5 - 
   label = "load line: 5 V through 470 Ω" }
 spec.marks = spec.marks or {}
 spec.marks[#spec.marks + 1] = { x = op.v.a, y = op.i.DIODE, label = "operating point" }
-os.execute("mkdir -p out")
 sw.plot.svg("out/tour.svg", spec)
 print("plot written to out/tour.svg")
