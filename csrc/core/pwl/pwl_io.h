@@ -8,10 +8,6 @@
 #include "pwl/pwl.h"
 #include "pwl/pwl_prov.h"
 
-/* The program version written into model files. */
-#ifndef SW_VERSION
-#define SW_VERSION "0.1.0"
-#endif
 
 /* Longest unit text kept by sw_pwl_load_units (bytes, with the NUL). */
 #define SW_UNIT_MAX 64
