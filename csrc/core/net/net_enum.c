@@ -97,20 +97,78 @@ static int same_point(const sw_net *net, const double *a, const double *b)
   return 1;
 }
 
+/* The operating points found so far: states (m each) and ports (2m each). */
+typedef struct enum_found {
+  int *out;
+  double *pts;
+  size_t count, cap;
+} enum_found;
+
+/* A generous first screen of state by the low-rank inverse: 1 when every
+ * device lands near its assumed segment (the fresh solve decides). */
+static int screen(const sw_net *net, const int *state, enum_ws *ws)
+{
+  size_t m = net->ndev, r, c, k;
+  for (r = 0; r < m; r++) {
+    double acc = 0;
+    for (c = 0; c < m; c++) acc += ws->Minv[r * m + c] * ws->rhs[c];
+    ws->z[r] = acc;
+  }
+  for (k = 0; k < m; k++) {
+    double v = net->vp[k], i = net->ip[k];
+    for (c = 0; c < m; c++) { v += net->Xv[k * m + c] * ws->z[c]; i += net->Xi[k * m + c] * ws->z[c]; }
+    if (fabs(sw_net_excess(&net->dev[k], (size_t)state[k], sw_net_dev_x(&net->dev[k], v, i))) >
+        1e3 * net->dev[k].tol)
+      return 0;
+  }
+  return 1;
+}
+
+/* Solves state afresh (ports into pv) and keeps it when consistent and new. */
+static int record(const sw_net *net, const int *state, double *pv, enum_found *F, sw_err *err)
+{
+  size_t m = net->ndev, k;
+  int rc = sw_net_state_ports(net, state, pv, pv + m, err);
+  if (rc) return rc == SW_ENOMEM ? rc : SW_OK; /* a singular state holds no point */
+  for (k = 0; k < m; k++)
+    if (sw_net_excess(&net->dev[k], (size_t)state[k], sw_net_dev_x(&net->dev[k], pv[k], pv[m + k])) != 0)
+      return SW_OK;
+  for (k = 0; k < F->count; k++) if (same_point(net, F->pts + 2 * m * k, pv)) return SW_OK;
+  if (F->count == F->cap) {
+    size_t nc = F->cap ? 2 * F->cap : 4;
+    int *o2 = sw_realloc(F->out, nc * m, sizeof *o2, err);
+    double *p2;
+    if (!o2) return SW_ENOMEM;
+    F->out = o2;
+    p2 = sw_realloc(F->pts, nc * 2 * m, sizeof *p2, err);
+    if (!p2) return SW_ENOMEM;
+    F->pts = p2;
+    F->cap = nc;
+  }
+  memcpy(F->out + F->count * m, state, m * sizeof *state);
+  memcpy(F->pts + F->count * 2 * m, pv, 2 * m * sizeof *pv);
+  F->count++;
+  return SW_OK;
+}
+
 int sw_net_enumerate(const sw_net *net, double max_states, int **states,
                      size_t *count, size_t *visited, sw_err *err)
 {
-  size_t m = net->ndev, j, na = 0, cap = 0, since = 0;
+  size_t m = net->ndev, j, na = 0, since = 0;
   double total = 1;
-  int *state = NULL, *dir = NULL, *out = NULL, valid, rc = SW_OK;
+  int *state = NULL, *dir = NULL, valid, rc = SW_OK;
   size_t *act = NULL, *focus = NULL;
-  double *pts = NULL, *pv = NULL;
+  double *pv = NULL;
+  enum_found F;
   enum_ws ws;
   *states = NULL; *count = 0; *visited = 0;
   memset(&ws, 0, sizeof ws);
+  memset(&F, 0, sizeof F);
   for (j = 0; j < m; j++) total *= (double)net->dev[j].nseg;
   if (total > max_states)
-    return sw_err_set(err, SW_ERANGE, "enumerate: %.0f combinations of segments exceed max_states = %.0f; use method = \"lcp\" or \"assumed\", or raise max_states", total, max_states);
+    return sw_err_set(err, SW_ERANGE, "enumerate: %.0f combinations of segments exceed "
+                      "max_states = %.0f; use method = \"lcp\" or \"assumed\", or raise "
+                      "max_states", total, max_states);
   if (m == 0) {
     *states = sw_alloc(1, sizeof(int), err);
     if (!*states) return SW_ENOMEM;
@@ -123,73 +181,38 @@ int sw_net_enumerate(const sw_net *net, double max_states, int **states,
   ws.Minv = sw_alloc(m * m, sizeof(double), err); ws.row = sw_alloc(5 * m, sizeof(double), err);
   pv = sw_alloc(2 * m, sizeof(double), err);
   ws.M = gsl_matrix_alloc(m, m); ws.p = gsl_permutation_alloc(m);
-  if (!state || !dir || !act || !focus || !ws.Minv || !ws.row || !pv || !ws.M || !ws.p) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in enumerate"); goto done; }
+  if (!state || !dir || !act || !focus || !ws.Minv || !ws.row || !pv || !ws.M || !ws.p) {
+    rc = sw_err_set(err, SW_ENOMEM, "out of memory in enumerate");
+    goto done;
+  }
   ws.u = ws.row + m; ws.w = ws.u + m; ws.rhs = ws.w + m; ws.z = ws.rhs + m;
   for (j = 0; j < m; j++) if (net->dev[j].nseg > 1) act[na++] = j;
   for (j = 0; j <= na; j++) focus[j] = j;
   for (j = 0; j < na; j++) dir[j] = 1;
   valid = refactor(net, state, &ws);
   for (;;) {
-    size_t a, r, c, k;
-    int ok = 1;
+    size_t a;
+    int olds;
     ++*visited;
-    if (valid) {
-      for (r = 0; r < m; r++) {
-        double acc = 0;
-        for (c = 0; c < m; c++) acc += ws.Minv[r * m + c] * ws.rhs[c];
-        ws.z[r] = acc;
-      }
-      for (k = 0; k < m && ok; k++) {
-        double v = net->vp[k], i = net->ip[k];
-        for (c = 0; c < m; c++) { v += net->Xv[k * m + c] * ws.z[c]; i += net->Xi[k * m + c] * ws.z[c]; }
-        /* generous first screen; the fresh solve below decides */
-        if (fabs(sw_net_excess(&net->dev[k], (size_t)state[k], sw_net_dev_x(&net->dev[k], v, i))) > 1e3 * net->dev[k].tol) ok = 0;
-      }
-      if (ok && (rc = sw_net_state_ports(net, state, pv, pv + m, err)) != SW_OK) {
-        if (rc == SW_ENOMEM) goto done;
-        rc = SW_OK;
-        ok = 0;
-      }
-      if (ok) {
-        for (k = 0; k < m && ok; k++)
-          if (sw_net_excess(&net->dev[k], (size_t)state[k], sw_net_dev_x(&net->dev[k], pv[k], pv[m + k])) != 0) ok = 0;
-        for (k = 0; k < *count && ok; k++) if (same_point(net, pts + 2 * m * k, pv)) ok = 0;
-        if (ok) {
-          if (*count == cap) {
-            size_t nc = cap ? 2 * cap : 4;
-            int *o2 = sw_realloc(out, nc * m, sizeof *o2, err);
-            double *p2;
-            if (!o2) { rc = SW_ENOMEM; goto done; }
-            out = o2;
-            p2 = sw_realloc(pts, nc * 2 * m, sizeof *p2, err);
-            if (!p2) { rc = SW_ENOMEM; goto done; }
-            pts = p2; cap = nc;
-          }
-          memcpy(out + *count * m, state, m * sizeof *state);
-          memcpy(pts + *count * 2 * m, pv, 2 * m * sizeof *pv);
-          ++*count;
-        }
-      }
-    }
+    if (valid && screen(net, state, &ws) && (rc = record(net, state, pv, &F, err))) goto done;
     /* next state in the Gray code */
     a = focus[0]; focus[0] = 0;
     if (a >= na) break;
     j = act[a];
-    {
-      int olds = state[j];
-      state[j] += dir[a];
-      if (state[j] == 0 || (size_t)state[j] == net->dev[j].nseg - 1) {
-        dir[a] = -dir[a]; focus[a] = focus[a + 1]; focus[a + 1] = a + 1;
-      }
-      if (valid && ++since < REFRESH && sm_update(net, j, olds, state[j], &ws)) continue;
-      since = 0;
-      valid = refactor(net, state, &ws);
+    olds = state[j];
+    state[j] += dir[a];
+    if (state[j] == 0 || (size_t)state[j] == net->dev[j].nseg - 1) {
+      dir[a] = -dir[a]; focus[a] = focus[a + 1]; focus[a + 1] = a + 1;
     }
+    if (valid && ++since < REFRESH && sm_update(net, j, olds, state[j], &ws)) continue;
+    since = 0;
+    valid = refactor(net, state, &ws);
   }
 done:
-  if (rc) { free(out); out = NULL; *count = 0; }
-  *states = out;
-  free(state); free(dir); free(act); free(focus); free(ws.Minv); free(ws.row); free(pv); free(pts);
+  if (rc) { free(F.out); F.out = NULL; F.count = 0; }
+  *states = F.out;
+  *count = F.count;
+  free(state); free(dir); free(act); free(focus); free(ws.Minv); free(ws.row); free(pv); free(F.pts);
   gsl_matrix_free(ws.M); gsl_permutation_free(ws.p);
   return rc;
 }
