@@ -149,6 +149,21 @@ static int ring_cut(ring *R, size_t top, double al, double be, double ga, size_t
 /* Lines a + s*(x - x[p]) with a in [alo, ahi] and s in [smin, smax] through
  * the bands of samples p..qmax.  Returns the last index q all of p..q fit,
  * with ws->P their polygon; *ok = 0 when even the samples at x[p] do not. */
+/* Narrows the start values [*alo, *ahi] to the bands of the samples at
+ * x[p] (repeated abscissae); returns the first sample past them. */
+static size_t narrow_start(const fit_data *d, double e, size_t p, size_t qmax, double *alo,
+                           double *ahi)
+{
+  size_t i = p;
+  while (i <= qmax && d->x[i] == d->x[p]) {
+    double l = d->y[i] - e * d->s[i], u = d->y[i] + e * d->s[i];
+    if (l > *alo) *alo = l;
+    if (u < *ahi) *ahi = u;
+    i++;
+  }
+  return i;
+}
+
 size_t fit_tube_run(const fit_data *d, double e, fit_span sp, fit_tube *w, const fit_track *tr,
                     int *ok)
 {
@@ -158,16 +173,9 @@ size_t fit_tube_run(const fit_data *d, double e, fit_span sp, fit_tube *w, const
   fit_stop_fn stop = tr ? tr->stop : NULL;
   void *sctx = tr ? tr->sctx : NULL;
   double X0 = d->x[p], l, u, D, pa[4], ps[4];
-  size_t i = p, last, hu, hl, keep;
+  size_t i = narrow_start(d, e, p, qmax, &alo, &ahi), last, hu, hl, keep;
   ring *R = &w->R;
   *ok = 0;
-  while (i <= qmax && d->x[i] == X0) {
-    l = d->y[i] - e * d->s[i];
-    u = d->y[i] + e * d->s[i];
-    if (l > alo) alo = l;
-    if (u < ahi) ahi = u;
-    i++;
-  }
   if (alo > ahi) {
     if (alo - ahi > 1e-12 * (fabs(alo) + fabs(ahi))) return p;
     alo = ahi = 0.5 * (alo + ahi);
