@@ -205,3 +205,60 @@ describe("stated error", function()
     end)
   end)
 end)
+
+-- Our own equal-error construction for a convex law f with derivative df:
+-- on [a, b] the best line is the chord moved halfway to the parallel
+-- tangent (Chebyshev equioscillation), its error half the chord's gap; the
+-- optimal discontinuous n-segment model gives every segment one level.
+local function best_line_error(f, df, a, b)
+  local s = (f(b) - f(a)) / (b - a)
+  local lo, hi = a, b -- df(xi) = s, df increasing
+  for _ = 1, 200 do
+    local mid = 0.5 * (lo + hi)
+    if df(mid) < s then lo = mid else hi = mid end
+  end
+  local xi = 0.5 * (lo + hi)
+  return 0.5 * math.abs(f(a) + s * (xi - a) - f(xi))
+end
+
+local function equal_error_level(f, df, lo, hi, n)
+  local function covers(level)
+    local a = lo
+    for _ = 1, n do
+      if best_line_error(f, df, a, hi) <= level then return true end
+      local l, r = a, hi
+      for _ = 1, 100 do
+        local mid = 0.5 * (l + r)
+        if best_line_error(f, df, a, mid) <= level then l = mid else r = mid end
+      end
+      a = l
+    end
+    return false
+  end
+  local l, r = 0, best_line_error(f, df, lo, hi)
+  for _ = 1, 60 do
+    local mid = 0.5 * (l + r)
+    if covers(mid) then r = mid else l = mid end
+  end
+  return r
+end
+
+describe("optimal knots (minimax, discontinuous)", function()
+  it("reach the equal-error optimum of e^x on [0, 3] with 4 segments", function()
+    local want = equal_error_level(math.exp, math.exp, 0, 3, 4) -- 0.19027 (issue 11)
+    local m = sw.fit(sw.curve.fn(math.exp, { lo = 0, hi = 3 }),
+      { segments = 4, continuous = false, knots = "optimal" })
+    local got = m:fit_info().max_abs
+    assert.is.near(want, got, 1e-5 * want)
+    assert.is_true(got >= want * (1 - 1e-9)) -- nothing beats the optimum
+  end)
+
+  it("reach it for a diode law on [0.5, 0.9] with 5 segments", function()
+    local d = sw.curve.diode { is = 1e-12, n = 1.8 }
+    local want = equal_error_level(function(x) return d(x) end, function(x) return d:deriv(x) end,
+      0.5, 0.9, 5)
+    local got = sw.fit(d, { lo = 0.5, hi = 0.9, segments = 5, continuous = false }):fit_info()
+    assert.is.near(want, got.max_abs, 1e-5 * want)
+    assert.is_true(got.max_abs >= want * (1 - 1e-9))
+  end)
+end)

@@ -120,6 +120,29 @@ typedef struct fit_job {
   int have_cmp;
 } fit_job;
 
+/* An analytic curve, absolute error, no constraints on the lines. */
+static int plain_law(const fit_job *J)
+{
+  const sw_fit_opts *o = J->o;
+  return J->c->kind != SW_CURVE_SAMPLES && !o->rel && !o->nthrough && !o->has_slope_first &&
+         !o->has_slope_last && !o->monotone;
+}
+
+/* The sign of f'' on [lo, hi] when it keeps one there (1 or -1), else 0
+ * (read at 63 interior points). */
+static int curvature_sign(const fit_job *J, int *st, sw_err *err)
+{
+  int sign = 0, i;
+  for (i = 1; i < 64; i++) {
+    double f2, x = J->o->lo + (J->o->hi - J->o->lo) * (double)i / 64.0;
+    if ((*st = sw_curve_deriv2(J->c, x, &f2, err))) return 0;
+    if (!sw_isfinite(f2) || f2 == 0) continue;
+    if (sign == 0) sign = f2 > 0 ? 1 : -1;
+    else if ((f2 > 0 ? 1 : -1) != sign) return 0;
+  }
+  return sign;
+}
+
 /* Closed form of the best line to a convex or concave law on [lo, hi]: the
  * chord's slope, touching the curve's parallel tangent halfway (Chebyshev
  * equioscillation at lo, the tangent point and hi).  Returns 1 when used. */
@@ -128,19 +151,10 @@ static int one_segment_closed(fit_job *J, sw_pwl *out, int *st, sw_err *err)
   const sw_curve *c = J->c;
   const sw_fit_opts *o = J->o;
   double fa, fb, m, a, b, xi, fx, icpt;
-  int sign = 0, i;
+  int sign, i;
   *st = SW_OK;
-  if (c->kind == SW_CURVE_SAMPLES || o->rel || o->nthrough || o->has_slope_first ||
-      o->has_slope_last || o->monotone)
-    return 0;
-  for (i = 1; i < 64; i++) {
-    double f2, x = o->lo + (o->hi - o->lo) * (double)i / 64.0;
-    if ((*st = sw_curve_deriv2(c, x, &f2, err))) return 1;
-    if (!sw_isfinite(f2) || f2 == 0) continue;
-    if (sign == 0) sign = f2 > 0 ? 1 : -1;
-    else if ((f2 > 0 ? 1 : -1) != sign) return 0;
-  }
-  if (sign == 0) return 0;
+  if (!plain_law(J)) return 0;
+  if ((sign = curvature_sign(J, st, err)) == 0 || *st) return *st != SW_OK;
   if ((*st = sw_curve_eval(c, o->lo, &fa, err)) || (*st = sw_curve_eval(c, o->hi, &fb, err))) return 1;
   m = (fb - fa) / (o->hi - o->lo);
   a = o->lo;
@@ -287,6 +301,152 @@ static int minimax_fixed(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_
   }
 }
 
+/* ---- Equal-error knots: discontinuous minimax on a convex or concave law ----
+ * There each segment's best line is its chord moved halfway to the parallel
+ * tangent, its error half the chord's largest gap, which grows with the
+ * segment.  The optimum of n segments makes every segment reach as far as
+ * the common level allows: a greedy reach per level, and a bisection on the
+ * level until n segments just cover [lo, hi].  Knots move freely, not on
+ * the sample grid. */
+
+#define EQ_LEVEL_STEPS 48
+#define EQ_REACH_STEPS 52
+
+typedef struct eq_job {
+  fit_job *J;
+  sw_pwl one; /* scratch: the chord of one segment */
+  size_t steps;
+} eq_job;
+
+/* The chord of [a, b] into q->one and its largest gap to the curve. */
+static int chord_gap(eq_job *q, double a, double b, sw_compare *cmp, sw_err *err)
+{
+  int st = sw_curve_eval(q->J->c, a, &q->one.ya[0], err);
+  if (st || (st = sw_curve_eval(q->J->c, b, &q->one.yb[0], err))) return st;
+  q->one.x[0] = a;
+  q->one.x[1] = b;
+  if ((st = sw_pwl_finish(&q->one, err))) return st;
+  q->steps++;
+  /* the gap is unimodal: three grid points bracket it, Brent refines */
+  return sw_pwl_compare(&q->one, q->J->c, a, b, 3, 0, cmp, err);
+}
+
+/* The farthest b in (a, hi] whose segment's best line stays within lvl. */
+static int reach(eq_job *q, double a, double lvl, double *b, sw_err *err)
+{
+  double hi = q->J->o->hi, lo = a, top = hi;
+  sw_compare cmp;
+  int st, i;
+  if ((st = chord_gap(q, a, hi, &cmp, err))) return st;
+  if (0.5 * cmp.max_abs <= lvl) { *b = hi; return SW_OK; }
+  for (i = 0; i < EQ_REACH_STEPS; i++) {
+    double mid = 0.5 * (lo + top);
+    if (!(mid > lo && mid < top)) break;
+    if ((st = chord_gap(q, a, mid, &cmp, err))) return st;
+    if (0.5 * cmp.max_abs <= lvl) lo = mid; else top = mid;
+  }
+  *b = lo;
+  return SW_OK;
+}
+
+/* Knots K[0..n] of the greedy at lvl; *ok: they reach hi in n segments. */
+static int cover(eq_job *q, size_t n, double lvl, double *K, int *ok, sw_err *err)
+{
+  size_t j;
+  int st;
+  K[0] = q->J->o->lo;
+  *ok = 0;
+  for (j = 1; j <= n; j++) {
+    if ((st = reach(q, K[j - 1], lvl, &K[j], err))) return st;
+    if (!(K[j] > K[j - 1])) return SW_OK;
+    if (K[j] == q->J->o->hi) { *ok = j == n; return SW_OK; }
+  }
+  return SW_OK;
+}
+
+/* The model of the knots K: each segment's chord moved halfway to its
+ * parallel tangent; *lvl gets the largest half gap. */
+static int eq_model(eq_job *q, const double *K, size_t n, sw_pwl *out, double *lvl, sw_err *err)
+{
+  size_t j;
+  int st = sw_pwl_alloc(out, n, err);
+  *lvl = 0;
+  for (j = 0; !st && j < n; j++) {
+    sw_compare cmp;
+    double f, shift;
+    if ((st = chord_gap(q, K[j], K[j + 1], &cmp, err)) ||
+        (st = sw_curve_eval(q->J->c, cmp.x_abs, &f, err)))
+      break;
+    shift = 0.5 * (f - sw_pwl_line(&q->one, 0, cmp.x_abs));
+    out->x[j] = K[j];
+    out->ya[j] = q->one.ya[0] + shift;
+    out->yb[j] = q->one.yb[0] + shift;
+    if (0.5 * cmp.max_abs > *lvl) *lvl = 0.5 * cmp.max_abs;
+  }
+  if (!st) {
+    out->x[n] = K[n];
+    st = sw_pwl_finish(out, err);
+  }
+  if (st) sw_pwl_free(out);
+  return st;
+}
+
+/* Bisection on the level from [0, e_hi] (e_hi covered): the knots in K. */
+static int level_search(eq_job *q, size_t n, double e_hi, double *K, int *found, sw_err *err)
+{
+  double e_lo = 0, *T = sw_alloc(n + 1, sizeof *T, err);
+  int st, ok, i;
+  *found = 0;
+  if (!T) return SW_ENOMEM;
+  if ((st = cover(q, n, e_hi, K, &ok, err)) || !ok) goto done;
+  for (i = 0; i < EQ_LEVEL_STEPS && e_hi - e_lo > 1e-11 * e_hi; i++) {
+    double mid = i < 4 ? e_hi * (1 - 0.01 * (double)(1 << i)) : 0.5 * (e_lo + e_hi);
+    if ((st = cover(q, n, mid, T, &ok, err))) goto done;
+    if (ok) { e_hi = mid; memcpy(K, T, (n + 1) * sizeof *K); }
+    else e_lo = mid;
+  }
+  *found = 1;
+done:
+  free(T);
+  return st;
+}
+
+/* Replaces out by the equal-error model when that one's rechecked error is
+ * lower.  Only for discontinuous minimax on a convex or concave
+ * law; anything else leaves out as it is. */
+static int equal_error(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
+{
+  eq_job q;
+  sw_pwl alt;
+  sw_compare now, then;
+  double *K, lvl;
+  int st = SW_OK, found;
+  if (J->o->continuous || n < 2 || !plain_law(J)) return SW_OK;
+  if (curvature_sign(J, &st, err) == 0 || st) return st;
+  memset(&q, 0, sizeof q);
+  memset(&alt, 0, sizeof alt);
+  q.J = J;
+  if ((st = fit_recheck(out, J->c, J->o->lo, J->o->hi, COMPARE_GRID, 0, &now, err))) return st;
+  if (!(K = sw_alloc(n + 1, sizeof *K, err))) return SW_ENOMEM;
+  if ((st = sw_pwl_alloc(&q.one, 1, err))) goto done;
+  /* the rechecked error is a level n segments reach: a bracket's top */
+  if ((st = level_search(&q, n, now.max_abs * (1 + 1e-9), K, &found, err)) || !found) goto done;
+  if ((st = eq_model(&q, K, n, &alt, &lvl, err))) goto done;
+  st = fit_recheck(&alt, J->c, J->o->lo, J->o->hi, COMPARE_GRID, 0, &then, err);
+  if (!st && then.max_abs < now.max_abs) {
+    sw_pwl_free(out);
+    *out = alt;
+    J->internal = lvl;
+  } else {
+    sw_pwl_free(&alt);
+  }
+done:
+  J->iters += q.steps;
+  sw_pwl_free(&q.one);
+  free(K);
+  return st;
+}
+
 /* A model with exactly n segments under the chosen scheme and criterion. */
 static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
 {
@@ -327,6 +487,11 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
       } else {
         sw_pwl_free(out);
       }
+    }
+    if (!st && J->d.analytic) { /* knots off the grid, where the optimum is */
+      st = equal_error(J, n, out, err);
+      if (st && absorbable(st)) st = SW_OK;
+      else if (st) sw_pwl_free(out);
     }
     goto done;
   }
