@@ -196,6 +196,68 @@ int sw_pwl_load_units(sw_pwl *m, const char *path, char *xunit, char *yunit,
   return sw_pwl_load_prov(m, path, xunit, yunit, NULL, err);
 }
 
+/* The columns read from a model file (x, y_left, y_right, slope_right)
+ * checked against each other and against the header's segment count. */
+static int check_columns(double *const col[4], const size_t *lines, size_t n, const char *path,
+                         size_t nseg_said, size_t said_line, sw_err *err)
+{
+  size_t k;
+  if (n < 2)
+    return sw_err_set(err, SW_EINVAL, "%s:%zu: a model needs at least 2 knots (found 1)", path,
+                      lines[0]);
+  if (nseg_said && nseg_said != n - 1)
+    return sw_err_set(err, SW_EINVAL, "%s:%zu: the header says %zu segments but the file has "
+                      "%zu knots (%zu segments)", path, said_line, nseg_said, n, n - 1);
+  if (col[1][0] != col[2][0])
+    return sw_err_set(err, SW_EINVAL, "%s:%zu: at the first knot y_left (%.17g) must equal "
+                      "y_right (%.17g)", path, lines[0], col[1][0], col[2][0]);
+  if (col[1][n - 1] != col[2][n - 1])
+    return sw_err_set(err, SW_EINVAL, "%s:%zu: at the last knot y_left (%.17g) must equal "
+                      "y_right (%.17g)", path, lines[n - 1], col[1][n - 1], col[2][n - 1]);
+  for (k = 1; k < n; k++)
+    if (!(col[0][k] > col[0][k - 1]))
+      return sw_err_set(err, SW_EINVAL, "%s:%zu: x must increase (%.17g here after %.17g on "
+                        "line %zu)", path, lines[k], col[0][k], col[0][k - 1], lines[k - 1]);
+  return SW_OK;
+}
+
+/* The saved slopes, taken when they agree with the knots. */
+static int take_slopes(sw_pwl *m, const double *slopes, const size_t *lines, const char *path,
+                       sw_err *err)
+{
+  size_t k;
+  for (k = 0; k < m->nseg; k++) {
+    double dx = m->x[k + 1] - m->x[k], s = slopes[k];
+    double miss = fabs(m->ya[k] + s * dx - m->yb[k]);
+    double size = fabs(m->ya[k]) + fabs(m->yb[k]) + fabs(s * dx);
+    if (!(miss <= 64 * DBL_EPSILON * size))
+      return sw_err_set(err, SW_EINVAL, "%s:%zu: slope_right %.17g does not lead from y_right "
+                        "%.17g to the next knot's y_left %.17g", path, lines[k], s, m->ya[k],
+                        m->yb[k]);
+    m->slope[k] = s;
+  }
+  return SW_OK;
+}
+
+/* The model of the checked columns into m (freed again on failure). */
+static int build_model(sw_pwl *m, double *const col[4], const size_t *lines, size_t n,
+                       sw_extend ext, const char *path, sw_err *err)
+{
+  size_t k;
+  int st = sw_pwl_alloc(m, n - 1, err);
+  if (st) return st;
+  for (k = 0; k < n; k++) m->x[k] = col[0][k];
+  for (k = 0; k + 1 < n; k++) {
+    m->ya[k] = col[2][k];     /* leaving knot k to the right */
+    m->yb[k] = col[1][k + 1]; /* arriving at knot k+1 from the left */
+  }
+  m->extend = ext;
+  if ((st = sw_pwl_finish(m, err))) sw_err_prefix(err, "%s: ", path);
+  else if (col[3]) st = take_slopes(m, col[3], lines, path, err);
+  if (st) sw_pwl_free(m);
+  return st;
+}
+
 int sw_pwl_load_prov(sw_pwl *m, const char *path, char *xunit, char *yunit,
                      sw_pwl_prov *prov, sw_err *err)
 {
@@ -221,65 +283,8 @@ int sw_pwl_load_prov(sw_pwl *m, const char *path, char *xunit, char *yunit,
   st = sw_text_parse(buf, len, path, &opts, cols, 4, col, &lines, &n, err);
   if (!st) st = read_header(buf, path, &ext, xunit, yunit, &nseg_said, &said_line, prov, err);
   free(buf);
-  if (st) goto done;
-
-  if (n < 2) {
-    st = sw_err_set(err, SW_EINVAL, "%s:%zu: a model needs at least 2 knots (found 1)", path, lines[0]);
-    goto done;
-  }
-  if (nseg_said && nseg_said != n - 1) {
-    st = sw_err_set(err, SW_EINVAL, "%s:%zu: the header says %zu segments but the file has %zu knots (%zu segments)",
-                    path, said_line, nseg_said, n, n - 1);
-    goto done;
-  }
-  if (col[1][0] != col[2][0]) {
-    st = sw_err_set(err, SW_EINVAL, "%s:%zu: at the first knot y_left (%.17g) must equal y_right (%.17g)",
-                    path, lines[0], col[1][0], col[2][0]);
-    goto done;
-  }
-  if (col[1][n - 1] != col[2][n - 1]) {
-    st = sw_err_set(err, SW_EINVAL, "%s:%zu: at the last knot y_left (%.17g) must equal y_right (%.17g)",
-                    path, lines[n - 1], col[1][n - 1], col[2][n - 1]);
-    goto done;
-  }
-  for (k = 1; k < n; k++)
-    if (!(col[0][k] > col[0][k - 1])) {
-      st = sw_err_set(err, SW_EINVAL, "%s:%zu: x must increase (%.17g here after %.17g on line %zu)",
-                      path, lines[k], col[0][k], col[0][k - 1], lines[k - 1]);
-      goto done;
-    }
-
-  st = sw_pwl_alloc(m, n - 1, err);
-  if (st) goto done;
-  for (k = 0; k < n; k++) m->x[k] = col[0][k];
-  for (k = 0; k + 1 < n; k++) {
-    m->ya[k] = col[2][k];     /* leaving knot k to the right */
-    m->yb[k] = col[1][k + 1]; /* arriving at knot k+1 from the left */
-  }
-  m->extend = ext;
-  st = sw_pwl_finish(m, err);
-  if (st) {
-    sw_err_prefix(err, "%s: ", path);
-    sw_pwl_free(m);
-    goto done;
-  }
-  if (col[3]) { /* the saved slopes, when they agree with the knots */
-    for (k = 0; k + 1 < n; k++) {
-      double dx = m->x[k + 1] - m->x[k], s = col[3][k];
-      double miss = fabs(m->ya[k] + s * dx - m->yb[k]);
-      double size = fabs(m->ya[k]) + fabs(m->yb[k]) + fabs(s * dx);
-      if (!(miss <= 64 * DBL_EPSILON * size)) {
-        st = sw_err_set(err, SW_EINVAL,
-                        "%s:%zu: slope_right %.17g does not lead from y_right %.17g to the next knot's y_left %.17g",
-                        path, lines[k], s, m->ya[k], m->yb[k]);
-        sw_pwl_free(m);
-        goto done;
-      }
-      m->slope[k] = s;
-    }
-  }
-
-done:
+  if (!st) st = check_columns(col, lines, n, path, nseg_said, said_line, err);
+  if (!st) st = build_model(m, col, lines, n, ext, path, err);
   for (k = 0; k < 4; k++) free(col[k]);
   free(lines);
   return st;
