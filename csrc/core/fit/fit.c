@@ -113,7 +113,7 @@ typedef struct fit_job {
   const sw_curve *c;
   const sw_fit_opts *o;
   fit_data d;
-  fit_cons k;
+  fit_cons cons;       /* slope and direction constraints of the tube methods */
   size_t iters;
   double internal;
   sw_compare cmp;   /* the last recheck, and 1 when it is of the model returned */
@@ -293,7 +293,7 @@ static int minimax_fixed(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_
   for (round = 0;; round++) {
     double peak;
     size_t added;
-    st = fit_minimax_fixed(&J->d, K, n, J->o->continuous, &J->k, out, &J->internal, &J->iters, err);
+    st = fit_minimax_fixed(&J->d, K, n, J->o->continuous, &J->cons, out, &J->internal, &J->iters, err);
     if (st || !J->d.analytic || round == EXCHANGE_ROUNDS) return st;
     if ((st = refine_peaks(J, out, &peak, &added, err))) { sw_pwl_free(out); return st; }
     if (!added || peak <= J->internal * (1 + 1e-6)) return SW_OK;
@@ -458,7 +458,7 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
     sw_pwl alt;
     double e_alt;
     memset(&alt, 0, sizeof alt);
-    if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->k, out, &J->internal, &J->iters, err)))
+    if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->cons, out, &J->internal, &J->iters, err)))
       goto done;
     if (J->d.analytic) { /* exchange steps on the found knots */
       sw_pwl r;
@@ -475,7 +475,7 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
       st = knots_for(J, n, K, err);
       if (!st) st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err);
       /* only a level below the optimal knots' one matters: capped there */
-      if (!st) st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->k, 0, J->internal, 1e-11,
+      if (!st) st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->cons, 0, J->internal, 1e-11,
                                            1, &alt, &e_alt, &J->iters, err);
       if (!st && e_alt == INFINITY) {
         /* the curvature knots cannot reach that level: nothing to compare */
@@ -513,7 +513,7 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
     st = minimax_fixed(J, K, n, out, err);
     break;
   case SW_FIT_LSQ:
-    st = fit_lsq_fixed(&J->d, K, n, o->continuous, &J->k, o->through_x, o->through_y, o->nthrough,
+    st = fit_lsq_fixed(&J->d, K, n, o->continuous, &J->cons, o->through_x, o->through_y, o->nthrough,
                        out, &J->internal, err);
     if (!st) J->internal = fit_data_maxerr(&J->d, out);
     break;
@@ -557,14 +557,14 @@ static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
   int st, tries;
   for (tries = 0; tries < TOL_RETRIES; tries++) {
     if (o->criterion == SW_FIT_MINIMAX) {
-      st = fit_minimax_tol(&J->d, e_int, o->continuous, &J->k, out, err);
+      st = fit_minimax_tol(&J->d, e_int, o->continuous, &J->cons, out, err);
       /* polish: the best lines on the greedy knots (continuous models; the
        * discontinuous greedy already takes each polygon's centroid line) */
       if (!st && o->continuous) {
         sw_pwl p;
         double ep;
         memset(&p, 0, sizeof p);
-        st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, o->continuous, &J->k, 0.5 * e_int,
+        st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, o->continuous, &J->cons, 0.5 * e_int,
                                     e_int, POLISH_RTOL, 0, &p, &ep, &J->iters, err);
         if (!st) {
           if (ep <= e_int) { sw_pwl_free(out); *out = p; }
@@ -718,11 +718,11 @@ int sw_fit(const sw_curve *c, const sw_fit_opts *opts, sw_pwl *out, sw_fit_info 
                     o->lo, o->hi, distinct_x(&J.d));
     goto done;
   }
-  J.k.has_first = o->has_slope_first;
-  J.k.slope_first = o->slope_first;
-  J.k.has_last = o->has_slope_last;
-  J.k.slope_last = o->slope_last;
-  if (o->monotone) J.k.dir = J.d.y[J.d.n - 1] >= J.d.y[0] ? 1 : -1;
+  J.cons.has_first = o->has_slope_first;
+  J.cons.slope_first = o->slope_first;
+  J.cons.has_last = o->has_slope_last;
+  J.cons.slope_last = o->slope_last;
+  if (o->monotone) J.cons.dir = J.d.y[J.d.n - 1] >= J.d.y[0] ? 1 : -1;
   if (o->criterion == SW_FIT_TANGENT) st = fit_tangent(&J, out, err);
   else if (o->tol > 0) st = fit_tol(&J, out, err);
   else st = fit_count(&J, o->knots == SW_KNOTS_LIST ? o->nknot_list - 1 : o->segments, out, err);

@@ -109,7 +109,7 @@ done:
 }
 
 /* Continuous least squares on knots K[0..n]: ordinates c[0..n]. */
-static int lsq_cont(const fit_data *d, const double *K, size_t n, const fit_cons *k,
+static int lsq_cont(const fit_data *d, const double *K, size_t n, const fit_cons *cons,
                     const double *tx, const double *ty, size_t nt, double *c, sw_err *err)
 {
   size_t nc = n + 1, i, m = 0, cap = nt + 2 + n, loops;
@@ -135,8 +135,8 @@ static int lsq_cont(const fit_data *d, const double *K, size_t n, const fit_cons
     double t = (tx[i] - K[j]) / (K[j + 1] - K[j]);
     rows[m++] = (eqrow){j, 1 - t, t, ty[i]};
   }
-  if (k && k->has_first) rows[m++] = (eqrow){0, -1, 1, k->slope_first * (K[1] - K[0])};
-  if (k && k->has_last) rows[m++] = (eqrow){n - 1, -1, 1, k->slope_last * (K[n] - K[n - 1])};
+  if (cons && cons->has_first) rows[m++] = (eqrow){0, -1, 1, cons->slope_first * (K[1] - K[0])};
+  if (cons && cons->has_last) rows[m++] = (eqrow){n - 1, -1, 1, cons->slope_last * (K[n] - K[n - 1])};
   for (loops = 0; loops <= n; loops++) {
     size_t j, added = 0;
     if (m == 0) {
@@ -167,10 +167,10 @@ static int lsq_cont(const fit_data *d, const double *K, size_t n, const fit_cons
     } else if ((st = solve_dense(D, E, r, nc, rows, m, c, err))) {
       goto done;
     }
-    if (!k || k->dir == 0) break;
+    if (!cons || cons->dir == 0) break;
     /* monotone: tie the ordinates of every segment that turned the wrong way */
     for (j = 0; j < n && m < cap; j++)
-      if ((c[j + 1] - c[j]) * k->dir < -1e-12 * (fabs(c[j]) + fabs(c[j + 1]))) {
+      if ((c[j + 1] - c[j]) * cons->dir < -1e-12 * (fabs(c[j]) + fabs(c[j + 1]))) {
         rows[m++] = (eqrow){j, -1, 1, 0};
         added++;
       }
@@ -196,7 +196,7 @@ static double model_sse(const fit_data *d, const sw_pwl *m)
 
 /* Discontinuous: one weighted line per segment, honouring one through
  * point per segment and the end slopes. */
-static int lsq_disc(const fit_data *d, const double *K, size_t n, const fit_cons *k,
+static int lsq_disc(const fit_data *d, const double *K, size_t n, const fit_cons *cons,
                     const double *tx, const double *ty, size_t nt, sw_pwl *out, sw_err *err)
 {
   size_t j, i;
@@ -214,12 +214,12 @@ static int lsq_disc(const fit_data *d, const double *K, size_t n, const fit_cons
         xt = tx[i];
         yt = ty[i];
       }
-    if (k && k->has_first && j == 0) { fixed_slope = 1; beta = k->slope_first; }
-    if (k && k->has_last && j == n - 1) {
-      if (fixed_slope && beta != k->slope_last)
+    if (cons && cons->has_first && j == 0) { fixed_slope = 1; beta = cons->slope_first; }
+    if (cons && cons->has_last && j == n - 1) {
+      if (fixed_slope && beta != cons->slope_last)
         return sw_err_set(err, SW_ENOSOL, "slope_first and slope_last differ on a single segment");
       fixed_slope = 1;
-      beta = k->slope_last;
+      beta = cons->slope_last;
     }
     for (i = a; i < b; i++) {
       double W = weight(d, i), X = d->x[i] - xc;
@@ -253,7 +253,7 @@ static int lsq_disc(const fit_data *d, const double *K, size_t n, const fit_cons
 }
 
 int fit_lsq_fixed(const fit_data *d, const double *knots, size_t nseg, int continuous,
-                  const fit_cons *k, const double *tx, const double *ty, size_t nt,
+                  const fit_cons *cons, const double *tx, const double *ty, size_t nt,
                   sw_pwl *out, double *sse, sw_err *err)
 {
   size_t j;
@@ -263,14 +263,14 @@ int fit_lsq_fixed(const fit_data *d, const double *knots, size_t nseg, int conti
   if (continuous) {
     double *c = sw_alloc(nseg + 1, sizeof *c, err);
     if (!c) { st = SW_ENOMEM; goto done; }
-    st = lsq_cont(d, knots, nseg, k, tx, ty, nt, c, err);
+    st = lsq_cont(d, knots, nseg, cons, tx, ty, nt, c, err);
     for (j = 0; !st && j < nseg; j++) {
       out->ya[j] = c[j];
       out->yb[j] = c[j + 1];
     }
     free(c);
   } else {
-    st = lsq_disc(d, knots, nseg, k, tx, ty, nt, out, err);
+    st = lsq_disc(d, knots, nseg, cons, tx, ty, nt, out, err);
   }
   if (!st) st = sw_pwl_finish(out, err);
   if (!st && sse) *sse = model_sse(d, out);

@@ -6,7 +6,7 @@
 #include "fit/fit_data.h"
 
 int fit_lsq_fixed(const fit_data *d, const double *knots, size_t nseg,
-                  int continuous, const fit_cons *k, const double *tx,
+                  int continuous, const fit_cons *cons, const double *tx,
                   const double *ty, size_t nt, sw_pwl *out, double *sse,
                   sw_err *err);
 int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg,

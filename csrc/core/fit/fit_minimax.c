@@ -167,7 +167,7 @@ static int build_model(const fit_data *d, const rec_list *R, int continuous, sw_
 
 /* Greedy farthest reach at level e.  Returns the segment count (stopping
  * once above maxseg), or SIZE_MAX when the bands cannot be met at all. */
-static size_t greedy(const fit_data *d, double e, int continuous, const fit_cons *k,
+static size_t greedy(const fit_data *d, double e, int continuous, const fit_cons *cons,
                      size_t maxseg, tube_ws *w, rec_list *R, int *st, sw_err *err)
 {
   size_t p = 0, q, m = 0;
@@ -177,7 +177,7 @@ static size_t greedy(const fit_data *d, double e, int continuous, const fit_cons
   for (;;) {
     double smin, smax;
     int ok;
-    fit_slope_bounds(k, m == 0, 0, &smin, &smax);
+    fit_slope_bounds(cons, m == 0, 0, &smin, &smax);
     q = fit_tube_run(d, e, (fit_span){p, d->n - 1, alo, ahi, smin, smax},
                          w, NULL, &ok);
     if (!ok || !(d->x[q] > d->x[p])) return SIZE_MAX;
@@ -230,27 +230,27 @@ static int unreverse_model(sw_pwl *m, sw_err *err)
 }
 
 /* Greedy paths handle a last-segment slope by running on reversed data. */
-static int need_reverse(const fit_cons *k, sw_err *err, int *rev)
+static int need_reverse(const fit_cons *cons, sw_err *err, int *rev)
 {
   *rev = 0;
-  if (!k || !k->has_last) return SW_OK;
-  if (k->has_first)
+  if (!cons || !cons->has_last) return SW_OK;
+  if (cons->has_first)
     return sw_err_set(err, SW_EINVAL, "slope_first and slope_last together are not supported yet "
                       "with knots = 'optimal' or tol; give explicit knots");
   *rev = 1;
   return SW_OK;
 }
 
-static void reversed_cons(const fit_cons *k, fit_cons *r)
+static void reversed_cons(const fit_cons *cons, fit_cons *r)
 {
-  *r = *k;
+  *r = *cons;
   r->has_first = 1;
-  r->slope_first = -k->slope_last;
+  r->slope_first = -cons->slope_last;
   r->has_last = 0;
-  r->dir = -k->dir;
+  r->dir = -cons->dir;
 }
 
-static int tol_direct(const fit_data *d, double e, int continuous, const fit_cons *k,
+static int tol_direct(const fit_data *d, double e, int continuous, const fit_cons *cons,
                       sw_pwl *out, sw_err *err)
 {
   tube_ws w;
@@ -259,7 +259,7 @@ static int tol_direct(const fit_data *d, double e, int continuous, const fit_con
   int st;
   memset(&R, 0, sizeof R);
   if ((st = fit_tube_init(&w, d->n, err))) { fit_tube_clear(&w); return st; }
-  m = greedy(d, e, continuous, k, SIZE_MAX, &w, &R, &st, err);
+  m = greedy(d, e, continuous, cons, SIZE_MAX, &w, &R, &st, err);
   if (!st && m == SIZE_MAX)
     st = sw_err_set(err, SW_ENOSOL, "no model meets the tolerance %g under the constraints "
                     "(through points, slopes, monotone) at the data", e);
@@ -296,10 +296,10 @@ static int convex_data(const fit_data *d)
 
 /* 1 when nothing but the bands binds the model: no through points (zero
  * scales), end slopes or monotone direction. */
-static int unconstrained(const fit_data *d, const fit_cons *k)
+static int unconstrained(const fit_data *d, const fit_cons *cons)
 {
   size_t i;
-  if (k && (k->has_first || k->has_last || k->dir)) return 0;
+  if (cons && (cons->has_first || cons->has_last || cons->dir)) return 0;
   for (i = 0; i < d->n; i++)
     if (!(d->s[i] > 0)) return 0;
   return 1;
@@ -312,16 +312,16 @@ static int unconstrained(const fit_data *d, const fit_cons *k)
  * they agree, or the bound already exceeds maxseg, the count is settled
  * without the reachable-set search: returns 1 with *m (SIZE_MAX: no model
  * at all) and R (when given) holding the continuous greedy's segments. */
-static int greedy_settles(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
+static int greedy_settles(const fit_data *d, double e, const fit_cons *cons, size_t maxseg,
                           tube_ws *w, rec_list *R, size_t *m, int *st, sw_err *err)
 {
   size_t md, mg;
   *st = SW_OK;
-  if (k && k->has_last) return 0;
-  md = greedy(d, e, 0, k, maxseg, w, NULL, st, err);
+  if (cons && cons->has_last) return 0;
+  md = greedy(d, e, 0, cons, maxseg, w, NULL, st, err);
   if (*st) return 1;
   if (md == SIZE_MAX || md > maxseg) { *m = md; return 1; }
-  mg = greedy(d, e, 1, k, maxseg, w, R, st, err);
+  mg = greedy(d, e, 1, cons, maxseg, w, R, st, err);
   if (*st) return 1;
   if (mg != md) return 0;
   *m = mg;
@@ -330,7 +330,7 @@ static int greedy_settles(const fit_data *d, double e, const fit_cons *k, size_t
 
 /* Knots of a continuous greedy pass at level e (end slope ignored), used as
  * extra candidates of the reachable-set search; *xs owned by the caller. */
-static int greedy_candidates(const fit_data *d, double e, const fit_cons *k, tube_ws *w,
+static int greedy_candidates(const fit_data *d, double e, const fit_cons *cons, tube_ws *w,
                              double **xs, size_t *n, sw_err *err)
 {
   rec_list R;
@@ -340,8 +340,8 @@ static int greedy_candidates(const fit_data *d, double e, const fit_cons *k, tub
   memset(&R, 0, sizeof R);
   *xs = NULL;
   *n = 0;
-  if (k) { kk = *k; kk.has_last = 0; }
-  m = greedy(d, e, 1, k ? &kk : NULL, d->n, w, &R, &st, err);
+  if (cons) { kk = *cons; kk.has_last = 0; }
+  m = greedy(d, e, 1, cons ? &kk : NULL, d->n, w, &R, &st, err);
   if (!st && m != SIZE_MAX && R.n) {
     *xs = sw_alloc(R.n + 1, sizeof **xs, err);
     if (!*xs) st = SW_ENOMEM;
@@ -377,7 +377,7 @@ static void subset_take(fit_data *s, const fit_data *d, size_t i)
  * the full search: any model the full data allow is allowed there too, so
  * a level the subset cannot meet within maxseg segments is refuted for the
  * full data, at a fraction of the cost. */
-static int reach_refuted_on_subset(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
+static int reach_refuted_on_subset(const fit_data *d, double e, const fit_cons *cons, size_t maxseg,
                                    const double *extra, size_t nextra, int *refuted, sw_err *err)
 {
   fit_data s;
@@ -397,7 +397,7 @@ static int reach_refuted_on_subset(const fit_data *d, double e, const fit_cons *
     if (s.n == cap) goto done; /* x crowded at the candidates: no shortcut */
     subset_take(&s, d, i);
   }
-  if ((st = fit_reach_among(&s, e, k, maxseg, cx, nc, &m, err))) goto done;
+  if ((st = fit_reach_among(&s, e, cons, maxseg, cx, nc, &m, err))) goto done;
   *refuted = m == SIZE_MAX || m > maxseg;
 done:
   free(cx);
@@ -405,17 +405,17 @@ done:
   return st;
 }
 
-static int reach_with_greedy(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
+static int reach_with_greedy(const fit_data *d, double e, const fit_cons *cons, size_t maxseg,
                              tube_ws *w, size_t *m, double *kx, double *ky, sw_err *err)
 {
   double *xs;
   size_t nx;
-  int st = greedy_candidates(d, e, k, w, &xs, &nx, err), refuted = 0;
+  int st = greedy_candidates(d, e, cons, w, &xs, &nx, err), refuted = 0;
   if (!st && !kx && d->n >= GUESS_MIN) {
-    st = reach_refuted_on_subset(d, e, k, maxseg, xs, nx, &refuted, err);
+    st = reach_refuted_on_subset(d, e, cons, maxseg, xs, nx, &refuted, err);
     if (!st && refuted) *m = SIZE_MAX;
   }
-  if (!st && !refuted) st = fit_reach(d, e, k, maxseg, xs, nx, m, kx, ky, err);
+  if (!st && !refuted) st = fit_reach(d, e, cons, maxseg, xs, nx, m, kx, ky, err);
   free(xs);
   return st;
 }
@@ -435,20 +435,20 @@ static int knots_model(const double *kx, const double *ky, size_t m, sw_pwl *out
   return st;
 }
 
-int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons *k,
+int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons *cons,
                     sw_pwl *out, sw_err *err)
 {
   int rev, st;
   fit_data r;
   fit_cons kr;
-  if (continuous && (!convex_data(d) || (k && k->has_last))) {
+  if (continuous && (!convex_data(d) || (cons && cons->has_last))) {
     double *kx, *ky;
     size_t m = 0;
     tube_ws w;
     rec_list R;
     memset(&R, 0, sizeof R);
     if ((st = fit_tube_init(&w, d->n, err))) { fit_tube_clear(&w); return st; }
-    if (greedy_settles(d, e, k, d->n, &w, &R, &m, &st, err) && (st || m != SIZE_MAX)) {
+    if (greedy_settles(d, e, cons, d->n, &w, &R, &m, &st, err) && (st || m != SIZE_MAX)) {
       if (!st) st = build_model(d, &R, 1, out, err);
       recs_free(&R);
       fit_tube_clear(&w);
@@ -459,7 +459,7 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
     ky = sw_alloc(d->n + 1, sizeof *ky, err);
     st = (!kx || !ky) ? SW_ENOMEM : SW_OK;
     if (!st && m == SIZE_MAX) st = SW_OK; /* even the relaxation failed: straight to the fallbacks */
-    else if (!st) st = reach_with_greedy(d, e, k, d->n, &w, &m, kx, ky, err);
+    else if (!st) st = reach_with_greedy(d, e, cons, d->n, &w, &m, kx, ky, err);
     fit_tube_clear(&w);
     if (!st && m != SIZE_MAX) st = knots_model(kx, ky, m, out, err);
     free(kx);
@@ -468,19 +468,19 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
     /* the reachable sets lost their way (rounding on bands far narrower
      * than the values, or more disjoint pieces than kept): the continuous
      * greedy, then (no constraints) chords between samples still meet e */
-    if (!(k && k->has_last)) {
-      st = tol_direct(d, e, 1, k, out, err);
+    if (!(cons && cons->has_last)) {
+      st = tol_direct(d, e, 1, cons, out, err);
       if (st != SW_ENOSOL) return st;
     }
-    if (!unconstrained(d, k))
+    if (!unconstrained(d, cons))
       return sw_err_set(err, SW_ENOSOL, "no continuous model meets the tolerance %g under the "
                         "constraints (through points, slopes, monotone) at the data", e);
     return fit_interp_tol(d, e, out, err);
   }
-  if ((st = need_reverse(k, err, &rev))) return st;
-  if (!rev) return tol_direct(d, e, continuous, k, out, err);
+  if ((st = need_reverse(cons, err, &rev))) return st;
+  if (!rev) return tol_direct(d, e, continuous, cons, out, err);
   if ((st = reverse_data(d, &r, err))) return st;
-  reversed_cons(k, &kr);
+  reversed_cons(cons, &kr);
   st = tol_direct(&r, e, continuous, &kr, out, err);
   fit_data_free(&r);
   if (!st && (st = unreverse_model(out, err))) sw_pwl_free(out);
@@ -490,13 +490,13 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
 /* Segment count at level e: greedy for discontinuous models and convex
  * data, reachable sets (reach, decided once by the caller: it scans the
  * data) for other continuous ones; knots into kx when given. */
-static int count_at(const fit_data *d, double e, int reach, int continuous, const fit_cons *k,
+static int count_at(const fit_data *d, double e, int reach, int continuous, const fit_cons *cons,
                     size_t maxseg, tube_ws *w, rec_list *R, double *kx, double *ky, size_t *m,
                     sw_err *err)
 {
   int st = SW_OK;
   if (reach) {
-    if (greedy_settles(d, e, k, maxseg, w, kx ? R : NULL, m, &st, err)) {
+    if (greedy_settles(d, e, cons, maxseg, w, kx ? R : NULL, m, &st, err)) {
       if (st) return st;
       if (*m == SIZE_MAX) *m = maxseg + 1;
       else if (kx && *m <= maxseg) {
@@ -506,11 +506,11 @@ static int count_at(const fit_data *d, double e, int reach, int continuous, cons
       }
       return SW_OK;
     }
-    st = reach_with_greedy(d, e, k, maxseg, w, m, kx, ky, err);
+    st = reach_with_greedy(d, e, cons, maxseg, w, m, kx, ky, err);
     if (*m == SIZE_MAX) *m = maxseg + 1;
     return st;
   }
-  *m = greedy(d, e, continuous, k, maxseg, w, kx ? R : NULL, &st, err);
+  *m = greedy(d, e, continuous, cons, maxseg, w, kx ? R : NULL, &st, err);
   if (!st && kx && *m <= maxseg) {
     size_t j;
     for (j = 0; j < R->n; j++) kx[j] = d->x[R->r[j].p];
@@ -528,7 +528,7 @@ static int count_at(const fit_data *d, double e, int reach, int continuous, cons
  * precision rtol, above the infeasible *elo: unless *ehi is known to meet
  * the count it doubles until it does (at most 200 times, while finite;
  * else *found = 0).  *steps gets the bisection's step count. */
-static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fit_cons *k, tube_ws *w,
+static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons, tube_ws *w,
                         double rtol, int known, double *elo, double *ehi, int *found, size_t *steps,
                         sw_err *err)
 {
@@ -537,7 +537,7 @@ static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fi
   *found = 0;
   *steps = 0;
   for (tries = 0; !known && tries < 200 && sw_isfinite(*ehi); tries++) {
-    m = greedy(d, *ehi, continuous, k, nseg, w, NULL, &st, err);
+    m = greedy(d, *ehi, continuous, cons, nseg, w, NULL, &st, err);
     if (st) return st;
     if (m <= nseg) known = 1;
     else { *elo = *ehi; *ehi *= 2; }
@@ -545,7 +545,7 @@ static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fi
   if (!known) return SW_OK;
   for (it = 0; it < FIT_BISECT_STEPS && *ehi - *elo > rtol * *ehi; it++) {
     double mid = fit_mid_level(*elo, *ehi);
-    m = greedy(d, mid, continuous, k, nseg, w, NULL, &st, err);
+    m = greedy(d, mid, continuous, cons, nseg, w, NULL, &st, err);
     if (st) return st;
     if (m <= nseg) *ehi = mid; else *elo = mid;
   }
@@ -554,7 +554,7 @@ static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fi
   return SW_OK;
 }
 
-static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
+static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
                        tube_ws *w, double rtol, double *g, sw_err *err)
 {
   fit_data s;
@@ -568,7 +568,7 @@ static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit
   for (i = 0; i < d->n; i += step) subset_take(&s, d, i);
   if (s.x[s.n - 1] < d->x[d->n - 1]) subset_take(&s, d, d->n - 1);
   ehi = fit_start_level(&s);
-  st = greedy_level(&s, nseg, continuous, k, w, rtol, 0, &elo, &ehi, &found, &it, err);
+  st = greedy_level(&s, nseg, continuous, cons, w, rtol, 0, &elo, &ehi, &found, &it, err);
   if (!st && found) *g = ehi; /* else no guess: the full search decides */
 done:
   free(s.x); free(s.y); free(s.s);
@@ -578,14 +578,14 @@ done:
 /* Brackets the smallest level whose greedy count is at most nseg around
  * the guess g, stepping away from it by 1e-3, 4e-3, ... of g; *known = 1
  * when *ehi has been seen to meet the count ( *elo only ever rises). */
-static int bracket_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
+static int bracket_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
                          tube_ws *w, double g, double *elo, double *ehi, int *known, sw_err *err)
 {
   double step;
   size_t m;
   int st = SW_OK, i;
   *known = 0;
-  m = greedy(d, g, continuous, k, nseg, w, NULL, &st, err);
+  m = greedy(d, g, continuous, cons, nseg, w, NULL, &st, err);
   if (st) return st;
   if (m <= nseg) {
     *ehi = g;
@@ -593,7 +593,7 @@ static int bracket_guess(const fit_data *d, size_t nseg, int continuous, const f
     for (i = 0, step = 1e-3; i < 6; i++, step *= 4) {
       double p = g * (1 - step);
       if (!(p > *elo)) break;
-      m = greedy(d, p, continuous, k, nseg, w, NULL, &st, err);
+      m = greedy(d, p, continuous, cons, nseg, w, NULL, &st, err);
       if (st) return st;
       if (m > nseg) { *elo = p; break; }
       *ehi = p;
@@ -603,7 +603,7 @@ static int bracket_guess(const fit_data *d, size_t nseg, int continuous, const f
   if (g > *elo) *elo = g;
   for (i = 0, step = 1e-3; i < 8; i++, step *= 4) {
     double p = g * (1 + step);
-    m = greedy(d, p, continuous, k, nseg, w, NULL, &st, err);
+    m = greedy(d, p, continuous, cons, nseg, w, NULL, &st, err);
     if (st) return st;
     if (m <= nseg) { *ehi = p; *known = 1; return SW_OK; }
     *elo = p;
@@ -618,13 +618,13 @@ static int bracket_guess(const fit_data *d, size_t nseg, int continuous, const f
  * between the discontinuous optimum (a continuous model is also a
  * discontinuous one) and the continuous greedy's level, then bisect
  * coarsely; the fixed-knot minimax that follows settles the level. */
-static int reach_levels(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
+static int reach_levels(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
                         tube_ws *w, double *elo, double *ehi, double *lower, int *found,
                         size_t *iters, sw_err *err)
 {
   double eg = *ehi, gl = 0, g;
   size_t m, it;
-  int use_greedy = !(k && k->has_last), known, tries, st;
+  int use_greedy = !(cons && cons->has_last), known, tries, st;
   if ((st = level_guess(d, nseg, 0, NULL, w, 1e-5, &g, err))) return st;
   if (g > 0 && (st = bracket_guess(d, nseg, 0, NULL, w, g, elo, ehi, &known, err))) return st;
   /* known = 1: without constraints the start level meets any count */
@@ -635,13 +635,13 @@ static int reach_levels(const fit_data *d, size_t nseg, int continuous, const fi
   gl = *elo;     /* and for the continuous greedy */
   if (use_greedy) {
     int gknown = 0;
-    if ((st = level_guess(d, nseg, 1, k, w, 1e-8, &g, err))) return st;
-    if (g > 0 && (st = bracket_guess(d, nseg, 1, k, w, g, &gl, &eg, &gknown, err))) return st;
-    if ((st = greedy_level(d, nseg, 1, k, w, 1e-6, gknown, &gl, &eg, found, &it, err))) return st;
+    if ((st = level_guess(d, nseg, 1, cons, w, 1e-8, &g, err))) return st;
+    if (g > 0 && (st = bracket_guess(d, nseg, 1, cons, w, g, &gl, &eg, &gknown, err))) return st;
+    if ((st = greedy_level(d, nseg, 1, cons, w, 1e-6, gknown, &gl, &eg, found, &it, err))) return st;
     if (*found) *ehi = eg;
   }
   for (tries = 0; tries < 200; tries++) {
-    if ((st = count_at(d, *ehi, 1, continuous, k, nseg, w, NULL, NULL, NULL, &m, err))) return st;
+    if ((st = count_at(d, *ehi, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err))) return st;
     if (m <= nseg) break;
     *elo = *ehi;
     *ehi *= 1.25;
@@ -651,12 +651,12 @@ static int reach_levels(const fit_data *d, size_t nseg, int continuous, const fi
    * would spend a dozen reachable-set passes all finding no model */
   if (tries < 200 && *ehi * (1 - 0.9e-4) > *elo) {
     double probe = *ehi * (1 - 0.9e-4); /* an infeasible probe ends the bisection */
-    if ((st = count_at(d, probe, 1, continuous, k, nseg, w, NULL, NULL, NULL, &m, err))) return st;
+    if ((st = count_at(d, probe, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err))) return st;
     if (m <= nseg) *ehi = probe; else *elo = probe;
   }
   for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && *ehi - *elo > 1e-4 * *ehi; it++) {
     double mid = fit_mid_level(*elo, *ehi);
-    if ((st = count_at(d, mid, 1, continuous, k, nseg, w, NULL, NULL, NULL, &m, err))) return st;
+    if ((st = count_at(d, mid, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err))) return st;
     if (m <= nseg) *ehi = mid; else *elo = mid;
   }
   *iters += it;
@@ -692,7 +692,7 @@ static int split_to_count(const fit_data *d, const double *kx, size_t m, size_t 
 
 /* Smallest e whose greedy count is at most nseg, by bisection; the knots of
  * that greedy pass (split to exactly nseg) in knots[0..nseg]. */
-static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
+static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
                        double *knots, double *e_lo, double *e_hi, size_t *iters, sw_err *err)
 {
   tube_ws w;
@@ -706,17 +706,17 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   ky = sw_alloc(d->n + 1, sizeof *ky, err);
   if (!kx || !ky) { st = SW_ENOMEM; goto done; }
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
-  reach = continuous && (!convex_data(d) || (k && k->has_last));
+  reach = continuous && (!convex_data(d) || (cons && cons->has_last));
   if (reach) {
-    if ((st = reach_levels(d, nseg, continuous, k, &w, &elo, &ehi, &lower, &found, iters, err)))
+    if ((st = reach_levels(d, nseg, continuous, cons, &w, &elo, &ehi, &lower, &found, iters, err)))
       goto done;
   } else {
     double g;
     int known = 0;
-    if ((st = level_guess(d, nseg, continuous, k, &w, 1e-8, &g, err))) goto done;
-    if (g > 0 && (st = bracket_guess(d, nseg, continuous, k, &w, g, &elo, &ehi, &known, err)))
+    if ((st = level_guess(d, nseg, continuous, cons, &w, 1e-8, &g, err))) goto done;
+    if (g > 0 && (st = bracket_guess(d, nseg, continuous, cons, &w, g, &elo, &ehi, &known, err)))
       goto done;
-    if ((st = greedy_level(d, nseg, continuous, k, &w, 1e-7, known, &elo, &ehi, &found, &it, err)))
+    if ((st = greedy_level(d, nseg, continuous, cons, &w, 1e-7, known, &elo, &ehi, &found, &it, err)))
       goto done;
     *iters += it;
   }
@@ -727,7 +727,7 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   }
   *e_lo = reach ? lower : elo; /* the greedy counts are exact: elo is infeasible for any knots */
   *e_hi = ehi;
-  if ((st = count_at(d, ehi, reach, continuous, k, nseg, &w, &R, kx, ky, &m, err))) goto done;
+  if ((st = count_at(d, ehi, reach, continuous, cons, nseg, &w, &R, kx, ky, &m, err))) goto done;
   if (m > nseg) { st = sw_err_set(err, SW_ENUMERIC, "segment count search did not settle"); goto done; }
   st = split_to_count(d, kx, m, nseg, knots, err);
 done:
@@ -738,20 +738,20 @@ done:
   return st;
 }
 
-int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_cons *k,
+int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
                       sw_pwl *out, double *e_out, size_t *iters, sw_err *err)
 {
   double *knots = sw_alloc(nseg + 1, sizeof(double), err), elo = 0, ehi = 0;
   int st, rev;
   if (!knots) return SW_ENOMEM;
   rev = 0;
-  if (!continuous && (st = need_reverse(k, err, &rev))) goto done;
+  if (!continuous && (st = need_reverse(cons, err, &rev))) goto done;
   if (rev) {
     fit_data r;
     fit_cons kr;
     size_t j;
     if ((st = reverse_data(d, &r, err))) goto done;
-    reversed_cons(k, &kr);
+    reversed_cons(cons, &kr);
     st = count_knots(&r, nseg, continuous, &kr, knots, &elo, &ehi, iters, err);
     fit_data_free(&r);
     if (st) goto done;
@@ -760,12 +760,12 @@ int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_
       knots[j] = -knots[nseg - j];
       knots[nseg - j] = t;
     }
-  } else if ((st = count_knots(d, nseg, continuous, k, knots, &elo, &ehi, iters, err))) {
+  } else if ((st = count_knots(d, nseg, continuous, cons, knots, &elo, &ehi, iters, err))) {
     goto done;
   }
   /* the exact minimax on these knots lies between the count search's
    * bounds: a short bisection to full precision */
-  st = fit_minimax_fixed_from(d, knots, nseg, continuous, k, elo, ehi, 1e-11, 0, out, e_out, iters,
+  st = fit_minimax_fixed_from(d, knots, nseg, continuous, cons, elo, ehi, 1e-11, 0, out, e_out, iters,
                               err);
 done:
   free(knots);
@@ -774,7 +774,7 @@ done:
 
 /* Chained feasibility over fixed knots at level e; records polygons in R. */
 static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi, size_t nseg,
-                 const fit_cons *k, tube_ws *w, rec_list *R, int *feasible, sw_err *err)
+                 const fit_cons *cons, tube_ws *w, rec_list *R, int *feasible, sw_err *err)
 {
   size_t j;
   double alo = -INFINITY, ahi = INFINITY;
@@ -785,7 +785,7 @@ static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi
     double smin, smax;
     int ok;
     size_t q;
-    fit_slope_bounds(k, j == 0, j == nseg - 1, &smin, &smax);
+    fit_slope_bounds(cons, j == 0, j == nseg - 1, &smin, &smax);
     if (smin > smax) return SW_OK;
     q = fit_tube_run(d, e, (fit_span){pi[j], qi[j], alo, ahi, smin, smax},
                          w, NULL, &ok);
@@ -831,15 +831,15 @@ static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, s
 }
 
 int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg, int continuous,
-                      const fit_cons *k, sw_pwl *out, double *e_out, size_t *iters,
+                      const fit_cons *cons, sw_pwl *out, double *e_out, size_t *iters,
                       sw_err *err)
 {
-  return fit_minimax_fixed_from(d, knots, nseg, continuous, k, 0, 0, 1e-11, 0, out, e_out, iters,
+  return fit_minimax_fixed_from(d, knots, nseg, continuous, cons, 0, 0, 1e-11, 0, out, e_out, iters,
                                 err);
 }
 
 int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, int continuous,
-                           const fit_cons *k, double e_lo, double e_hi, double rtol, int capped,
+                           const fit_cons *cons, double e_lo, double e_hi, double rtol, int capped,
                            sw_pwl *out, double *e_out, size_t *iters, sw_err *err)
 {
   size_t *pi = sw_alloc(nseg, sizeof *pi, err), *qi = sw_alloc(nseg, sizeof *qi, err), j;
@@ -862,7 +862,7 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
   *e_out = 0;
   if (continuous) {
-    if ((st = bisect_chain(d, pi, qi, nseg, k, &w, &R, e_lo, e_hi, rtol, capped, e_out, iters, err)))
+    if ((st = bisect_chain(d, pi, qi, nseg, cons, &w, &R, e_lo, e_hi, rtol, capped, e_out, iters, err)))
       goto done;
     if (*e_out == INFINITY) goto done; /* capped: nothing below e_hi */
   } else {
@@ -872,9 +872,9 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
     for (j = 0; j < nseg; j++) {
       double ej;
       int feas = 0;
-      fit_cons kk = k ? *k : (fit_cons){0, 0, 0, 0, 0};
-      kk.has_first = k && k->has_first && j == 0;
-      kk.has_last = k && k->has_last && j == nseg - 1;
+      fit_cons kk = cons ? *cons : (fit_cons){0, 0, 0, 0, 0};
+      kk.has_first = cons && cons->has_first && j == 0;
+      kk.has_last = cons && cons->has_last && j == nseg - 1;
       if (e_lo > 0 && e_hi > 0 &&
           (st = chain(d, e_lo, pi + j, qi + j, 1, &kk, &w, &one, &feas, err)))
         goto done;

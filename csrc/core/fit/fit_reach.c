@@ -159,30 +159,30 @@ static int expand_stop(void *p, size_t i, double lo, double hi)
   return 0;
 }
 
-static int last_bounds(const fit_cons *k, int first, double *smin, double *smax)
+static int last_bounds(const fit_cons *cons, int first, double *smin, double *smax)
 {
   double a, b;
-  fit_slope_bounds(k, first, 1, smin, smax);
-  fit_slope_bounds(k, first, 0, &a, &b);
+  fit_slope_bounds(cons, first, 1, smin, smax);
+  fit_slope_bounds(cons, first, 0, &a, &b);
   return *smin != a || *smax != b;
 }
 
-static int reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, const double *extra,
+static int reach(const fit_data *d, double e, const fit_cons *cons, size_t maxseg, const double *extra,
                  size_t nextra, int own, size_t *count, double *kx, double *ky, sw_err *err);
 
-int fit_reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, const double *extra,
+int fit_reach(const fit_data *d, double e, const fit_cons *cons, size_t maxseg, const double *extra,
               size_t nextra, size_t *count, double *kx, double *ky, sw_err *err)
 {
-  return reach(d, e, k, maxseg, extra, nextra, 1, count, kx, ky, err);
+  return reach(d, e, cons, maxseg, extra, nextra, 1, count, kx, ky, err);
 }
 
-int fit_reach_among(const fit_data *d, double e, const fit_cons *k, size_t maxseg,
+int fit_reach_among(const fit_data *d, double e, const fit_cons *cons, size_t maxseg,
                     const double *cand, size_t ncand, size_t *count, sw_err *err)
 {
-  return reach(d, e, k, maxseg, cand, ncand, 0, count, NULL, NULL, err);
+  return reach(d, e, cons, maxseg, cand, ncand, 0, count, NULL, NULL, err);
 }
 
-static int reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, const double *extra,
+static int reach(const fit_data *d, double e, const fit_cons *cons, size_t maxseg, const double *extra,
                  size_t nextra, int own, size_t *count, double *kx, double *ky, sw_err *err)
 {
   reach_ws r;
@@ -209,13 +209,13 @@ static int reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, 
         int ok, first = P->from == SIZE_MAX;
         if (P->expanded || P->level != level - 1) continue;
         P->expanded = 1;
-        fit_slope_bounds(k, first, 0, &smin, &smax);
+        fit_slope_bounds(cons, first, 0, &smin, &smax);
         ec.j = j;
         ec.t = t;
         q = fit_tube_run(d, e, (fit_span){r.ci[j], d->n - 1, P->lo, P->hi, smin, smax},
                          r.w, &(fit_track){r.rlo, r.rhi, expand_stop, &ec}, &ok);
         if (!ok) continue;
-        if (last_bounds(k, first, &smin, &smax))
+        if (last_bounds(cons, first, &smin, &smax))
           q = fit_tube_run(d, e, (fit_span){r.ci[j], d->n - 1, P->lo, P->hi, smin, smax},
                          r.w, &(fit_track){r.rlo, r.rhi, NULL, NULL}, &ok);
         if (ok && q == d->n - 1 && r.ci[fin] == d->n - 1) {
@@ -238,8 +238,8 @@ static int reach(const fit_data *d, double e, const fit_cons *k, size_t maxseg, 
       piece *Q = r.pc + i * PIECES + P->fromp;
       double smin, smax, a;
       int ok, first = Q->from == SIZE_MAX;
-      if (at == fin) last_bounds(k, first, &smin, &smax);
-      else fit_slope_bounds(k, first, 0, &smin, &smax);
+      if (at == fin) last_bounds(cons, first, &smin, &smax);
+      else fit_slope_bounds(cons, first, 0, &smin, &smax);
       fit_tube_run(d, e, (fit_span){r.ci[i], r.ci[at], Q->lo, Q->hi, smin, smax},
                          r.w, NULL, &ok);
       a = fit_tube_start_for(r.w, d->x[r.ci[at]] - d->x[r.ci[i]], target);

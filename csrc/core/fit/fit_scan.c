@@ -241,16 +241,16 @@ size_t fit_tube_run(const fit_data *d, double e, fit_span sp, fit_tube *w, const
   return last;
 }
 
-void fit_slope_bounds(const fit_cons *k, int first, int lastseg, double *smin, double *smax)
+void fit_slope_bounds(const fit_cons *cons, int first, int lastseg, double *smin, double *smax)
 {
   *smin = -INFINITY;
   *smax = INFINITY;
-  if (k && k->dir > 0) *smin = 0;
-  if (k && k->dir < 0) *smax = 0;
-  if (k && first && k->has_first) *smin = *smax = k->slope_first;
-  if (k && lastseg && k->has_last) {
-    if (first && k->has_first && k->slope_first != k->slope_last) { *smin = 1; *smax = 0; return; }
-    *smin = *smax = k->slope_last;
+  if (cons && cons->dir > 0) *smin = 0;
+  if (cons && cons->dir < 0) *smax = 0;
+  if (cons && first && cons->has_first) *smin = *smax = cons->slope_first;
+  if (cons && lastseg && cons->has_last) {
+    if (first && cons->has_first && cons->slope_first != cons->slope_last) { *smin = 1; *smax = 0; return; }
+    *smin = *smax = cons->slope_last;
   }
 }
 

@@ -53,6 +53,6 @@ typedef struct fit_track {
 size_t fit_tube_run(const fit_data *d, double e, fit_span sp, fit_tube *w, const fit_track *tr,
                     int *ok);
 double fit_tube_start_for(const fit_tube *w, double h, double target);
-void fit_slope_bounds(const fit_cons *k, int first, int lastseg, double *smin, double *smax);
+void fit_slope_bounds(const fit_cons *cons, int first, int lastseg, double *smin, double *smax);
 
 #endif
