@@ -1,7 +1,7 @@
 -- sw.array: contiguous doubles in a userdata (csrc/bind/array.c, csrc/bind/read.c).
 local sw = require "segwise"
 
-local raises = require("spec_files").raises
+local raises = require("helpers.files").raises
 
 describe("segwise.array", function()
   describe("construction", function()

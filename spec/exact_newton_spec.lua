@@ -47,8 +47,8 @@ local function law(x) return sw.curve.diode { is = IS, n = N, vt = VT, x = x } e
 
 -- A fitted model in either orientation: v(i) over [0, imax], i(v) over [0, vmax].
 local function model(x, segments, hi)
-  if x == "i" then return sw.fit(law("i"), { lo = 0, hi = hi or 0.01, segments = segments or 6 }) end
-  return sw.fit(law("v"), { lo = 0, hi = hi or 0.75, segments = segments or 6 })
+  local range = x == "i" and 0.01 or 0.75
+  return sw.fit(law(x), { lo = 0, hi = hi or range, segments = segments or 6 })
 end
 
 -- VS -> RS -> m diodes in series to ground; the devices are D1..Dm.
@@ -174,7 +174,9 @@ describe("segwise.network exact solve is robust", function()
       local net = sw.network()
       net:vsource("VS", "p", "0", E)
       net:resistor("RSRC", "p", "q", 1)
-      for _, d in ipairs { { "BR_A", "q", "top" }, { "BR_B", "0", "top" }, { "BR_C", "bot", "q" }, { "BR_D", "bot", "0" } } do
+      local arms = { { "BR_A", "q", "top" }, { "BR_B", "0", "top" }, { "BR_C", "bot", "q" },
+                     { "BR_D", "bot", "0" } }
+      for _, d in ipairs(arms) do
         net:element(d[1], d[2], d[3], model(x, 2, 0.01), { x = x, exact = law(x) })
       end
       net:resistor("RLOAD", "top", "bot", RL)
@@ -211,13 +213,15 @@ describe("segwise.network exact solve is robust", function()
 
     it("a poor start takes limited steps or the continuation, and says so", function()
       local ex = string_net(5, 3, 10, "v", 2, 0.9):solve { exact = true }
-      assert.is_true(ex.exact_method == "limited" or ex.exact_method == "continuation", ex.exact_method)
+      local m = ex.exact_method
+      assert.is_true(m == "limited" or m == "continuation", m)
       assert.is_true(ex.iterations >= 1)
     end)
 
     it("a Lua-function law that plain steps cannot reach is solved by continuation", function()
       -- the same Shockley law as a Lua function: no junction limit applies
-      local f = sw.curve.fn(function(v) return IS * (math.exp(v / (N * VT)) - 1) end, { lo = -30, hi = 1.5 })
+      local f = sw.curve.fn(function(v) return IS * (math.exp(v / (N * VT)) - 1) end,
+        { lo = -30, hi = 1.5 })
       local net = sw.network()
       net:vsource("VS", "n0", "0", -10)
       net:resistor("RS", "n0", "n1", 10)
@@ -237,7 +241,8 @@ describe("segwise.network exact solve is robust", function()
       local net = sw.network()
       net:vsource("VS", "a", "0", 0)
       net:resistor("RS", "a", "b", 100)
-      net:element("D1", "b", "0", sw.pwl { x = { -1, 0, 1 }, y = { -0.01, 0, 0.01 } }, { exact = f })
+      local m = sw.pwl { x = { -1, 0, 1 }, y = { -0.01, 0, 0.01 } }
+      net:element("D1", "b", "0", m, { exact = f })
       local ok, err = pcall(net.solve, net, { exact = true })
       assert.is_false(ok)
       assert.matches("by continuation", err)

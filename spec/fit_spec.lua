@@ -20,11 +20,7 @@ local CURVES = {
   { name = "sampled data", make = sampled, lo = 0.3, hi = 0.8 },
 }
 
-local function errmsg(f, ...)
-  local ok, msg = pcall(f, ...)
-  assert.is_false(ok)
-  return tostring(msg)
-end
+local errmsg = require("helpers.files").errmsg
 
 describe("segwise.fit", function()
   describe("defaults and the report", function()

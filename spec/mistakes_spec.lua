@@ -1,7 +1,7 @@
 -- Inputs that are almost certainly mistakes are refused with a message that
 -- says why; a legitimate circuit that only looks odd is accepted.
 local sw = require "segwise"
-local raises = require("spec_files").raises
+local raises = require("helpers.files").raises
 
 -- Diode-like samples, i(v) in A (invented for the test).
 local function samples()

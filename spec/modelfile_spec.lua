@@ -2,7 +2,7 @@
 -- round trip, validation on load, and the write-then-rename rule.
 local sw = require "segwise"
 
-local files = require "spec_files"
+local files = require "helpers.files"
 local dir, write = files.tmpdir()
 
 local slurp, raises = files.read_all, files.raises

@@ -1,7 +1,7 @@
 -- Networks: building, every solving method, errors, sweeps, corners and
 -- the safety of models and curves held by a network.
 local sw = require "segwise"
-local H = require "net_helpers"
+local H = require "helpers.net"
 H.assert = assert
 
 -- A diode-like model: off below 0.6 V, 10 ohm above (i in A, v in V).
@@ -380,7 +380,7 @@ describe("segwise.network", function()
     end
 
     -- An operating point rebuilt from the arrays at index k, for the
-    -- Kirchhoff checks of net_helpers.
+    -- Kirchhoff checks of helpers.net.
     local function op_at(net, res, k)
       local op = { v = {}, i = {}, vd = {}, p = {}, state = {} }
       for q, arr in pairs(res) do

@@ -9,7 +9,7 @@ local axis = require "segwise.plot.axis"
 
 local MU = "\u{00B5}"
 
-local files = require "spec_files"
+local files = require "helpers.files"
 local tmpname, read_all = files.tmpname, files.read_all
 
 local function have(cmd)

@@ -3,7 +3,7 @@
 -- m:fit_info() returns them with loaded = true (csrc/core/pwl/pwl_prov.c).
 local sw = require "segwise"
 
-local files = require "spec_files"
+local files = require "helpers.files"
 local dir, write = files.tmpdir()
 local slurp, raises = files.read_all, files.raises
 

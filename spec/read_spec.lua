@@ -3,7 +3,7 @@
 -- writes, a parser independent of the reader under test.
 local sw = require "segwise"
 
-local files = require "spec_files"
+local files = require "helpers.files"
 local dir, write = files.tmpdir()
 
 -- Reads columns x, y of a file straight into two tables (via arrays).

@@ -5,7 +5,7 @@
 -- Shockley diode with series resistance (closed form by Lambert W, here
 -- computed independently by bisection on the implicit equation).
 local sw = require "segwise"
-local H = require "net_helpers"
+local H = require "helpers.net"
 H.assert = assert
 
 -- An N-shaped (tunnel-diode-like) i(v): slopes 0.1, -0.04, 0.09 S with

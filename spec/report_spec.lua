@@ -8,7 +8,7 @@ local MU = "\u{00B5}"
 local OHM = "\u{03A9}"
 local DASH = "\u{2014}"
 
-local files = require "spec_files"
+local files = require "helpers.files"
 local tmpname, read_all = files.tmpname, files.read_all
 
 local function exists(path)

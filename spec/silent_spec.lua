@@ -2,11 +2,7 @@
 -- error naming the option.
 local sw = require "segwise"
 
-local function errmsg(f, ...)
-  local ok, msg = pcall(f, ...)
-  assert.is_false(ok, "expected an error")
-  return tostring(msg)
-end
+local errmsg = require("helpers.files").errmsg
 
 describe("segwise: nothing silently ignored", function()
   local law = sw.curve.diode { is = 1e-14, n = 1, vt = 0.025852 }

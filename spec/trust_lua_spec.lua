@@ -3,7 +3,7 @@
 -- exact curves, option checking, Monte Carlo statistics and tolerances,
 -- labels and trace events, grouped cautions in printed reports.
 local sw = require "segwise"
-local helpers = require "spec_files"
+local helpers = require "helpers.files"
 local raises = helpers.raises
 
 -- A diode-like i(v) model: off below 0.6 V, 20 mA at 0.8 V (invented).

@@ -3,7 +3,7 @@
 -- op.stability on every net:solve result, with a warning when the
 -- returned point is unstable.
 local sw = require "segwise"
-local H = require "net_helpers"
+local H = require "helpers.net"
 H.assert = assert
 
 -- An N-shaped (tunnel-diode-like) i(v), invented: slopes 0.1, -0.04, 0.09 S

@@ -1,4 +1,4 @@
--- Small helpers the specs share: temporary files and directories, reading a
+-- Small helpers the specs share (spec/helpers/): temporary files and directories, reading a
 -- file whole, and asserting an error whose message contains a plain text.
 -- (busted puts its assert in each spec's environment, not in required modules)
 local luassert = require "luassert"
@@ -38,6 +38,13 @@ function M.raises(pattern, f, ...)
   luassert.is_false(ok, "expected an error matching " .. pattern)
   luassert.is_truthy(tostring(err):find(pattern, 1, true), "message was: " .. tostring(err))
   return err
+end
+
+-- The message of the error f(...) raises (asserting that it raises).
+function M.errmsg(f, ...)
+  local ok, msg = pcall(f, ...)
+  luassert.is_false(ok, "expected an error")
+  return tostring(msg)
 end
 
 return M
