@@ -53,8 +53,10 @@ static size_t check_index(lua_State *L, int idx, size_t hi, const char *fname, c
   lua_Integer i = lua_tointegerx(L, idx, &isint);
   if (!isint) {
     if (lua_type(L, idx) == LUA_TNUMBER)
-      lsw_fail(L, NULL, "segwise.%s: %s %s is not a whole number", fname, what, lua_tostring(L, idx));
-    lsw_fail(L, NULL, "segwise.%s: %s must be a whole number (got %s)", fname, what, luaL_typename(L, idx));
+      lsw_fail(L, NULL, "segwise.%s: %s %s is not a whole number", fname, what,
+               lua_tostring(L, idx));
+    lsw_fail(L, NULL, "segwise.%s: %s must be a whole number (got %s)", fname, what,
+             luaL_typename(L, idx));
   }
   if (i < 1 || (lua_Unsigned)i > hi)
     lsw_fail(L, NULL, "segwise.%s: %s %I out of range 1..%I", fname, what, (lua_Integer)i,
@@ -102,8 +104,9 @@ static int l_array(lua_State *L)
     if (src->n) memcpy(a->data, src->data, src->n * sizeof *a->data);
     return 1;
   }
-  return lsw_fail(L, "array", "bad argument #1 (a size, a table of numbers or an array expected, got %s)",
-                    luaL_typename(L, 1));
+  return lsw_fail(L, "array",
+                  "bad argument #1 (a size, a table of numbers or an array expected, got %s)",
+                  luaL_typename(L, 1));
 }
 
 static int array_index(lua_State *L)
@@ -168,7 +171,8 @@ static int array_slice(lua_State *L)
   } else {
     int isint;
     lua_Integer jj = lua_tointegerx(L, 3, &isint);
-    if (!isint) return lsw_fail(L, "array:slice", "end must be a whole number (got %s)", luaL_typename(L, 3));
+    if (!isint)
+      return lsw_fail(L, "array:slice", "end must be a whole number (got %s)", luaL_typename(L, 3));
     if (jj < (lua_Integer)i || (lua_Unsigned)jj > a->n)
       return lsw_fail(L, "array:slice", "end %I out of range %I..%I", (lua_Integer)jj,
                         (lua_Integer)i, (lua_Integer)a->n);

@@ -8,7 +8,8 @@
 lsw_curve *lsw_checkcurve(lua_State *L, int idx)
 {
   lsw_curve *c = luaL_testudata(L, idx, LSW_CURVE_MT);
-  if (!c) lsw_fail(L, NULL, "argument #%d must be a segwise curve (got %s)", idx, luaL_typename(L, idx));
+  if (!c)
+    lsw_fail(L, NULL, "argument #%d must be a segwise curve (got %s)", idx, luaL_typename(L, idx));
   if (c->freed) lsw_fail(L, NULL, "curve used after free() (argument #%d)", idx);
   return c;
 }
@@ -49,7 +50,10 @@ static int trampoline(void *p, double x, double *y)
     ctx->failed = 1;
     if (isnum) lua_pushfstring(L, "segwise.curve.fn: the curve function returned %s at x = %f",
                                isnan(*y) ? "NaN" : *y > 0 ? "inf" : "-inf", x);
-    else lua_pushfstring(L, "segwise.curve.fn: the curve function returned %s (a number expected) at x = %f", luaL_typename(L, -1), x);
+    else
+      lua_pushfstring(
+          L, "segwise.curve.fn: the curve function returned %s (a number expected) at x = %f",
+          luaL_typename(L, -1), x);
     lua_replace(L, ctx->erridx);
     lua_pop(L, 1);
     return 1;
@@ -110,7 +114,8 @@ static int curve_release(lua_State *L)
 static double opt_range(lua_State *L, int idx, double dflt, const char *name)
 {
   if (lua_isnoneornil(L, idx)) return dflt;
-  if (!lua_isnumber(L, idx)) lsw_fail(L, "curve", "%s must be a number (got %s)", name, luaL_typename(L, idx));
+  if (!lua_isnumber(L, idx))
+    lsw_fail(L, "curve", "%s must be a number (got %s)", name, luaL_typename(L, idx));
   return lua_tonumber(L, idx);
 }
 
@@ -134,9 +139,11 @@ static int l_curve_samples(lua_State *L)
   int sort = lua_toboolean(L, 3), dup = lua_toboolean(L, 4);
   sw_err err;
   lsw_curve *c;
-  if (nx != ny) return lsw_fail(L, "curve.samples", "xs has %d values but ys has %d", (int)nx, (int)ny);
+  if (nx != ny)
+    return lsw_fail(L, "curve.samples", "xs has %d values but ys has %d", (int)nx, (int)ny);
   c = new_curve(L);
-  if (sw_curve_samples(&c->c, x, y, nx, sort, dup, &err)) return lsw_raise(L, "curve.samples", &err);
+  if (sw_curve_samples(&c->c, x, y, nx, sort, dup, &err))
+    return lsw_raise(L, "curve.samples", &err);
   return 1;
 }
 
@@ -224,9 +231,21 @@ static int apply_op(lua_State *L, curve_op op, const char *fname)
   }
 }
 
-static int l_eval(lua_State *L) { lsw_checkcurve(L, 1); return apply_op(L, sw_curve_eval, "curve:eval"); }
-static int l_deriv(lua_State *L) { lsw_checkcurve(L, 1); return apply_op(L, sw_curve_deriv, "curve:deriv"); }
-static int l_deriv2(lua_State *L) { lsw_checkcurve(L, 1); return apply_op(L, sw_curve_deriv2, "curve:deriv2"); }
+static int l_eval(lua_State *L)
+{
+  lsw_checkcurve(L, 1);
+  return apply_op(L, sw_curve_eval, "curve:eval");
+}
+static int l_deriv(lua_State *L)
+{
+  lsw_checkcurve(L, 1);
+  return apply_op(L, sw_curve_deriv, "curve:deriv");
+}
+static int l_deriv2(lua_State *L)
+{
+  lsw_checkcurve(L, 1);
+  return apply_op(L, sw_curve_deriv2, "curve:deriv2");
+}
 
 static int l_domain(lua_State *L)
 {
@@ -257,7 +276,9 @@ static int l_kind(lua_State *L)
 static int l_points(lua_State *L)
 {
   lsw_curve *c = lsw_checkcurve(L, 1);
-  if (c->c.kind != SW_CURVE_SAMPLES) return lsw_fail(L, "curve:points", "only sampled curves have points (this is a %s curve)", kind_name(c->c.kind));
+  if (c->c.kind != SW_CURVE_SAMPLES)
+    return lsw_fail(L, "curve:points", "only sampled curves have points (this is a %s curve)",
+                    kind_name(c->c.kind));
   lsw_pushdoubles(L, c->c.x, c->c.n);
   lsw_pushdoubles(L, c->c.y, c->c.n);
   return 2;
@@ -292,8 +313,9 @@ static int l_tostring(lua_State *L)
   else if (c->c.kind == SW_CURVE_SAMPLES)
     lua_pushfstring(L, "segwise curve: %d samples on [%f, %f]", (int)c->c.n, c->c.lo, c->c.hi);
   else if (c->c.kind == SW_CURVE_DIODE)
-    lua_pushfstring(L, "segwise curve: diode %s(%s), is=%f n=%f vt=%f rs=%f", c->c.x_is_i ? "v" : "i",
-                    c->c.x_is_i ? "i" : "v", c->c.is, c->c.ideality, c->c.vt, c->c.rs);
+    lua_pushfstring(L, "segwise curve: diode %s(%s), is=%f n=%f vt=%f rs=%f",
+                    c->c.x_is_i ? "v" : "i", c->c.x_is_i ? "i" : "v", c->c.is, c->c.ideality,
+                    c->c.vt, c->c.rs);
   else if (c->c.kind == SW_CURVE_POWER)
     lua_pushfstring(L, "segwise curve: y = %f*sign(x)*|x|^%f", c->c.k, c->c.p);
   else

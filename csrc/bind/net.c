@@ -101,7 +101,8 @@ static const char *node_arg(lua_State *L, int idx, const char *what)
     return lua_tostring(L, idx); /* converts in place: numbers name nodes too */
   }
   if (lua_type(L, idx) != LUA_TSTRING)
-    lsw_fail(L, "network", "%s must be a node name (string or number, got %s)", what, luaL_typename(L, idx));
+    lsw_fail(L, "network", "%s must be a node name (string or number, got %s)", what,
+             luaL_typename(L, idx));
   return lua_tostring(L, idx);
 }
 
@@ -110,16 +111,19 @@ static int l_add(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
   static const char *const kinds[] = { "r", "v", "i", "vcvs", "vccs", "ccvs", "cccs", NULL };
-  static const sw_net_kind codes[] = { SW_NET_R, SW_NET_V, SW_NET_I, SW_NET_VCVS, SW_NET_VCCS, SW_NET_CCVS, SW_NET_CCCS };
+  static const sw_net_kind codes[] = {SW_NET_R,    SW_NET_V,    SW_NET_I,   SW_NET_VCVS,
+                                      SW_NET_VCCS, SW_NET_CCVS, SW_NET_CCCS};
   int k = luaL_checkoption(L, 2, NULL, kinds);
   const char *name = luaL_checkstring(L, 3), *nodes[4], *ctrl = NULL;
   double value = luaL_checknumber(L, 9);
   sw_err err = { 0, "" };
   int j, nn = (codes[k] == SW_NET_VCVS || codes[k] == SW_NET_VCCS) ? 4 : 2;
-  static const char *const what[] = { "first node", "second node", "first control node", "second control node" };
+  static const char *const what[] = {"first node", "second node", "first control node",
+                                     "second control node"};
   for (j = 0; j < nn; j++) nodes[j] = node_arg(L, 4 + j, what[j]);
   if (codes[k] == SW_NET_CCVS || codes[k] == SW_NET_CCCS) ctrl = luaL_checkstring(L, 8);
-  if (sw_net_add(&n->net, codes[k], name, nodes, ctrl, value, &err)) return lsw_raise(L, "network:add", &err);
+  if (sw_net_add(&n->net, codes[k], name, nodes, ctrl, value, &err))
+    return lsw_raise(L, "network:add", &err);
   return 0;
 }
 
@@ -134,7 +138,8 @@ static int l_device(lua_State *L)
   double pmax = luaL_optnumber(L, 7, 0);
   sw_err err = { 0, "" };
   if (!lua_isnoneornil(L, 8)) lsw_checkcurve(L, 8);
-  if (sw_net_add_device(&n->net, name, na, nb, &m->m, x_is_i, pmax, &err)) return lsw_raise(L, "network:element", &err);
+  if (sw_net_add_device(&n->net, name, na, nb, &m->m, x_is_i, pmax, &err))
+    return lsw_raise(L, "network:element", &err);
   lua_getiuservalue(L, 1, 1);
   lua_pushvalue(L, 5);
   lua_rawseti(L, -2, (lua_Integer)n->net.ndev);
@@ -148,7 +153,8 @@ static int l_set(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
   sw_err err = { 0, "" };
-  if (sw_net_set(&n->net, luaL_checkstring(L, 2), luaL_checknumber(L, 3), &err)) return lsw_raise(L, "network:set", &err);
+  if (sw_net_set(&n->net, luaL_checkstring(L, 2), luaL_checknumber(L, 3), &err))
+    return lsw_raise(L, "network:set", &err);
   return 0;
 }
 
@@ -166,24 +172,33 @@ static void fill_start(lua_State *L, int tidx, const sw_net *net, int *st)
     const char *name;
     size_t el, s;
     lua_Integer label;
-    if (lua_type(L, -2) != LUA_TSTRING) lsw_fail(L, "network:solve", "start keys must be device names");
+    if (lua_type(L, -2) != LUA_TSTRING)
+      lsw_fail(L, "network:solve", "start keys must be device names");
     name = lua_tostring(L, -2);
     el = sw_net_find(net, name);
-    if (el == SW_NET_NONE || net->el[el].kind != SW_NET_DEV) lsw_fail(L, "network:solve", "start: no device named '%s'", name);
-    if (!lua_isinteger(L, -1)) lsw_fail(L, "network:solve", "start.%s must be an integer segment number", name);
+    if (el == SW_NET_NONE || net->el[el].kind != SW_NET_DEV)
+      lsw_fail(L, "network:solve", "start: no device named '%s'", name);
+    if (!lua_isinteger(L, -1))
+      lsw_fail(L, "network:solve", "start.%s must be an integer segment number", name);
     label = lua_tointeger(L, -1);
     {
       const sw_net_dev *d = &net->dev[net->el[el].dev];
       for (s = 0; s < d->nseg; s++) if (d->seg[s].label == label) break;
       if (s == d->nseg)
-        lsw_fail(L, "network:solve", "start.%s = %d is not a segment of its model (segments %d..%d)", name, (int)label, d->seg[0].label, d->seg[d->nseg - 1].label);
+        lsw_fail(L, "network:solve",
+                 "start.%s = %d is not a segment of its model (segments %d..%d)", name, (int)label,
+                 d->seg[0].label, d->seg[d->nseg - 1].label);
       st[net->el[el].dev] = (int)s;
     }
     lua_pop(L, 1);
   }
 }
 
-static void setnum(lua_State *L, const char *key, double v) { lua_pushnumber(L, v); lua_setfield(L, -2, key); }
+static void setnum(lua_State *L, const char *key, double v)
+{
+  lua_pushnumber(L, v);
+  lua_setfield(L, -2, key);
+}
 
 static const char *stability_name(int s)
 {
@@ -244,7 +259,11 @@ static void push_trace(lua_State *L, const sw_net *net, const sw_net_trace *t)
         for (k = 0; k < m; k++) {
           size_t q = a * m + k;
           if (f == 0) lua_pushinteger(L, net->dev[k].seg[t->state[q]].label);
-          else lua_pushnumber(L, f == 1 ? t->v[q] : f == 2 ? t->i[q] : f == 3 ? t->x[q] : t->excess[q]);
+          else
+            lua_pushnumber(L, f == 1   ? t->v[q]
+                              : f == 2 ? t->i[q]
+                              : f == 3 ? t->x[q]
+                                       : t->excess[q]);
           lua_setfield(L, -2, net->el[net->dev[k].el].name);
         }
         lua_setfield(L, -2, keys[f]);
@@ -258,7 +277,10 @@ static void push_trace(lua_State *L, const sw_net *net, const sw_net_trace *t)
  * and op.stability into the op table on top. */
 static void push_verdict(lua_State *L, const sw_net_verdict *v, int stability, int exact)
 {
-  if (v->unique != SW_UNIQUE_UNKNOWN) { lua_pushboolean(L, v->unique == SW_UNIQUE_YES); lua_setfield(L, -2, "unique"); }
+  if (v->unique != SW_UNIQUE_UNKNOWN) {
+    lua_pushboolean(L, v->unique == SW_UNIQUE_YES);
+    lua_setfield(L, -2, "unique");
+  }
   if (exact) lua_pushfstring(L, "%s (said of the PWL circuit, not of the exact curves)", v->reason);
   else lua_pushstring(L, v->reason);
   lua_setfield(L, -2, "unique_reason");
@@ -351,7 +373,8 @@ static int l_solve(lua_State *L)
     int *all = NULL;
     rc = sw_net_enumerate(net, max_states, &all, &count, &it, &err);
     if (rc == SW_OK && count == 0)
-      rc = sw_err_set(&err, SW_ENOSOL, "no consistent state exists: enumeration of all %zu states found none", it);
+      rc = sw_err_set(&err, SW_ENOSOL,
+                      "no consistent state exists: enumeration of all %zu states found none", it);
     if (rc == SW_OK) memcpy(state, all, m * sizeof *state);
     free(all);
     nfound = count;
@@ -368,9 +391,11 @@ static int l_solve(lua_State *L)
     }
     return lsw_raise(L, "network:solve", &err);
   }
-  if (sw_net_op_from_state(net, state, &h->ops[0], &err)) return lsw_raise(L, "network:solve", &err);
+  if (sw_net_op_from_state(net, state, &h->ops[0], &err))
+    return lsw_raise(L, "network:solve", &err);
   h->ops[0].iterations = it;
-  if (sw_net_unique(net, nfound, nfound ? it : 0, method == 3 ? pm : -2, how, max_states, &verdict, &err))
+  if (sw_net_unique(net, nfound, nfound ? it : 0, method == 3 ? pm : -2, how, max_states, &verdict,
+                    &err))
     return lsw_raise(L, "network:solve", &err);
   stab = sw_net_op_stability(net, &h->ops[0], verdict.monotone, &err); /* of the PWL point */
   if (stab < 0) return lsw_raise(L, "network:solve", &err);
@@ -385,7 +410,10 @@ static int l_solve(lua_State *L)
     if (pm >= 0) { lua_pushboolean(L, pm); lua_setfield(L, -2, "pmatrix"); }
     lua_pushstring(L, how); lua_setfield(L, -2, "pmatrix_test");
   }
-  if (method == 1) { lua_pushinteger(L, (lua_Integer)updates); lua_setfield(L, -2, "lowrank_updates"); }
+  if (method == 1) {
+    lua_pushinteger(L, (lua_Integer)updates);
+    lua_setfield(L, -2, "lowrank_updates");
+  }
   if (want_trace && method == 1) { push_trace(L, net, &h->trace); lua_setfield(L, -2, "trace"); }
   return 2;
 }
@@ -404,12 +432,14 @@ static int l_solve_all(lua_State *L)
   prepare(L, n, "network:solve_all");
   m = net->ndev;
   h = new_hold(L);
-  if (sw_net_enumerate(net, max_states, &all, &count, &visited, &err)) return lsw_raise(L, "network:solve_all", &err);
+  if (sw_net_enumerate(net, max_states, &all, &count, &visited, &err))
+    return lsw_raise(L, "network:solve_all", &err);
   h->states = all;
   if (count) hold_ops(L, h, count);
   for (k = 0; k < count; k++) {
     int s;
-    if (sw_net_op_from_state(net, all + k * m, &h->ops[k], &err)) return lsw_raise(L, "network:solve_all", &err);
+    if (sw_net_op_from_state(net, all + k * m, &h->ops[k], &err))
+      return lsw_raise(L, "network:solve_all", &err);
     h->ops[k].iterations = visited;
     s = sw_net_stability(net, &h->ops[k], &err);
     if (s < 0) return lsw_raise(L, "network:solve_all", &err);
@@ -433,7 +463,8 @@ static size_t sweep_target(lua_State *L, lsw_net *n, int **start)
   size_t el = sw_net_find(&n->net, name);
   *start = NULL;
   if (el == SW_NET_NONE) lsw_fail(L, "network:sweep", "no element named '%s'", name);
-  if (n->net.el[el].kind == SW_NET_DEV) lsw_fail(L, "network:sweep", "'%s' is a device; sweep a source, gain or resistor", name);
+  if (n->net.el[el].kind == SW_NET_DEV)
+    lsw_fail(L, "network:sweep", "'%s' is a device; sweep a source, gain or resistor", name);
   prepare(L, n, "network:sweep");
   if (!lua_isnoneornil(L, 4)) {
     luaL_checktype(L, 4, LUA_TTABLE);
@@ -480,7 +511,8 @@ static const double *sweep_values(lua_State *L, int idx, size_t *n)
   size_t k;
   if (!a || a->freed) return lsw_checkdoubles(L, idx, "values", n, 0);
   for (k = 0; k < a->n; k++)
-    if (!sw_isfinite(a->data[k])) lsw_fail(L, "network:sweep", "values[%d] is not finite (%f)", (int)(k + 1), a->data[k]);
+    if (!sw_isfinite(a->data[k]))
+      lsw_fail(L, "network:sweep", "values[%d] is not finite (%f)", (int)(k + 1), a->data[k]);
   *n = a->n;
   return a->data;
 }
@@ -502,17 +534,23 @@ static void parse_quant(lua_State *L, const sw_net *net, int j, const char *s, s
   size_t f, len = dot ? (size_t)(dot - s) : 0, idx;
   for (f = 0; f < 5; f++) if (dot && strlen(keys[f]) == len && strncmp(s, keys[f], len) == 0) break;
   if (f == 5)
-    lsw_fail(L, "network:sweep", "out[%d] = '%s': expected \"i.<element>\", \"vd.<element>\", \"p.<element>\", \"v.<node>\" or \"state.<device>\"", j, s);
+    lsw_fail(L, "network:sweep",
+             "out[%d] = '%s': expected \"i.<element>\", \"vd.<element>\", \"p.<element>\", "
+             "\"v.<node>\" or \"state.<device>\"",
+             j, s);
   what = dot + 1;
   q->kind = kinds[f];
   if (q->kind == SW_NQ_V) {
     idx = find_node(net, what);
-    if (idx == SW_NET_NONE) lsw_fail(L, "network:sweep", "out[%d] = '%s': no node named '%s'", j, s, what);
+    if (idx == SW_NET_NONE)
+      lsw_fail(L, "network:sweep", "out[%d] = '%s': no node named '%s'", j, s, what);
   } else {
     idx = sw_net_find(net, what);
-    if (idx == SW_NET_NONE) lsw_fail(L, "network:sweep", "out[%d] = '%s': no element named '%s'", j, s, what);
+    if (idx == SW_NET_NONE)
+      lsw_fail(L, "network:sweep", "out[%d] = '%s': no element named '%s'", j, s, what);
     if (q->kind == SW_NQ_STATE) {
-      if (net->el[idx].kind != SW_NET_DEV) lsw_fail(L, "network:sweep", "out[%d] = '%s': '%s' is not a PWL device", j, s, what);
+      if (net->el[idx].kind != SW_NET_DEV)
+        lsw_fail(L, "network:sweep", "out[%d] = '%s': '%s' is not a PWL device", j, s, what);
       idx = net->el[idx].dev;
     }
   }
@@ -522,14 +560,15 @@ static void parse_quant(lua_State *L, const sw_net *net, int j, const char *s, s
 /* The result table of an array loop: for each name in the list at index
  * outidx, an array of n values, at res[j] and res[name]; *q the parsed
  * quantities.  Leaves res on the stack and returns its index. */
-static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_points, const char *fname,
-                             sw_net_quant **q, size_t *nq)
+static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_points,
+                             const char *fname, sw_net_quant **q, size_t *nq)
 {
   size_t j;
   int res;
   luaL_checktype(L, outidx, LUA_TTABLE);
   *nq = (size_t)luaL_len(L, outidx);
-  if (*nq == 0) return lsw_fail(L, NULL, "segwise.network:%s: out must list at least one quantity", fname);
+  if (*nq == 0)
+    return lsw_fail(L, NULL, "segwise.network:%s: out must list at least one quantity", fname);
   *q = lua_newuserdatauv(L, *nq * sizeof **q, 0);
   lua_createtable(L, (int)*nq, (int)*nq + 6);
   res = lua_gettop(L);
@@ -537,8 +576,8 @@ static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_poin
     lsw_array *a;
     lua_geti(L, outidx, (lua_Integer)j + 1);
     if (lua_type(L, -1) != LUA_TSTRING)
-      return lsw_fail(L, NULL, "segwise.network:%s: out[%d] must be a string (got %s)", fname, (int)j + 1,
-                        luaL_typename(L, -1));
+      return lsw_fail(L, NULL, "segwise.network:%s: out[%d] must be a string (got %s)", fname,
+                      (int)j + 1, luaL_typename(L, -1));
     parse_quant(L, &n->net, (int)j + 1, lua_tostring(L, -1), &(*q)[j]);
     a = lsw_newarray(L, n_points);
     (*q)[j].out = a->data;
@@ -573,7 +612,8 @@ static void push_loop_info(lua_State *L, lsw_net *n, int res, const sw_net_sweep
     lua_pushstring(L, g % 2 == SW_NW_RANGE ? "range" : "pmax"); lua_setfield(L, -2, "kind");
     a = lsw_newarray(L, count[g]);
     for (w = 0; w < info->nwarn; w++)
-      if (2 * info->warn[w].dev + (size_t)info->warn[w].kind == g) a->data[pos++] = (double)info->warn[w].index + 1;
+      if (2 * info->warn[w].dev + (size_t)info->warn[w].kind == g)
+        a->data[pos++] = (double)info->warn[w].index + 1;
     lua_setfield(L, -2, "indices");
     lua_rawseti(L, list, ++nl);
   }
@@ -666,8 +706,8 @@ static int l_montecarlo(lua_State *L)
   drawn = lsw_scratch(L, a.runs * a.k);
   h = new_hold(L);
   hold_ops(L, h, a.runs);
-  if (sw_net_montecarlo(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed, max_states, h->ops,
-                        drawn, &err))
+  if (sw_net_montecarlo(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed,
+                        max_states, h->ops, drawn, &err))
     return lsw_raise(L, "network:montecarlo", &err);
   lua_createtable(L, (int)a.runs, 0);
   for (r = 0; r < a.runs; r++) {
@@ -707,8 +747,8 @@ static int l_montecarlo_arrays(lua_State *L)
   }
   lua_setfield(L, res, "values");
   h = new_hold(L);
-  rc = sw_net_montecarlo_arrays(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed, max_states,
-                                drawn, q, nq, &h->sweep, &err);
+  rc = sw_net_montecarlo_arrays(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed,
+                                max_states, drawn, q, nq, &h->sweep, &err);
   if (rc) return lsw_raise(L, "network:montecarlo", &err);
   push_loop_info(L, n, res, &h->sweep);
   lua_pushvalue(L, res);
@@ -722,7 +762,8 @@ static int l_segments(lua_State *L)
   const char *name = luaL_checkstring(L, 2);
   size_t el = sw_net_find(&n->net, name), k;
   const sw_net_dev *d;
-  if (el == SW_NET_NONE || n->net.el[el].kind != SW_NET_DEV) return lsw_fail(L, "network", "no device named '%s'", name);
+  if (el == SW_NET_NONE || n->net.el[el].kind != SW_NET_DEV)
+    return lsw_fail(L, "network", "no device named '%s'", name);
   d = &n->net.dev[n->net.el[el].dev];
   lua_createtable(L, (int)d->nseg, 0);
   for (k = 0; k < d->nseg; k++) {
@@ -735,7 +776,8 @@ static int l_segments(lua_State *L)
   return 1;
 }
 
-/* n:info() -> {nodes = {...}, elements = {{name=, kind=, nodes={...}, ctrl=, value=, pmax=, x=}}} */
+/* n:info() -> {nodes = {...}, elements = {{name=, kind=, nodes={...}, ctrl=, value=, pmax=, x=}}}
+ */
 static int l_info(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
@@ -743,12 +785,16 @@ static int l_info(lua_State *L)
   size_t k;
   lua_createtable(L, 0, 2);
   lua_createtable(L, (int)net->nnodes, 0);
-  for (k = 0; k < net->nnodes; k++) { lua_pushstring(L, net->node[k]); lua_rawseti(L, -2, (lua_Integer)k + 1); }
+  for (k = 0; k < net->nnodes; k++) {
+    lua_pushstring(L, net->node[k]);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
   lua_setfield(L, -2, "nodes");
   lua_createtable(L, (int)net->nel, 0);
   for (k = 0; k < net->nel; k++) {
     const sw_net_el *e = &net->el[k];
-    static const char *const kn[] = { "", "resistor", "vsource", "isource", "vcvs", "vccs", "ccvs", "cccs", "element" };
+    static const char *const kn[] = {"",     "resistor", "vsource", "isource", "vcvs",
+                                     "vccs", "ccvs",     "cccs",    "element"};
     int nn = (e->kind == SW_NET_VCVS || e->kind == SW_NET_VCCS) ? 4 : 2, j;
     size_t idx[4];
     idx[0] = e->na; idx[1] = e->nb; idx[2] = e->cp; idx[3] = e->cm;
@@ -773,11 +819,19 @@ static int l_info(lua_State *L)
   return 1;
 }
 
-static const luaL_Reg net_methods[] = {
-  { "add", l_add }, { "device", l_device }, { "set", l_set }, { "solve", l_solve },
-  { "solve_all", l_solve_all }, { "sweep", l_sweep }, { "sweep_arrays", l_sweep_arrays }, { "montecarlo", l_montecarlo }, { "montecarlo_arrays", l_montecarlo_arrays }, { "segments", l_segments },
-  { "info", l_info }, { "free", net_release }, { NULL, NULL }
-};
+static const luaL_Reg net_methods[] = {{"add", l_add},
+                                       {"device", l_device},
+                                       {"set", l_set},
+                                       {"solve", l_solve},
+                                       {"solve_all", l_solve_all},
+                                       {"sweep", l_sweep},
+                                       {"sweep_arrays", l_sweep_arrays},
+                                       {"montecarlo", l_montecarlo},
+                                       {"montecarlo_arrays", l_montecarlo_arrays},
+                                       {"segments", l_segments},
+                                       {"info", l_info},
+                                       {"free", net_release},
+                                       {NULL, NULL}};
 
 void lsw_open_net(lua_State *L)
 {

@@ -10,7 +10,8 @@ static const char *const extend_names[] = {"line", "hold", "error", NULL};
 lsw_model *lsw_checkmodel(lua_State *L, int idx)
 {
   lsw_model *m = luaL_testudata(L, idx, LSW_MODEL_MT);
-  if (!m) lsw_fail(L, NULL, "argument #%d must be a segwise model (got %s)", idx, luaL_typename(L, idx));
+  if (!m)
+    lsw_fail(L, NULL, "argument #%d must be a segwise model (got %s)", idx, luaL_typename(L, idx));
   if (m->freed) lsw_fail(L, NULL, "model used after free() (argument #%d)", idx);
   return m;
 }
@@ -46,10 +47,12 @@ static sw_extend check_extend(lua_State *L, int idx)
   const char *s = lua_isnoneornil(L, idx) ? "line" : lua_tostring(L, idx);
   int k;
   if (lua_type(L, idx) != LUA_TSTRING && !lua_isnoneornil(L, idx))
-    lsw_fail(L, NULL, "the extension rule must be \"line\", \"hold\" or \"error\" (got %s)", luaL_typename(L, idx));
+    lsw_fail(L, NULL, "the extension rule must be \"line\", \"hold\" or \"error\" (got %s)",
+             luaL_typename(L, idx));
   for (k = 0; extend_names[k]; k++)
     if (strcmp(s, extend_names[k]) == 0) return (sw_extend)k;
-  return (sw_extend)lsw_fail(L, NULL, "the extension rule must be \"line\", \"hold\" or \"error\" (got \"%s\")", s);
+  return (sw_extend)lsw_fail(
+      L, NULL, "the extension rule must be \"line\", \"hold\" or \"error\" (got \"%s\")", s);
 }
 
 /* core.pwl_points(xs, ys, extend) */
@@ -79,9 +82,11 @@ static int l_pwl_segments(lua_State *L)
   sw_extend ext = check_extend(L, 5);
   sw_err err;
   lsw_model *m;
-  if (n[0] != n[1] || n[0] != n[2] || n[0] != n[3]) return lsw_fail(L, "pwl.segments", "field lists differ in length");
+  if (n[0] != n[1] || n[0] != n[2] || n[0] != n[3])
+    return lsw_fail(L, "pwl.segments", "field lists differ in length");
   m = lsw_newmodel(L);
-  if (sw_pwl_from_segments(&m->m, lo, hi, sl, ic, n[0], &err)) return lsw_raise(L, "pwl.segments", &err);
+  if (sw_pwl_from_segments(&m->m, lo, hi, sl, ic, n[0], &err))
+    return lsw_raise(L, "pwl.segments", &err);
   m->m.extend = ext;
   return 1;
 }
@@ -103,7 +108,9 @@ static int l_eval(lua_State *L)
     double *x, *y;
     if (!lua_isnoneornil(L, 3)) {
       out = lsw_toarray(L, 3);
-      if (!out) return lsw_fail(L, "model:eval", "out must be a segwise array (got %s)", luaL_typename(L, 3));
+      if (!out)
+        return lsw_fail(L, "model:eval", "out must be a segwise array (got %s)",
+                        luaL_typename(L, 3));
       if (out->freed) return lsw_fail(L, "model:eval", "out used after free()");
     }
     if (in && !in->freed) { /* straight from the array: no copy */
@@ -111,12 +118,14 @@ static int l_eval(lua_State *L)
         return lsw_fail(L, "model:eval", "out has %d values but x has %d", (int)out->n, (int)in->n);
       if (!out) out = lsw_newarray(L, in->n);
       else lua_pushvalue(L, 3);
-      if (sw_pwl_eval_many(&m->m, in->data, out->data, in->n, &err)) return lsw_raise(L, "model:eval", &err);
+      if (sw_pwl_eval_many(&m->m, in->data, out->data, in->n, &err))
+        return lsw_raise(L, "model:eval", &err);
       return 1;
     }
     x = lsw_checkdoubles(L, 2, "x", &n, 1);
     if (out) {
-      if (out->n < n) return lsw_fail(L, "model:eval", "out has %d values but x has %d", (int)out->n, (int)n);
+      if (out->n < n)
+        return lsw_fail(L, "model:eval", "out has %d values but x has %d", (int)out->n, (int)n);
       if (sw_pwl_eval_many(&m->m, x, out->data, n, &err)) return lsw_raise(L, "model:eval", &err);
       lua_pushvalue(L, 3);
       return 1;
@@ -150,7 +159,8 @@ static int l_segment(lua_State *L)
   lsw_model *m = lsw_checkmodel(L, 1);
   double x = check_x(L, 2), y;
   sw_err err;
-  if (sw_pwl_eval(&m->m, x, &y, &err)) return lsw_raise(L, "model:segment", &err); /* honours extend */
+  if (sw_pwl_eval(&m->m, x, &y, &err))
+    return lsw_raise(L, "model:segment", &err); /* honours extend */
   lua_pushinteger(L, (lua_Integer)sw_pwl_locate(&m->m, x) + 1);
   return 1;
 }
@@ -282,7 +292,8 @@ static void compare_check_keys(lua_State *L)
 {
   static const char *const known[] = {"lo", "hi", "n", "rel_floor", NULL};
   if (lua_isnoneornil(L, 3)) return;
-  if (!lua_istable(L, 3)) lsw_fail(L, NULL, "options must be a table (got %s)", luaL_typename(L, 3));
+  if (!lua_istable(L, 3))
+    lsw_fail(L, NULL, "options must be a table (got %s)", luaL_typename(L, 3));
   lua_pushnil(L);
   while (lua_next(L, 3)) {
     int k, ok = 0;
@@ -392,15 +403,18 @@ static int l_tostring(lua_State *L)
   size_t k;
   if (m->freed) { lua_pushliteral(L, "segwise model (freed)"); return 1; }
   luaL_buffinit(L, &b);
-  snprintf(line, sizeof line, "segwise model: %zu segment%s, %s, outside the knots: %s\n", m->m.nseg,
-           m->m.nseg == 1 ? "" : "s", m->m.continuous ? "continuous" : "with jumps", extend_names[m->m.extend]);
+  snprintf(line, sizeof line, "segwise model: %zu segment%s, %s, outside the knots: %s\n",
+           m->m.nseg, m->m.nseg == 1 ? "" : "s", m->m.continuous ? "continuous" : "with jumps",
+           extend_names[m->m.extend]);
   luaL_addstring(&b, line);
-  snprintf(line, sizeof line, "%4s %13s %13s %13s %13s\n", "seg", "from x", "to x", "slope", "y at x=0");
+  snprintf(line, sizeof line, "%4s %13s %13s %13s %13s\n", "seg", "from x", "to x", "slope",
+           "y at x=0");
   luaL_addstring(&b, line);
   for (k = 0; k < m->m.nseg; k++) {
     double e, r;
     sw_pwl_thevenin(&m->m, k, &e, &r);
-    snprintf(line, sizeof line, "%4zu %13.6g %13.6g %13.6g %13.6g\n", k + 1, m->m.x[k], m->m.x[k + 1], r, e);
+    snprintf(line, sizeof line, "%4zu %13.6g %13.6g %13.6g %13.6g\n", k + 1, m->m.x[k],
+             m->m.x[k + 1], r, e);
     luaL_addstring(&b, line);
   }
   luaL_pushresult(&b);

@@ -25,12 +25,12 @@ static void check_column(lua_State *L, int idx, const char *fname, const char *w
     int isint;
     lua_Integer i = lua_tointegerx(L, idx, &isint);
     if (!isint || i < 1)
-      lsw_fail(L, NULL, "segwise.%s: %s column %s must be a header name or a number from 1", fname, what,
-                 lua_tostring(L, idx));
+      lsw_fail(L, NULL, "segwise.%s: %s column %s must be a header name or a number from 1", fname,
+               what, lua_tostring(L, idx));
     col->index = (size_t)i;
   } else {
-    lsw_fail(L, NULL, "segwise.%s: %s column must be a header name or a number (got %s)", fname, what,
-               luaL_typename(L, idx));
+    lsw_fail(L, NULL, "segwise.%s: %s column must be a header name or a number (got %s)", fname,
+             what, luaL_typename(L, idx));
   }
 }
 
@@ -40,7 +40,8 @@ static double check_scale(lua_State *L, int idx, const char *fname, const char *
   int isnum;
   double v = lua_tonumberx(L, idx, &isnum);
   if (!isnum || lua_type(L, idx) != LUA_TNUMBER)
-    lsw_fail(L, NULL, "segwise.%s: %s must be a number (got %s)", fname, what, luaL_typename(L, idx));
+    lsw_fail(L, NULL, "segwise.%s: %s must be a number (got %s)", fname, what,
+             luaL_typename(L, idx));
   if (!sw_isfinite(v) || v == 0)
     lsw_fail(L, NULL, "segwise.%s: %s must be finite and non-zero (got %f)", fname, what, v);
   return v;
@@ -61,29 +62,34 @@ static void check_opts(lua_State *L, int idx, const char *fname, const char *con
     const char *const *a;
     lua_pop(L, 1);
     if (lua_type(L, -1) != LUA_TSTRING)
-      lsw_fail(L, NULL, "segwise.%s: option keys must be names (got %s)", fname, luaL_typename(L, -1));
+      lsw_fail(L, NULL, "segwise.%s: option keys must be names (got %s)", fname,
+               luaL_typename(L, -1));
     for (a = allowed; *a; a++)
       if (strcmp(*a, lua_tostring(L, -1)) == 0) break;
     if (!*a) lsw_fail(L, NULL, "segwise.%s: unknown option '%s'", fname, lua_tostring(L, -1));
   }
   lua_getfield(L, idx, "delimiter");
   if (!lua_isnil(L, -1)) {
-    static const char *const names[] = {",", ";", "\t", " ", "comma", "semicolon", "tab", "space", NULL};
+    static const char *const names[] = {",",         ";",   "\t",    " ", "comma",
+                                        "semicolon", "tab", "space", NULL};
     static const char chars[] = {',', ';', '\t', ' ', ',', ';', '\t', ' '};
     int k = -1, j;
     if (lua_type(L, -1) == LUA_TSTRING)
       for (j = 0; names[j]; j++)
         if (strcmp(names[j], lua_tostring(L, -1)) == 0) k = j;
     if (k < 0)
-      lsw_fail(L, NULL, "segwise.%s: delimiter must be \",\", \";\", \"\\t\", \" \" (or comma, semicolon, tab, space)",
-                 fname);
+      lsw_fail(L, NULL,
+               "segwise.%s: delimiter must be \",\", \";\", \"\\t\", \" \" (or comma, semicolon, "
+               "tab, space)",
+               fname);
     opts->delim = chars[k];
   }
   lua_pop(L, 1);
   lua_getfield(L, idx, "header");
   if (!lua_isnil(L, -1)) {
     if (!lua_isboolean(L, -1))
-      lsw_fail(L, NULL, "segwise.%s: header must be true or false (got %s)", fname, luaL_typename(L, -1));
+      lsw_fail(L, NULL, "segwise.%s: header must be true or false (got %s)", fname,
+               luaL_typename(L, -1));
     opts->header = lua_toboolean(L, -1);
   }
   lua_pop(L, 1);
@@ -125,7 +131,8 @@ static int l_read_columns(lua_State *L)
     if (!lua_isnil(L, -1)) {
       int t = lua_gettop(L);
       if (!lua_istable(L, t))
-        lsw_fail(L, "read_columns", "scale must be a table {x =, y =} (got %s)", luaL_typename(L, t));
+        lsw_fail(L, "read_columns", "scale must be a table {x =, y =} (got %s)",
+                 luaL_typename(L, t));
       lua_getfield(L, t, "x");
       if (!lua_isnil(L, -1)) cols[0].scale = check_scale(L, -1, "read_columns", "scale.x");
       lua_getfield(L, t, "y");
@@ -175,7 +182,8 @@ static int l_array_read(lua_State *L)
     lua_pop(L, 1);
   }
   a = push_target(L);
-  if (sw_text_read(path, &opts, &col, 1, out, NULL, &n, &err)) return lsw_raise(L, "array.read", &err);
+  if (sw_text_read(path, &opts, &col, 1, out, NULL, &n, &err))
+    return lsw_raise(L, "array.read", &err);
   adopt(a, out[0], n);
   return 1;
 }

@@ -93,7 +93,8 @@ double *lsw_checkdoubles(lua_State *L, int idx, const char *what, size_t *n, int
     return buf;
   }
   if (!lua_istable(L, idx))
-    lsw_fail(L, NULL, "%s must be a table of numbers or a segwise array (got %s)", what, luaL_typename(L, idx));
+    lsw_fail(L, NULL, "%s must be a table of numbers or a segwise array (got %s)", what,
+             luaL_typename(L, idx));
   len = (size_t)luaL_len(L, idx);
   buf = lsw_scratch(L, len);
   for (i = 0; i < len; i++) {
@@ -101,8 +102,11 @@ double *lsw_checkdoubles(lua_State *L, int idx, const char *what, size_t *n, int
     double v;
     lua_geti(L, idx, (lua_Integer)(i + 1));
     v = lua_tonumberx(L, -1, &isnum);
-    if (!isnum) lsw_fail(L, NULL, "%s[%d] must be a number (got %s)", what, (int)(i + 1), luaL_typename(L, -1));
-    if (!allow_nonfinite && !isfinite(v)) lsw_fail(L, NULL, "%s[%d] is not finite (%f)", what, (int)(i + 1), v);
+    if (!isnum)
+      lsw_fail(L, NULL, "%s[%d] must be a number (got %s)", what, (int)(i + 1),
+               luaL_typename(L, -1));
+    if (!allow_nonfinite && !isfinite(v))
+      lsw_fail(L, NULL, "%s[%d] is not finite (%f)", what, (int)(i + 1), v);
     lua_pop(L, 1);
     buf[i] = v;
   }
@@ -122,6 +126,8 @@ void lsw_pushdoubles(lua_State *L, const double *y, size_t n)
 
 int lsw_refuse_busy(lua_State *L, const char *what)
 {
-  return lsw_fail(L, NULL, "segwise.%s:free: the %s is in use by a computation that is calling back into Lua; free it after that returns",
-                    what, what);
+  return lsw_fail(L, NULL,
+                  "segwise.%s:free: the %s is in use by a computation that is calling back into "
+                  "Lua; free it after that returns",
+                  what, what);
 }

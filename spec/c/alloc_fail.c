@@ -443,7 +443,8 @@ static int sc_sweep(double *fp, sw_err *err)
   sw_net_sweep_info info;
   double values[6] = {1, 5, 20, 50, 80, 120}, rs[6] = {50, 100, 200, 400, 800, 1600};
   double i1[6], vd2[6], p1[6], s1[6];
-  sw_net_quant q[4] = {{SW_NQ_I, 2, i1}, {SW_NQ_VD, 3, vd2}, {SW_NQ_P, 2, p1}, {SW_NQ_STATE, 0, s1}};
+  sw_net_quant q[4] = {
+      {SW_NQ_I, 2, i1}, {SW_NQ_VD, 3, vd2}, {SW_NQ_P, 2, p1}, {SW_NQ_STATE, 0, s1}};
   size_t k;
   int rc;
   sw_net_init(&net);
@@ -468,7 +469,9 @@ static int sc_sweep(double *fp, sw_err *err)
     double tol[2] = {0.05, 0.02}, d1[6], d0[6], *drawn[2];
     int gauss[2] = {0, 1};
     drawn[0] = d1; drawn[1] = d0;
-    if ((rc = sw_net_montecarlo_arrays(&net, el, tol, gauss, 2, 6, 5, 1e4, drawn, q, 4, &info, err))) goto done;
+    if ((rc =
+             sw_net_montecarlo_arrays(&net, el, tol, gauss, 2, 6, 5, 1e4, drawn, q, 4, &info, err)))
+      goto done;
     for (k = 0; k < 6; k++) *fp += d1[k] + d0[k] + i1[k] + p1[k];
   }
 done:
@@ -512,22 +515,27 @@ static int run_scenario(const char *name, scenario_fn fn)
     rc = fn(&fp, &err);
     hook_fail_at = 0;
     if (hook_live != live0) {
-      if (failures < 5) printf("FAIL %s: failing allocation %ld of %ld leaks %ld blocks (rc %d: %s)\n", name, n,
-             total, hook_live - live0, rc, err.msg);
+      if (failures < 5)
+        printf("FAIL %s: failing allocation %ld of %ld leaks %ld blocks (rc %d: %s)\n", name, n,
+               total, hook_live - live0, rc, err.msg);
       failures++;
     }
     if (rc == SW_OK) {
       /* absorbed: acceptable only when the answer did not change */
       if (!(fp == fp0 || (isnan(fp) && isnan(fp0)))) {
-        if (failures < 5) printf("FAIL %s: failing allocation %ld of %ld gave a different answer silently "
-               "(%.17g instead of %.17g)\n", name, n, total, fp, fp0);
+        if (failures < 5)
+          printf("FAIL %s: failing allocation %ld of %ld gave a different answer silently "
+                 "(%.17g instead of %.17g)\n",
+                 name, n, total, fp, fp0);
         failures++;
       } else {
         absorbed++;
       }
     } else if (!valid_code(rc) || err.code != rc || !err.msg[0]) {
-      if (failures < 5) printf("FAIL %s: failing allocation %ld of %ld returned %d with err.code %d and message \"%s\"\n",
-             name, n, total, rc, err.code, err.msg);
+      if (failures < 5)
+        printf("FAIL %s: failing allocation %ld of %ld returned %d with err.code %d and message "
+               "\"%s\"\n",
+               name, n, total, rc, err.code, err.msg);
       failures++;
     } else if (rc != SW_ENOMEM) {
       other_codes++;

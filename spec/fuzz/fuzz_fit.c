@@ -77,7 +77,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     double ya, yb;
     if (o.rel) {
       if (o.tol < 1e-3) o.tol = 1e-3;
-    } else if (sw_isfinite(o.lo) && sw_isfinite(o.hi) && sw_curve_eval(&c, o.lo, &ya, &err) == SW_OK &&
+    } else if (sw_isfinite(o.lo) && sw_isfinite(o.hi) &&
+               sw_curve_eval(&c, o.lo, &ya, &err) == SW_OK &&
                sw_curve_eval(&c, o.hi, &yb, &err) == SW_OK) {
       double scale = fabs(ya) + fabs(yb);
       if (o.tol < 1e-3 * scale) o.tol = 1e-3 * scale;
@@ -87,11 +88,14 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
    * relative tolerance can want a thousand uniform segments (fuzzer find) */
   if (o.tol > 0) o.max_segments = 32;
   if (getenv("FUZZ_SHOW")) /* describe the case when replaying one input */
-    fprintf(stderr, "curve kind %d n=%zu k=%g p=%g range [%g, %g]; criterion %d knots %d continuous %d segments %zu "
-            "tol %g rel %d floor %g monotone %d grid %zu nknots %zu at %d:%g through %zu slopes %d/%d\n",
-            (int)c.kind, c.n, c.k, c.p, o.lo, o.hi, (int)o.criterion, (int)o.knots, o.continuous, o.segments,
-            o.tol, o.rel, o.rel_floor, o.monotone, o.grid, o.nknot_list, o.has_at, o.at, o.nthrough,
-            o.has_slope_first, o.has_slope_last);
+    fprintf(stderr,
+            "curve kind %d n=%zu k=%g p=%g range [%g, %g]; criterion %d knots %d continuous %d "
+            "segments %zu "
+            "tol %g rel %d floor %g monotone %d grid %zu nknots %zu at %d:%g through %zu slopes "
+            "%d/%d\n",
+            (int)c.kind, c.n, c.k, c.p, o.lo, o.hi, (int)o.criterion, (int)o.knots, o.continuous,
+            o.segments, o.tol, o.rel, o.rel_floor, o.monotone, o.grid, o.nknot_list, o.has_at, o.at,
+            o.nthrough, o.has_slope_first, o.has_slope_last);
   if (sw_fit(&c, &o, &m, &info, &err) == SW_OK) {
     sw_compare cmp;
     double *ea, *xa, *er, ulps = 0;
@@ -105,10 +109,11 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     }
     ulps *= 8 * DBL_EPSILON;
     if (sw_pwl_compare(&m, &c, m.x[0], m.x[m.nseg], 1001, o.rel_floor, &cmp, &err) == SW_OK &&
-        cmp.max_abs > info.max_abs * (1 + 1e-6) + ulps + 1e-12 && m.x[0] == o.lo && m.x[m.nseg] == o.hi) {
+        cmp.max_abs > info.max_abs * (1 + 1e-6) + ulps + 1e-12 && m.x[0] == o.lo &&
+        m.x[m.nseg] == o.hi) {
       if (getenv("FUZZ_SHOW"))
-        fprintf(stderr, "fit reports max_abs %.17g at %g; recheck finds %.17g at %g\n", info.max_abs, info.x_abs,
-                cmp.max_abs, cmp.x_abs);
+        fprintf(stderr, "fit reports max_abs %.17g at %g; recheck finds %.17g at %g\n",
+                info.max_abs, info.x_abs, cmp.max_abs, cmp.x_abs);
       abort();
     } /* the fit claims less error than a dense recheck finds */
     ea = malloc(m.nseg * sizeof *ea);

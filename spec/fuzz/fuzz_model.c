@@ -85,8 +85,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     if (!same_prov(&prov, &prov2)) abort();
     if (back.nseg != m.nseg || back.extend != m.extend || strcmp(xu, xu2) || strcmp(yu, yu2)) {
       if (getenv("FUZZ_SHOW")) /* describe the mismatch when replaying one input */
-        fprintf(stderr, "nseg %zu/%zu extend %d/%d xunit [%s]/[%s] yunit [%s]/[%s]\n", m.nseg, back.nseg,
-                (int)m.extend, (int)back.extend, xu, xu2, yu, yu2);
+        fprintf(stderr, "nseg %zu/%zu extend %d/%d xunit [%s]/[%s] yunit [%s]/[%s]\n", m.nseg,
+                back.nseg, (int)m.extend, (int)back.extend, xu, xu2, yu, yu2);
       abort();
     }
     for (k = 0; k <= m.nseg; k++)

@@ -42,7 +42,8 @@ static int add_device(sw_net *net, const char *name, fuzz_in *in, sw_err *err)
   m.extend = (sw_extend)((f >> 1) % 3);
   rc = sw_net_add_device(net, name, na, nb, &m, (f >> 3) & 1, (f & 0x10) ? 0.5 : 0, err);
   if (getenv("FUZZ_SHOW")) { /* describe the case when replaying one input */
-    fprintf(stderr, "device %s %s %s x=%s extend=%d:", name, na, nb, (f >> 3) & 1 ? "i" : "v", (int)m.extend);
+    fprintf(stderr, "device %s %s %s x=%s extend=%d:", name, na, nb, (f >> 3) & 1 ? "i" : "v",
+            (int)m.extend);
     for (k = 0; k < n; k++) fprintf(stderr, " (%.17g, %.17g)", x[k], y[k]);
     fprintf(stderr, " -> %d\n", rc);
   }
@@ -62,9 +63,11 @@ static void solve_all_ways(sw_net *net, fuzz_in *in)
   memset(&trace, 0, sizeof trace);
   memset(&op, 0, sizeof op);
   if (sw_net_prepare(net, &err)) return;
-  for (k = 0; k < m; k++) start[k] = (int)(fuzz_u8(in) % (net->dev[k].nseg + 1)) - (fuzz_u8(in) & 1);
+  for (k = 0; k < m; k++)
+    start[k] = (int)(fuzz_u8(in) % (net->dev[k].nseg + 1)) - (fuzz_u8(in) & 1);
   for (k = 0; k < m; k++) if (start[k] < 0 || (size_t)start[k] >= net->dev[k].nseg) start[k] = 0;
-  if (sw_net_auto(net, (fuzz_u8(in) & 1) ? start : NULL, 256, state, &it, &nfound, &used, &err) == SW_OK) {
+  if (sw_net_auto(net, (fuzz_u8(in) & 1) ? start : NULL, 256, state, &it, &nfound, &used, &err) ==
+      SW_OK) {
     if (sw_net_op_from_state(net, state, &op, &err) == SW_OK) {
       const sw_curve *curves[MAX_DEV + 1] = {0};
       (void)sw_net_stability(net, &op, &err);
@@ -106,8 +109,9 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     } else {
       int rc = sw_net_add(&net, (sw_net_kind)kind, names[k], nodes, ctrl, value, &err);
       if (getenv("FUZZ_SHOW"))
-        fprintf(stderr, "%s %s %s %s %s %s ctrl=%s value=%.17g -> %d\n", sw_net_kind_name((sw_net_kind)kind),
-                names[k], nodes[0], nodes[1], nodes[2], nodes[3], ctrl ? ctrl : "-", value, rc);
+        fprintf(stderr, "%s %s %s %s %s %s ctrl=%s value=%.17g -> %d\n",
+                sw_net_kind_name((sw_net_kind)kind), names[k], nodes[0], nodes[1], nodes[2],
+                nodes[3], ctrl ? ctrl : "-", value, rc);
     }
   }
   solve_all_ways(&net, &in);
@@ -125,7 +129,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
           sw_net_sweep(&net, el, values, nv, NULL, 256, ops, &err) == SW_OK)
         for (k = 0; k < nv; k++) sw_net_op_free(&ops[k]);
       else
-        for (k = 0; k < nv; k++) sw_net_op_free(&ops[k]); /* must be safe on zeroed or partial ops */
+        for (k = 0; k < nv; k++)
+          sw_net_op_free(&ops[k]); /* must be safe on zeroed or partial ops */
     }
     if (net.ndev > 0) { /* the array loops: a sweep and a Monte Carlo run */
       double values[4], o1[4], o2[4], d0[4], tol = fuzz_double(&in), *drawn[1];
@@ -140,8 +145,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
       if (net.el[el].kind != SW_NET_DEV && sw_net_prepare(&net, &err) == SW_OK) {
         (void)sw_net_sweep_arrays(&net, el, values, nv, NULL, 256, q, 2, &info, &err);
         sw_net_sweep_info_free(&info);
-        (void)sw_net_montecarlo_arrays(&net, &el, &tol, &gauss, 1, nv, fuzz_u8(&in), 256, drawn, q, 2, &info,
-                                       &err);
+        (void)sw_net_montecarlo_arrays(&net, &el, &tol, &gauss, 1, nv, fuzz_u8(&in), 256, drawn, q,
+                                       2, &info, &err);
         sw_net_sweep_info_free(&info);
       }
     }

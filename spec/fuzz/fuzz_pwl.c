@@ -87,7 +87,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
   }
   if (m.nseg >= 1) {
     size_t nc = m.nseg - 1;
-    double a, b, *c = malloc((nc ? nc : 1) * sizeof *c), *beta = malloc((nc ? nc : 1) * sizeof *beta);
+    double a, b, *c = malloc((nc ? nc : 1) * sizeof *c),
+                 *beta = malloc((nc ? nc : 1) * sizeof *beta);
     if (c && beta) (void)sw_pwl_canonical(&m, &a, &b, c, beta, &err);
     free(c);
     free(beta);

@@ -59,8 +59,12 @@ static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err 
     d->x[k] = o->lo;
     d->w[k++] = 0;
     for (i = 0; i < c->n; i++)
-      if (c->x[i] > o->lo && c->x[i] < o->hi) { d->x[k] = c->x[i]; d->y[k] = c->y[i]; d->w[k++] = 1; }
-      else if (c->x[i] == o->lo) d->w[0] = 1;
+      if (c->x[i] > o->lo && c->x[i] < o->hi) {
+        d->x[k] = c->x[i];
+        d->y[k] = c->y[i];
+        d->w[k++] = 1;
+      } else if (c->x[i] == o->lo)
+        d->w[0] = 1;
       else if (c->x[i] == o->hi) d->w[n - 1] = 1;
     d->x[k++] = o->hi;
   } else {
@@ -155,7 +159,8 @@ static int one_segment_closed(fit_job *J, sw_pwl *out, int *st, sw_err *err)
   *st = SW_OK;
   if (!plain_law(J)) return 0;
   if ((sign = curvature_sign(J, st, err)) == 0 || *st) return *st != SW_OK;
-  if ((*st = sw_curve_eval(c, o->lo, &fa, err)) || (*st = sw_curve_eval(c, o->hi, &fb, err))) return 1;
+  if ((*st = sw_curve_eval(c, o->lo, &fa, err)) || (*st = sw_curve_eval(c, o->hi, &fb, err)))
+    return 1;
   m = (fb - fa) / (o->hi - o->lo);
   a = o->lo;
   b = o->hi;
@@ -264,8 +269,19 @@ static int refine_peaks(fit_job *J, const sw_pwl *m, double *peak, size_t *added
     x2 = a + g * (b - a);
     if ((st = true_error(J, m, x1, &f1, err)) || (st = true_error(J, m, x2, &f2, err))) goto done;
     for (it = 0; it < 40 && b - a > 1e-14 * (fabs(a) + fabs(b)); it++) {
-      if (f1 >= f2) { b = x2; x2 = x1; f2 = f1; x1 = b - g * (b - a); if ((st = true_error(J, m, x1, &f1, err))) goto done; }
-      else { a = x1; x1 = x2; f1 = f2; x2 = a + g * (b - a); if ((st = true_error(J, m, x2, &f2, err))) goto done; }
+      if (f1 >= f2) {
+        b = x2;
+        x2 = x1;
+        f2 = f1;
+        x1 = b - g * (b - a);
+        if ((st = true_error(J, m, x1, &f1, err))) goto done;
+      } else {
+        a = x1;
+        x1 = x2;
+        f1 = f2;
+        x2 = a + g * (b - a);
+        if ((st = true_error(J, m, x2, &f2, err))) goto done;
+      }
     }
     if ((f1 > f2 ? f1 : f2) > *peak) *peak = f1 > f2 ? f1 : f2;
     if ((f1 > f2 ? f1 : f2) > e[i] * (1 + 1e-9)) xs[cnt++] = f1 > f2 ? x1 : x2;
@@ -293,7 +309,8 @@ static int minimax_fixed(fit_job *J, const double *K, size_t n, sw_pwl *out, sw_
   for (round = 0;; round++) {
     double peak;
     size_t added;
-    st = fit_minimax_fixed(&J->d, K, n, J->o->continuous, &J->cons, out, &J->internal, &J->iters, err);
+    st = fit_minimax_fixed(&J->d, K, n, J->o->continuous, &J->cons, out, &J->internal, &J->iters,
+                           err);
     if (st || !J->d.analytic || round == EXCHANGE_ROUNDS) return st;
     if ((st = refine_peaks(J, out, &peak, &added, err))) { sw_pwl_free(out); return st; }
     if (!added || peak <= J->internal * (1 + 1e-6)) return SW_OK;
@@ -458,7 +475,8 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
     sw_pwl alt;
     double e_alt;
     memset(&alt, 0, sizeof alt);
-    if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->cons, out, &J->internal, &J->iters, err)))
+    if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->cons, out, &J->internal, &J->iters,
+                                err)))
       goto done;
     if (J->d.analytic) { /* exchange steps on the found knots */
       sw_pwl r;
@@ -475,8 +493,9 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
       st = knots_for(J, n, K, err);
       if (!st) st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err);
       /* only a level below the optimal knots' one matters: capped there */
-      if (!st) st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->cons, 0, J->internal, 1e-11,
-                                           1, &alt, &e_alt, &J->iters, err);
+      if (!st)
+        st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->cons, 0, J->internal, 1e-11, 1,
+                                    &alt, &e_alt, &J->iters, err);
       if (!st && e_alt == INFINITY) {
         /* the curvature knots cannot reach that level: nothing to compare */
       } else if (!st) {
@@ -495,7 +514,8 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
     }
     goto done;
   }
-  if (o->knots == SW_KNOTS_OPTIMAL && (o->criterion == SW_FIT_INTERP || o->criterion == SW_FIT_CHORD)) {
+  if (o->knots == SW_KNOTS_OPTIMAL &&
+      (o->criterion == SW_FIT_INTERP || o->criterion == SW_FIT_CHORD)) {
     st = fit_interp_count(&J->d, n, out, &J->internal, &J->iters, err);
     goto done;
   }
@@ -513,8 +533,8 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
     st = minimax_fixed(J, K, n, out, err);
     break;
   case SW_FIT_LSQ:
-    st = fit_lsq_fixed(&J->d, K, n, o->continuous, &J->cons, o->through_x, o->through_y, o->nthrough,
-                       out, &J->internal, err);
+    st = fit_lsq_fixed(&J->d, K, n, o->continuous, &J->cons, o->through_x, o->through_y,
+                       o->nthrough, out, &J->internal, err);
     if (!st) J->internal = fit_data_maxerr(&J->d, out);
     break;
   default:
@@ -728,7 +748,8 @@ int sw_fit(const sw_curve *c, const sw_fit_opts *opts, sw_pwl *out, sw_fit_info 
   else st = fit_count(&J, o->knots == SW_KNOTS_LIST ? o->nknot_list - 1 : o->segments, out, err);
   if (st) goto done;
   if (J.have_cmp) cmp = J.cmp;
-  else if ((st = fit_recheck(out, c, o->lo, o->hi, COMPARE_GRID, o->rel_floor, &cmp, err))) goto done;
+  else if ((st = fit_recheck(out, c, o->lo, o->hi, COMPARE_GRID, o->rel_floor, &cmp, err)))
+    goto done;
   info->max_abs = cmp.max_abs;
   info->x_abs = cmp.x_abs;
   info->max_rel = cmp.rel_undefined ? NAN : cmp.max_rel;

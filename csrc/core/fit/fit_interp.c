@@ -73,7 +73,8 @@ int fit_interp_count(const fit_data *d, size_t nseg, sw_pwl *out, double *e_out,
     ehi *= 2;
     if (!sw_isfinite(ehi)) {
       free(idx);
-      return sw_err_set(err, SW_ERANGE, "no chord model with %zu segments at any finite error level", nseg);
+      return sw_err_set(err, SW_ERANGE,
+                        "no chord model with %zu segments at any finite error level", nseg);
     }
   }
   for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > 1e-10 * ehi; it++) {
@@ -86,7 +87,10 @@ int fit_interp_count(const fit_data *d, size_t nseg, sw_pwl *out, double *e_out,
     size_t best = 0, span = 0, mid;
     for (j = 0; j < m; j++)
       if (idx[j + 1] - idx[j] > span) { span = idx[j + 1] - idx[j]; best = j; }
-    if (span < 2) { free(idx); return sw_err_set(err, SW_EINVAL, "too few samples for %zu segments", nseg); }
+    if (span < 2) {
+      free(idx);
+      return sw_err_set(err, SW_EINVAL, "too few samples for %zu segments", nseg);
+    }
     mid = idx[best] + span / 2;
     memmove(idx + best + 2, idx + best + 1, (m - best) * sizeof *idx);
     idx[best + 1] = mid;

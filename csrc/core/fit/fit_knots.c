@@ -26,14 +26,17 @@ int fit_knots_geometric(double lo, double hi, double offset, size_t nseg, double
   size_t i;
   double a = lo - offset, b = hi - offset;
   if (!(a > 0 && b > 0) && !(a < 0 && b < 0))
-    return sw_err_set(err, SW_EINVAL, "geometric knots need a range that does not contain the "
-                      "offset %g (lo = %g, hi = %g); give offset outside the range", offset, lo, hi);
+    return sw_err_set(err, SW_EINVAL,
+                      "geometric knots need a range that does not contain the "
+                      "offset %g (lo = %g, hi = %g); give offset outside the range",
+                      offset, lo, hi);
   for (i = 0; i <= nseg; i++) k[i] = offset + a * pow(b / a, (double)i / (double)nseg);
   k[0] = lo;
   k[nseg] = hi;
   for (i = 1; i < nseg; i++)
     if (!(k[i] > k[i - 1]))
-      return sw_err_set(err, SW_EINVAL, "geometric knots collapse (too many segments for the range)");
+      return sw_err_set(err, SW_EINVAL,
+                        "geometric knots collapse (too many segments for the range)");
   return SW_OK;
 }
 
@@ -80,7 +83,8 @@ int fit_knots_curvature(const sw_curve *c, const fit_data *d, double lo, double 
                         size_t nseg, double power, double *k, sw_err *err)
 {
   size_t G = CURV_CELLS, i, j;
-  double *rho = sw_alloc(G, sizeof *rho, err), big = 0, mean = 0, total = 0, cell = (hi - lo) / (double)G;
+  double *rho = sw_alloc(G, sizeof *rho, err), big = 0, mean = 0, total = 0,
+         cell = (hi - lo) / (double)G;
   int st = SW_OK;
   if (!rho) return SW_ENOMEM;
   if (c->kind == SW_CURVE_SAMPLES) {

@@ -56,7 +56,10 @@ static int solve_dense(const double *D, const double *E, const double *r, size_t
   b = gsl_vector_calloc(N);
   xv = gsl_vector_alloc(N);
   P = gsl_permutation_alloc(N);
-  if (!A || !b || !xv || !P) { st = sw_err_set(err, SW_ENOMEM, "out of memory for the KKT system"); goto done; }
+  if (!A || !b || !xv || !P) {
+    st = sw_err_set(err, SW_ENOMEM, "out of memory for the KKT system");
+    goto done;
+  }
   for (i = 0; i < nc; i++) {
     gsl_matrix_set(A, i, i, D[i]);
     if (i + 1 < nc) {
@@ -78,7 +81,8 @@ static int solve_dense(const double *D, const double *E, const double *r, size_t
   gs = gsl_linalg_LU_decomp(A, P, &sg);
   if (gs == GSL_SUCCESS) gs = gsl_linalg_LU_solve(A, P, b, xv);
   if (gs != GSL_SUCCESS) {
-    st = sw_err_set(err, SW_ENOSOL, "the constraints cannot be met together (%s)", gsl_strerror(gs));
+    st =
+        sw_err_set(err, SW_ENOSOL, "the constraints cannot be met together (%s)", gsl_strerror(gs));
     goto done;
   }
   for (i = 0; i < nc; i++) {
@@ -136,7 +140,8 @@ static int lsq_cont(const fit_data *d, const double *K, size_t n, const fit_cons
     rows[m++] = (eqrow){j, 1 - t, t, ty[i]};
   }
   if (cons && cons->has_first) rows[m++] = (eqrow){0, -1, 1, cons->slope_first * (K[1] - K[0])};
-  if (cons && cons->has_last) rows[m++] = (eqrow){n - 1, -1, 1, cons->slope_last * (K[n] - K[n - 1])};
+  if (cons && cons->has_last)
+    rows[m++] = (eqrow){n - 1, -1, 1, cons->slope_last * (K[n] - K[n - 1])};
   for (loops = 0; loops <= n; loops++) {
     size_t j, added = 0;
     if (m == 0) {
@@ -227,7 +232,8 @@ static int lsq_disc(const fit_data *d, const double *K, size_t n, const fit_cons
       S += W; Sx += W * X; Sy += W * d->y[i];
     }
     if (!(S > 0))
-      return sw_err_set(err, SW_EINVAL, "segment %zu [%g, %g] holds no samples", j + 1, K[j], K[j + 1]);
+      return sw_err_set(err, SW_EINVAL, "segment %zu [%g, %g] holds no samples", j + 1, K[j],
+                        K[j + 1]);
     {
       double mx = Sx / S, my = Sy / S;
       double px = has_t ? xt - xc : mx, py = has_t ? yt : my;  /* pivot of the line */
@@ -309,13 +315,17 @@ static int dp_knots(const fit_data *d, double lo, double hi, size_t nseg, double
   for (i = 0; i < d->n; i++)
     if (nd == 0 || d->x[i] > d->x[dist[nd - 1]]) dist[nd++] = i;
   M = nd - 1 < DP_CANDIDATES ? nd - 1 : DP_CANDIDATES;
-  if (M < nseg) { st = sw_err_set(err, SW_EINVAL, "too few samples for %zu segments", nseg); goto done; }
+  if (M < nseg) {
+    st = sw_err_set(err, SW_EINVAL, "too few samples for %zu segments", nseg);
+    goto done;
+  }
   cand = sw_alloc(M + 1, sizeof *cand, err);
   P = sw_alloc(M + 1, sizeof *P, err);
   F = sw_alloc((nseg + 1) * (M + 1), sizeof *F, err);
   arg = sw_alloc((nseg + 1) * (M + 1), sizeof *arg, err);
   if (!cand || !P || !F || !arg) { st = SW_ENOMEM; goto done; }
-  for (i = 0; i <= M; i++) cand[i] = d->x[dist[(size_t)((double)i * (double)(nd - 1) / (double)M + 0.5)]];
+  for (i = 0; i <= M; i++)
+    cand[i] = d->x[dist[(size_t)((double)i * (double)(nd - 1) / (double)M + 0.5)]];
   cand[0] = lo;
   cand[M] = hi;
   for (i = 0; i < d->n; i++) {
@@ -415,9 +425,17 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
     sub.y = sw_alloc(d->n / stride + 2, sizeof(double), err);
     sub.s = sw_alloc(d->n / stride + 2, sizeof(double), err);
     sub.w = sw_alloc(d->n / stride + 2, sizeof(double), err);
-    if (!sub.x || !sub.y || !sub.s || !sub.w) { fit_data_free(&sub); free(c); free(K2); return SW_ENOMEM; }
+    if (!sub.x || !sub.y || !sub.s || !sub.w) {
+      fit_data_free(&sub);
+      free(c);
+      free(K2);
+      return SW_ENOMEM;
+    }
     for (i = 0; i < d->n; i += stride, m++) {
-      sub.x[m] = d->x[i]; sub.y[m] = d->y[i]; sub.s[m] = d->s[i]; sub.w[m] = d->w[i] * (double)stride;
+      sub.x[m] = d->x[i];
+      sub.y[m] = d->y[i];
+      sub.s[m] = d->s[i];
+      sub.w[m] = d->w[i] * (double)stride;
     }
     sub.n = m;
     d = &sub;
@@ -444,8 +462,21 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
       K2[j] = x2;
       if ((st = cont_sse(d, K2, nseg, c, &f2, err))) goto done;
       for (it = 0; it < 24; it++) {
-        if (f1 <= f2) { b = x2; x2 = x1; f2 = f1; x1 = b - g * (b - a); K2[j] = x1; st = cont_sse(d, K2, nseg, c, &f1, err); }
-        else { a = x1; x1 = x2; f1 = f2; x2 = a + g * (b - a); K2[j] = x2; st = cont_sse(d, K2, nseg, c, &f2, err); }
+        if (f1 <= f2) {
+          b = x2;
+          x2 = x1;
+          f2 = f1;
+          x1 = b - g * (b - a);
+          K2[j] = x1;
+          st = cont_sse(d, K2, nseg, c, &f1, err);
+        } else {
+          a = x1;
+          x1 = x2;
+          f1 = f2;
+          x2 = a + g * (b - a);
+          K2[j] = x2;
+          st = cont_sse(d, K2, nseg, c, &f2, err);
+        }
         if (st) goto done;
       }
       *iters += 1;

@@ -130,7 +130,8 @@ static double start_on_line(const rec_list *R, const seg_rec *g, double h, doubl
 
 /* Model from recorded segments: centroid lines (discontinuous) or a
  * back-substitution that keeps the knots shared (continuous). */
-static int build_model(const fit_data *d, const rec_list *R, int continuous, sw_pwl *out, sw_err *err)
+static int build_model(const fit_data *d, const rec_list *R, int continuous, sw_pwl *out,
+                       sw_err *err)
 {
   size_t m = R->n, j;
   int st = sw_pwl_alloc(out, m, err);
@@ -458,7 +459,8 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
     kx = sw_alloc(d->n + 1, sizeof *kx, err);
     ky = sw_alloc(d->n + 1, sizeof *ky, err);
     st = (!kx || !ky) ? SW_ENOMEM : SW_OK;
-    if (!st && m == SIZE_MAX) st = SW_OK; /* even the relaxation failed: straight to the fallbacks */
+    if (!st && m == SIZE_MAX)
+      st = SW_OK; /* even the relaxation failed: straight to the fallbacks */
     else if (!st) st = reach_with_greedy(d, e, cons, d->n, &w, &m, kx, ky, err);
     fit_tube_clear(&w);
     if (!st && m != SIZE_MAX) st = knots_model(kx, ky, m, out, err);
@@ -528,9 +530,9 @@ static int count_at(const fit_data *d, double e, int reach, int continuous, cons
  * precision rtol, above the infeasible *elo: unless *ehi is known to meet
  * the count it doubles until it does (at most 200 times, while finite;
  * else *found = 0).  *steps gets the bisection's step count. */
-static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons, tube_ws *w,
-                        double rtol, int known, double *elo, double *ehi, int *found, size_t *steps,
-                        sw_err *err)
+static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
+                        tube_ws *w, double rtol, int known, double *elo, double *ehi, int *found,
+                        size_t *steps, sw_err *err)
 {
   size_t m, it;
   int st = SW_OK, tries;
@@ -637,11 +639,13 @@ static int reach_levels(const fit_data *d, size_t nseg, int continuous, const fi
     int gknown = 0;
     if ((st = level_guess(d, nseg, 1, cons, w, 1e-8, &g, err))) return st;
     if (g > 0 && (st = bracket_guess(d, nseg, 1, cons, w, g, &gl, &eg, &gknown, err))) return st;
-    if ((st = greedy_level(d, nseg, 1, cons, w, 1e-6, gknown, &gl, &eg, found, &it, err))) return st;
+    if ((st = greedy_level(d, nseg, 1, cons, w, 1e-6, gknown, &gl, &eg, found, &it, err)))
+      return st;
     if (*found) *ehi = eg;
   }
   for (tries = 0; tries < 200; tries++) {
-    if ((st = count_at(d, *ehi, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err))) return st;
+    if ((st = count_at(d, *ehi, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err)))
+      return st;
     if (m <= nseg) break;
     *elo = *ehi;
     *ehi *= 1.25;
@@ -651,7 +655,8 @@ static int reach_levels(const fit_data *d, size_t nseg, int continuous, const fi
    * would spend a dozen reachable-set passes all finding no model */
   if (tries < 200 && *ehi * (1 - 0.9e-4) > *elo) {
     double probe = *ehi * (1 - 0.9e-4); /* an infeasible probe ends the bisection */
-    if ((st = count_at(d, probe, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err))) return st;
+    if ((st = count_at(d, probe, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err)))
+      return st;
     if (m <= nseg) *ehi = probe; else *elo = probe;
   }
   for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && *ehi - *elo > 1e-4 * *ehi; it++) {
@@ -716,7 +721,8 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
     if ((st = level_guess(d, nseg, continuous, cons, &w, 1e-8, &g, err))) goto done;
     if (g > 0 && (st = bracket_guess(d, nseg, continuous, cons, &w, g, &elo, &ehi, &known, err)))
       goto done;
-    if ((st = greedy_level(d, nseg, continuous, cons, &w, 1e-7, known, &elo, &ehi, &found, &it, err)))
+    if ((st = greedy_level(d, nseg, continuous, cons, &w, 1e-7, known, &elo, &ehi, &found, &it,
+                           err)))
       goto done;
     *iters += it;
   }
@@ -728,7 +734,10 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
   *e_lo = reach ? lower : elo; /* the greedy counts are exact: elo is infeasible for any knots */
   *e_hi = ehi;
   if ((st = count_at(d, ehi, reach, continuous, cons, nseg, &w, &R, kx, ky, &m, err))) goto done;
-  if (m > nseg) { st = sw_err_set(err, SW_ENUMERIC, "segment count search did not settle"); goto done; }
+  if (m > nseg) {
+    st = sw_err_set(err, SW_ENUMERIC, "segment count search did not settle");
+    goto done;
+  }
   st = split_to_count(d, kx, m, nseg, knots, err);
 done:
   free(kx);
@@ -765,8 +774,8 @@ int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_
   }
   /* the exact minimax on these knots lies between the count search's
    * bounds: a short bisection to full precision */
-  st = fit_minimax_fixed_from(d, knots, nseg, continuous, cons, elo, ehi, 1e-11, 0, out, e_out, iters,
-                              err);
+  st = fit_minimax_fixed_from(d, knots, nseg, continuous, cons, elo, ehi, 1e-11, 0, out, e_out,
+                              iters, err);
 done:
   free(knots);
   return st;
@@ -862,7 +871,8 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
   *e_out = 0;
   if (continuous) {
-    if ((st = bisect_chain(d, pi, qi, nseg, cons, &w, &R, e_lo, e_hi, rtol, capped, e_out, iters, err)))
+    if ((st = bisect_chain(d, pi, qi, nseg, cons, &w, &R, e_lo, e_hi, rtol, capped, e_out, iters,
+                           err)))
       goto done;
     if (*e_out == INFINITY) goto done; /* capped: nothing below e_hi */
   } else {
@@ -879,8 +889,8 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
           (st = chain(d, e_lo, pi + j, qi + j, 1, &kk, &w, &one, &feas, err)))
         goto done;
       if (feas) ej = e_lo;
-      else if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, e_lo, e_hi, rtol, capped, &ej,
-                                  iters, err)))
+      else if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, e_lo, e_hi, rtol, capped,
+                                  &ej, iters, err)))
         goto done;
       if (ej > *e_out) *e_out = ej;
       if (ej == INFINITY) goto done; /* capped: nothing below e_hi */

@@ -96,7 +96,8 @@ static int resolve_knot_list(fit_resolved *r, sw_err *err)
 {
   sw_fit_opts *o = &r->o;
   size_t i, n = 0;
-  if (o->tol > 0) return sw_err_set(err, SW_EINVAL, "tol and an explicit knot list exclude each other");
+  if (o->tol > 0)
+    return sw_err_set(err, SW_EINVAL, "tol and an explicit knot list exclude each other");
   for (i = 0; i < o->nknot_list; i++) {
     double x = o->knot_list[i];
     if (!sw_isfinite(x) || x < o->lo || x > o->hi)
@@ -124,7 +125,8 @@ static int resolve_counts(fit_resolved *r, sw_err *err)
 {
   sw_fit_opts *o = &r->o;
   int st;
-  if (o->tol > 0 && o->segments) return sw_err_set(err, SW_EINVAL, "give segments or tol, not both");
+  if (o->tol > 0 && o->segments)
+    return sw_err_set(err, SW_EINVAL, "give segments or tol, not both");
   if (o->max_segments && !(o->tol > 0))
     return sw_err_set(err, SW_EINVAL, "max_segments goes with tol (a cap on the fewest-segment "
                       "search)");
@@ -170,9 +172,11 @@ static int resolve_through(fit_resolved *r, sw_err *err)
 static int check_criterion(const sw_fit_opts *o, sw_err *err)
 {
   if (o->criterion == SW_FIT_TANGENT) {
-    if (!o->has_at) return sw_err_set(err, SW_EINVAL, "criterion 'tangent' needs at (the operating point)");
+    if (!o->has_at)
+      return sw_err_set(err, SW_EINVAL, "criterion 'tangent' needs at (the operating point)");
     if (!(o->at >= o->lo && o->at <= o->hi))
-      return sw_err_set(err, SW_EINVAL, "at (%g) must lie in the range [%g, %g]", o->at, o->lo, o->hi);
+      return sw_err_set(err, SW_EINVAL, "at (%g) must lie in the range [%g, %g]", o->at, o->lo,
+                        o->hi);
     if (o->knots != SW_KNOTS_UNIFORM)
       return sw_err_set(err, SW_EINVAL, "knots have no meaning for criterion 'tangent' (one "
                         "segment at the operating point)");

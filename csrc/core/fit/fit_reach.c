@@ -128,7 +128,8 @@ int fit_reach_candidates(const fit_data *d, const double *extra, size_t nextra, 
 }
 
 /* Adds [lo, hi] at candidate j unless a piece there already holds it. */
-static void add_piece(reach_ws *r, size_t j, double lo, double hi, size_t from, int fromp, size_t level)
+static void add_piece(reach_ws *r, size_t j, double lo, double hi, size_t from, int fromp,
+                      size_t level)
 {
   piece *P = r->pc + j * PIECES;
   int t;
@@ -167,8 +168,9 @@ static int last_bounds(const fit_cons *cons, int first, double *smin, double *sm
   return *smin != a || *smax != b;
 }
 
-static int reach(const fit_data *d, double e, const fit_cons *cons, size_t maxseg, const double *extra,
-                 size_t nextra, int own, size_t *count, double *kx, double *ky, sw_err *err);
+static int reach(const fit_data *d, double e, const fit_cons *cons, size_t maxseg,
+                 const double *extra, size_t nextra, int own, size_t *count, double *kx, double *ky,
+                 sw_err *err);
 
 int fit_reach(const fit_data *d, double e, const fit_cons *cons, size_t maxseg, const double *extra,
               size_t nextra, size_t *count, double *kx, double *ky, sw_err *err)
@@ -182,8 +184,9 @@ int fit_reach_among(const fit_data *d, double e, const fit_cons *cons, size_t ma
   return reach(d, e, cons, maxseg, cand, ncand, 0, count, NULL, NULL, err);
 }
 
-static int reach(const fit_data *d, double e, const fit_cons *cons, size_t maxseg, const double *extra,
-                 size_t nextra, int own, size_t *count, double *kx, double *ky, sw_err *err)
+static int reach(const fit_data *d, double e, const fit_cons *cons, size_t maxseg,
+                 const double *extra, size_t nextra, int own, size_t *count, double *kx, double *ky,
+                 sw_err *err)
 {
   reach_ws r;
   size_t level, j, M, fin;

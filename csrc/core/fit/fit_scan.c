@@ -222,7 +222,8 @@ size_t fit_tube_run(const fit_data *d, double e, fit_span sp, fit_tube *w, const
     vmax = R->a[hu] + R->s[hu] * D;
     vmin = R->a[hl] + R->s[hl] * D;
     /* the band must meet the polygon's range of values at x[i] */
-    if (vmax < l - 1e-12 * (fabs(l) + fabs(vmax)) || vmin > u + 1e-12 * (fabs(u) + fabs(vmin))) break;
+    if (vmax < l - 1e-12 * (fabs(l) + fabs(vmax)) || vmin > u + 1e-12 * (fabs(u) + fabs(vmin)))
+      break;
     if (!ring_cut(R, hu, 1, D, u, &keep)) break;
     hu = keep;
     if (R->dead[hl]) hl = keep;
@@ -249,7 +250,11 @@ void fit_slope_bounds(const fit_cons *cons, int first, int lastseg, double *smin
   if (cons && cons->dir < 0) *smax = 0;
   if (cons && first && cons->has_first) *smin = *smax = cons->slope_first;
   if (cons && lastseg && cons->has_last) {
-    if (first && cons->has_first && cons->slope_first != cons->slope_last) { *smin = 1; *smax = 0; return; }
+    if (first && cons->has_first && cons->slope_first != cons->slope_last) {
+      *smin = 1;
+      *smax = 0;
+      return;
+    }
     *smin = *smax = cons->slope_last;
   }
 }

@@ -100,9 +100,11 @@ static int grow_el(sw_net *net, sw_err *err)
 static int check_value(sw_net_kind kind, const char *name, double value, sw_err *err)
 {
   if (!sw_isfinite(value))
-    return sw_err_set(err, SW_EINVAL, "%s %s: value must be finite (got %g)", sw_net_kind_name(kind), name, value);
+    return sw_err_set(err, SW_EINVAL, "%s %s: value must be finite (got %g)",
+                      sw_net_kind_name(kind), name, value);
   if (kind == SW_NET_R && !(value > 0))
-    return sw_err_set(err, SW_EINVAL, "resistor %s: resistance must be positive (got %g ohm)", name, value);
+    return sw_err_set(err, SW_EINVAL, "resistor %s: resistance must be positive (got %g ohm)", name,
+                      value);
   return SW_OK;
 }
 
@@ -167,8 +169,9 @@ static int build_segments(sw_net_dev *d, const char *name, sw_err *err)
       int label = g->label; /* g lives in the block freed next */
       double slope = g->slope, icpt = g->icpt;
       free(d->seg); d->seg = NULL;
-      return sw_err_set(err, SW_EINVAL, "device %s: segment %d's line is not finite (slope %g, intercept %g)",
-                        name, label, slope, icpt);
+      return sw_err_set(err, SW_EINVAL,
+                        "device %s: segment %d's line is not finite (slope %g, intercept %g)", name,
+                        label, slope, icpt);
     }
     if (d->x_is_i) { g->a = ay / nrm; g->b = ax / nrm; }
     else { g->a = ax / nrm; g->b = ay / nrm; }
@@ -188,7 +191,8 @@ int sw_net_add_device(sw_net *net, const char *name, const char *na,
   if (!model || model->nseg == 0 || !model->x)
     return sw_err_set(err, SW_EINVAL, "device %s: the model is empty or freed", name);
   if (!(pmax >= 0) || !sw_isfinite(pmax))
-    return sw_err_set(err, SW_EINVAL, "device %s: pmax must be a finite rating >= 0 W (got %g)", name, pmax);
+    return sw_err_set(err, SW_EINVAL, "device %s: pmax must be a finite rating >= 0 W (got %g)",
+                      name, pmax);
   if (net->ndev == net->devcap) {
     size_t cap = net->devcap ? net->devcap * 2 : 4;
     sw_net_dev *q = sw_realloc(net->dev, cap, sizeof *q, err);
@@ -216,7 +220,10 @@ int sw_net_set(sw_net *net, const char *name, double value, sw_err *err)
   size_t k = sw_net_find(net, name);
   if (k == SW_NET_NONE) return sw_err_set(err, SW_EINVAL, "no element named '%s'", name);
   if (net->el[k].kind == SW_NET_DEV)
-    return sw_err_set(err, SW_EINVAL, "'%s' is a device: its law comes from its model, set changes sources, gains and resistors", name);
+    return sw_err_set(
+        err, SW_EINVAL,
+        "'%s' is a device: its law comes from its model, set changes sources, gains and resistors",
+        name);
   if (check_value(net->el[k].kind, name, value, err)) return err->code;
   net->el[k].value = value;
   unprepare(net);
@@ -252,7 +259,8 @@ static int vloop_error(const sw_net *net, size_t closing, sw_err *err)
   char list[200] = "";
   if (!prev_el || !queue) {
     free(prev_el); free(queue);
-    return sw_err_set(err, SW_EINVAL, "element %s closes a loop of voltage sources", net->el[closing].name);
+    return sw_err_set(err, SW_EINVAL, "element %s closes a loop of voltage sources",
+                      net->el[closing].name);
   }
   for (k = 0; k < n; k++) prev_el[k] = SW_NET_NONE;
   queue[tail++] = net->el[closing].na;
@@ -269,13 +277,16 @@ static int vloop_error(const sw_net *net, size_t closing, sw_err *err)
     }
   }
   append(list, sizeof list, net->el[closing].name);
-  for (k = net->el[closing].nb; k != net->el[closing].na && prev_el[k] != SW_NET_NONE && t < n; t++) {
+  for (k = net->el[closing].nb; k != net->el[closing].na && prev_el[k] != SW_NET_NONE && t < n;
+       t++) {
     const sw_net_el *e = &net->el[prev_el[k]];
     append(list, sizeof list, e->name);
     k = e->na == k ? e->nb : e->na;
   }
   free(prev_el); free(queue);
-  return sw_err_set(err, SW_EINVAL, "voltage sources form a loop: %s (their voltages fix the same loop twice)", list);
+  return sw_err_set(err, SW_EINVAL,
+                    "voltage sources form a loop: %s (their voltages fix the same loop twice)",
+                    list);
 }
 
 /* Node j is read by the control input of a voltage-controlled source. */
@@ -304,9 +315,14 @@ static int check_topology(sw_net *net, sw_err *err)
     if (e->kind == SW_NET_CCVS || e->kind == SW_NET_CCCS) {
       size_t c = sw_net_find(net, e->ctrl_name);
       if (c == SW_NET_NONE)
-        rc = sw_err_set(err, SW_EINVAL, "%s %s: no element named '%s' to take the control current from", sw_net_kind_name(e->kind), e->name, e->ctrl_name);
+        rc = sw_err_set(err, SW_EINVAL,
+                        "%s %s: no element named '%s' to take the control current from",
+                        sw_net_kind_name(e->kind), e->name, e->ctrl_name);
       else if (net->el[c].kind == SW_NET_CCCS || c == k)
-        rc = sw_err_set(err, SW_EINVAL, "%s %s: the control element '%s' must not be a current-controlled current source or itself", sw_net_kind_name(e->kind), e->name, e->ctrl_name);
+        rc = sw_err_set(err, SW_EINVAL,
+                        "%s %s: the control element '%s' must not be a current-controlled current "
+                        "source or itself",
+                        sw_net_kind_name(e->kind), e->name, e->ctrl_name);
       else e->ctrl = c;
     }
   }
@@ -315,7 +331,10 @@ static int check_topology(sw_net *net, sw_err *err)
   for (k = 0; k < net->nel; k++) { count[net->el[k].na]++; count[net->el[k].nb]++; }
   for (j = 1; j < n && !rc; j++) {
     if (count[j] == 0)
-      rc = sw_err_set(err, SW_EINVAL, "node '%s' is only used as a control node: no element carries current into it", net->node[j]);
+      rc =
+          sw_err_set(err, SW_EINVAL,
+                     "node '%s' is only used as a control node: no element carries current into it",
+                     net->node[j]);
     else if (count[j] == 1) {
       for (k = 0; k < net->nel; k++)
         if (net->el[k].na == j || net->el[k].nb == j) break;
@@ -325,8 +344,10 @@ static int check_topology(sw_net *net, sw_err *err)
     }
   }
   for (k = 0; k < net->nel && !rc; k++)
-    if (net->el[k].na == net->el[k].nb && net->el[k].kind != SW_NET_R && net->el[k].kind != SW_NET_DEV)
-      rc = sw_err_set(err, SW_EINVAL, "%s %s connects node '%s' to itself", sw_net_kind_name(net->el[k].kind), net->el[k].name, net->node[net->el[k].na]);
+    if (net->el[k].na == net->el[k].nb && net->el[k].kind != SW_NET_R &&
+        net->el[k].kind != SW_NET_DEV)
+      rc = sw_err_set(err, SW_EINVAL, "%s %s connects node '%s' to itself",
+                      sw_net_kind_name(net->el[k].kind), net->el[k].name, net->node[net->el[k].na]);
   /* loops of voltage sources */
   for (j = 0; j < n; j++) parent[j] = j;
   for (k = 0; k < net->nel && !rc; k++) {
@@ -351,16 +372,22 @@ static int check_topology(sw_net *net, sw_err *err)
       char nodes[160] = "", srcs[160] = "";
       size_t q;
       if (root == g) continue;
-      for (q = 1; q < n; q++) if (uf_find(parent, q) == root) append(nodes, sizeof nodes, net->node[q]);
+      for (q = 1; q < n; q++)
+        if (uf_find(parent, q) == root) append(nodes, sizeof nodes, net->node[q]);
       for (k = 0; k < net->nel; k++) {
         const sw_net_el *e = &net->el[k];
-        if (is_ilike(e->kind) && ((uf_find(parent, e->na) == root) != (uf_find(parent, e->nb) == root)))
+        if (is_ilike(e->kind) &&
+            ((uf_find(parent, e->na) == root) != (uf_find(parent, e->nb) == root)))
           append(srcs, sizeof srcs, e->name);
       }
       if (srcs[0])
-        rc = sw_err_set(err, SW_EINVAL, "current sources %s form a cut: nodes %s reach the reference only through them, so their voltages are undetermined", srcs, nodes);
+        rc = sw_err_set(err, SW_EINVAL,
+                        "current sources %s form a cut: nodes %s reach the reference only through "
+                        "them, so their voltages are undetermined",
+                        srcs, nodes);
       else
-        rc = sw_err_set(err, SW_EINVAL, "floating nodes %s: no path to the reference node \"0\"", nodes);
+        rc = sw_err_set(err, SW_EINVAL, "floating nodes %s: no path to the reference node \"0\"",
+                        nodes);
     }
   }
   free(count); free(parent);

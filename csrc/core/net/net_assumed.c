@@ -44,11 +44,41 @@ static int trace_push(sw_net_trace *t, size_t m, const int *state, const double 
     size_t cap = t->cap ? 2 * t->cap : 8;
     int *s = sw_realloc(t->state, cap * m, sizeof *s, err);
     if (s) t->state = s;
-    { double *q = s ? sw_realloc(t->v, cap * m, sizeof *q, err) : NULL; if (q) t->v = q; else s = NULL; }
-    { double *q = s ? sw_realloc(t->i, cap * m, sizeof *q, err) : NULL; if (q) t->i = q; else s = NULL; }
-    { double *q = s ? sw_realloc(t->x, cap * m, sizeof *q, err) : NULL; if (q) t->x = q; else s = NULL; }
-    { double *q = s ? sw_realloc(t->excess, cap * m, sizeof *q, err) : NULL; if (q) t->excess = q; else s = NULL; }
-    { int *q = s ? sw_realloc(t->event, cap, sizeof *q, err) : NULL; if (q) t->event = q; else s = NULL; }
+    {
+      double *q = s ? sw_realloc(t->v, cap * m, sizeof *q, err) : NULL;
+      if (q)
+        t->v = q;
+      else
+        s = NULL;
+    }
+    {
+      double *q = s ? sw_realloc(t->i, cap * m, sizeof *q, err) : NULL;
+      if (q)
+        t->i = q;
+      else
+        s = NULL;
+    }
+    {
+      double *q = s ? sw_realloc(t->x, cap * m, sizeof *q, err) : NULL;
+      if (q)
+        t->x = q;
+      else
+        s = NULL;
+    }
+    {
+      double *q = s ? sw_realloc(t->excess, cap * m, sizeof *q, err) : NULL;
+      if (q)
+        t->excess = q;
+      else
+        s = NULL;
+    }
+    {
+      int *q = s ? sw_realloc(t->event, cap, sizeof *q, err) : NULL;
+      if (q)
+        t->event = q;
+      else
+        s = NULL;
+    }
     if (!s) return SW_ENOMEM;
     t->cap = cap;
   }
@@ -145,9 +175,14 @@ int sw_net_assumed_run(const sw_net *net, sw_net_lr *lr, int *hist, double *work
       sw_net_state_text(net, state, text, sizeof text);
       if (trace) {
         for (k = 0; k < m; k++) v[k] = i[k] = x[k] = ex[k] = NAN;
-        if (trace_push(trace, m, state, v, i, x, ex, SW_TRACE_SINGULAR, err)) { rc = SW_ENOMEM; break; }
+        if (trace_push(trace, m, state, v, i, x, ex, SW_TRACE_SINGULAR, err)) {
+          rc = SW_ENOMEM;
+          break;
+        }
       }
-      rc = sw_err_set(err, SW_ENOSOL, "assumed state: the equations are singular with states %s after %zu attempts", text, it);
+      rc = sw_err_set(err, SW_ENOSOL,
+                      "assumed state: the equations are singular with states %s after %zu attempts",
+                      text, it);
       break;
     }
     for (k = 0; k < m; k++) {
@@ -178,23 +213,38 @@ int sw_net_assumed_run(const sw_net *net, sw_net_lr *lr, int *hist, double *work
       int to = state[worst] + (ex[worst] > 0 ? 1 : -1);
       if (to < 0 || (size_t)to >= net->dev[worst].nseg) {
         const sw_net_dev *d = &net->dev[worst];
-        if (trace && trace_push(trace, m, state, v, i, x, ex, event, err)) { rc = SW_ENOMEM; break; }
-        rc = sw_err_set(err, SW_ENOSOL, "assumed state: no consistent state: %s needs %s = %g, beyond the end of its model's range [%g, %g] (extend = \"error\")",
-                        net->el[d->el].name, d->x_is_i ? "i" : "v", x[worst], d->seg[0].lo, d->seg[d->nseg - 1].hi);
+        if (trace && trace_push(trace, m, state, v, i, x, ex, event, err)) {
+          rc = SW_ENOMEM;
+          break;
+        }
+        rc = sw_err_set(err, SW_ENOSOL,
+                        "assumed state: no consistent state: %s needs %s = %g, beyond the end of "
+                        "its model's range [%g, %g] (extend = \"error\")",
+                        net->el[d->el].name, d->x_is_i ? "i" : "v", x[worst], d->seg[0].lo,
+                        d->seg[d->nseg - 1].hi);
         break;
       }
       state[worst] = to;
     }
-    if (trace && trace_push(trace, m, hist + (nh - 1) * m, v, i, x, ex, event, err)) { rc = SW_ENOMEM; break; }
+    if (trace && trace_push(trace, m, hist + (nh - 1) * m, v, i, x, ex, event, err)) {
+      rc = SW_ENOMEM;
+      break;
+    }
     if (stepping && seen(hist, nh, state, m)) {
       sw_net_state_text(net, state, text, sizeof text);
-      rc = sw_err_set(err, SW_ENOSOL, "assumed state: the iteration cycles (state %s comes back after %zu attempts); try method = \"enumerate\" or \"lcp\"", text, it);
+      rc = sw_err_set(err, SW_ENOSOL,
+                      "assumed state: the iteration cycles (state %s comes back after %zu "
+                      "attempts); try method = \"enumerate\" or \"lcp\"",
+                      text, it);
       break;
     }
     memcpy(hist + nh * m, state, m * sizeof *state); nh++;
     if (it == max_iter) {
       sw_net_state_text(net, state, text, sizeof text);
-      rc = sw_err_set(err, SW_ENOSOL, "assumed state: no consistent state after %zu attempts (last tried %s); try method = \"enumerate\" or \"lcp\"", it, text);
+      rc = sw_err_set(err, SW_ENOSOL,
+                      "assumed state: no consistent state after %zu attempts (last tried %s); try "
+                      "method = \"enumerate\" or \"lcp\"",
+                      it, text);
     }
   }
   return rc;
@@ -224,7 +274,10 @@ int sw_net_auto(const sw_net *net, const int *start, double max_states,
     if (err->code == SW_ENOMEM) return SW_ENOMEM;
     snprintf(tried, sizeof tried, "assumed state: %.300s", err->msg);
     *used = "lcp";
-    if (sw_net_lcp(net, state, &pivots, &pm, &how, err) == SW_OK) { *iterations = pivots; return SW_OK; }
+    if (sw_net_lcp(net, state, &pivots, &pm, &how, err) == SW_OK) {
+      *iterations = pivots;
+      return SW_OK;
+    }
     if (err->code == SW_ENOMEM) return SW_ENOMEM;
     {
       size_t n = strlen(tried);
@@ -233,14 +286,21 @@ int sw_net_auto(const sw_net *net, const int *start, double max_states,
   }
   *used = m == 1 ? "load line" : "enumerate";
   if (count_states(net) > max_states)
-    return sw_err_set(err, SW_ENOSOL, "no consistent state found (%s); enumeration skipped: %.0f states exceed max_states", tried, count_states(net));
+    return sw_err_set(
+        err, SW_ENOSOL,
+        "no consistent state found (%s); enumeration skipped: %.0f states exceed max_states", tried,
+        count_states(net));
   if (sw_net_enumerate(net, max_states, &all, &count, &visited, err)) return err->code;
   *iterations = visited;
   if (count == 0) {
     free(all);
     if (m == 1)
-      return sw_err_set(err, SW_ENOSOL, "no consistent state: the load line meets none of the %zu segments of %s", net->dev[0].nseg, net->el[net->dev[0].el].name);
-    return sw_err_set(err, SW_ENOSOL, "no consistent state exists (%s; enumeration of all %zu states found none)", tried, visited);
+      return sw_err_set(err, SW_ENOSOL,
+                        "no consistent state: the load line meets none of the %zu segments of %s",
+                        net->dev[0].nseg, net->el[net->dev[0].el].name);
+    return sw_err_set(err, SW_ENOSOL,
+                      "no consistent state exists (%s; enumeration of all %zu states found none)",
+                      tried, visited);
   }
   memcpy(state, all, m * sizeof *state);
   *nfound = count;

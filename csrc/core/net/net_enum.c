@@ -116,7 +116,10 @@ static int screen(const sw_net *net, const int *state, enum_ws *ws)
   }
   for (k = 0; k < m; k++) {
     double v = net->vp[k], i = net->ip[k];
-    for (c = 0; c < m; c++) { v += net->Xv[k * m + c] * ws->z[c]; i += net->Xi[k * m + c] * ws->z[c]; }
+    for (c = 0; c < m; c++) {
+      v += net->Xv[k * m + c] * ws->z[c];
+      i += net->Xi[k * m + c] * ws->z[c];
+    }
     if (fabs(sw_net_excess(&net->dev[k], (size_t)state[k], sw_net_dev_x(&net->dev[k], v, i))) >
         1e3 * net->dev[k].tol)
       return 0;
@@ -131,7 +134,8 @@ static int record(const sw_net *net, const int *state, double *pv, enum_found *F
   int rc = sw_net_state_ports(net, state, pv, pv + m, err);
   if (rc) return rc == SW_ENOMEM ? rc : SW_OK; /* a singular state holds no point */
   for (k = 0; k < m; k++)
-    if (sw_net_excess(&net->dev[k], (size_t)state[k], sw_net_dev_x(&net->dev[k], pv[k], pv[m + k])) != 0)
+    if (sw_net_excess(&net->dev[k], (size_t)state[k],
+                      sw_net_dev_x(&net->dev[k], pv[k], pv[m + k])) != 0)
       return SW_OK;
   for (k = 0; k < F->count; k++) if (same_point(net, F->pts + 2 * m * k, pv)) return SW_OK;
   if (F->count == F->cap) {
@@ -212,7 +216,14 @@ done:
   if (rc) { free(F.out); F.out = NULL; F.count = 0; }
   *states = F.out;
   *count = F.count;
-  free(state); free(dir); free(act); free(focus); free(ws.Minv); free(ws.row); free(pv); free(F.pts);
+  free(state);
+  free(dir);
+  free(act);
+  free(focus);
+  free(ws.Minv);
+  free(ws.row);
+  free(pv);
+  free(F.pts);
   gsl_matrix_free(ws.M); gsl_permutation_free(ws.p);
   return rc;
 }

@@ -33,10 +33,22 @@ static void lcp_free(lcp_sys *s)
   memset(s, 0, sizeof *s);
 }
 
-static const double *xrow(const sw_net *net, size_t j) { return net->dev[j].x_is_i ? net->Xi + j * net->ndev : net->Xv + j * net->ndev; }
-static const double *yrow(const sw_net *net, size_t j) { return net->dev[j].x_is_i ? net->Xv + j * net->ndev : net->Xi + j * net->ndev; }
-static double x0of(const sw_net *net, size_t j) { return net->dev[j].x_is_i ? net->ip[j] : net->vp[j]; }
-static double y0of(const sw_net *net, size_t j) { return net->dev[j].x_is_i ? net->vp[j] : net->ip[j]; }
+static const double *xrow(const sw_net *net, size_t j)
+{
+  return net->dev[j].x_is_i ? net->Xi + j * net->ndev : net->Xv + j * net->ndev;
+}
+static const double *yrow(const sw_net *net, size_t j)
+{
+  return net->dev[j].x_is_i ? net->Xv + j * net->ndev : net->Xi + j * net->ndev;
+}
+static double x0of(const sw_net *net, size_t j)
+{
+  return net->dev[j].x_is_i ? net->ip[j] : net->vp[j];
+}
+static double y0of(const sw_net *net, size_t j)
+{
+  return net->dev[j].x_is_i ? net->vp[j] : net->ip[j];
+}
 
 /* First device with a jump (its knot in *at), or ndev when all are continuous. */
 static size_t first_jump(const sw_net *net, double *at)
@@ -46,7 +58,8 @@ static size_t first_jump(const sw_net *net, double *at)
     const sw_net_dev *d = &net->dev[j];
     for (k = 0; k + 1 < d->nseg; k++) {
       double b = d->seg[k].hi;
-      double y1 = d->seg[k].slope * b + d->seg[k].icpt, y2 = d->seg[k + 1].slope * b + d->seg[k + 1].icpt;
+      double y1 = d->seg[k].slope * b + d->seg[k].icpt,
+             y2 = d->seg[k + 1].slope * b + d->seg[k + 1].icpt;
       if (fabs(y1 - y2) > 1e-9 * (fabs(y1) + fabs(y2)) + 1e-300) { *at = b; return j; }
     }
   }
@@ -58,7 +71,10 @@ static int check_continuous(const sw_net *net, sw_err *err)
   double b = 0;
   size_t j = first_jump(net, &b);
   if (j < net->ndev)
-    return sw_err_set(err, SW_EINVAL, "lcp: device %s has a jump at x = %g; the LCP form needs continuous models (use method = \"enumerate\" or \"assumed\")", net->el[net->dev[j].el].name, b);
+    return sw_err_set(err, SW_EINVAL,
+                      "lcp: device %s has a jump at x = %g; the LCP form needs continuous models "
+                      "(use method = \"enumerate\" or \"assumed\")",
+                      net->el[net->dev[j].el].name, b);
   return SW_OK;
 }
 
@@ -75,8 +91,14 @@ static int build(const sw_net *net, double sigma, lcp_sys *s, sw_err *err)
   s->owner = sw_alloc(n, sizeof *s->owner, err); s->beta = sw_alloc(n, sizeof(double), err);
   s->Hh = sw_alloc(m, sizeof(double), err); s->HD = sw_alloc(m * n, sizeof(double), err);
   s->M = sw_alloc(n * n, sizeof(double), err); s->q = sw_alloc(n, sizeof(double), err);
-  H = gsl_matrix_alloc(m, m); perm = gsl_permutation_alloc(m); b = gsl_vector_alloc(m); x = gsl_vector_alloc(m);
-  if (!s->owner || !s->beta || !s->Hh || !s->HD || !s->M || !s->q || !H || !perm || !b || !x) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in lcp"); goto done; }
+  H = gsl_matrix_alloc(m, m);
+  perm = gsl_permutation_alloc(m);
+  b = gsl_vector_alloc(m);
+  x = gsl_vector_alloc(m);
+  if (!s->owner || !s->beta || !s->Hh || !s->HD || !s->M || !s->q || !H || !perm || !b || !x) {
+    rc = sw_err_set(err, SW_ENOMEM, "out of memory in lcp");
+    goto done;
+  }
   for (j = 0, p = 0; j < m; j++) {
     const sw_net_dev *d = &net->dev[j];
     const sw_net_seg *ref = &d->seg[sigma > 0 ? d->nseg - 1 : 0];
@@ -87,18 +109,30 @@ static int build(const sw_net *net, double sigma, lcp_sys *s, sw_err *err)
     s->Hh[j] = ref->icpt - y0of(net, j) + ref->slope * x0of(net, j);
     for (k = 0; k + 1 < d->nseg; k++, p++) { s->owner[p] = j; s->beta[p] = d->seg[k].hi; }
   }
-  if (gsl_linalg_LU_decomp(H, perm, &sgn)) { rc = sw_err_set(err, SW_ENUMERIC, "lcp: LU failed"); goto done; }
+  if (gsl_linalg_LU_decomp(H, perm, &sgn)) {
+    rc = sw_err_set(err, SW_ENUMERIC, "lcp: LU failed");
+    goto done;
+  }
   for (j = 0; j < m; j++)
-    if (!(fabs(gsl_matrix_get(H, j, j)) > 1e-13 * big)) { rc = sw_err_set(err, SW_ENUMERIC, "lcp: the reference system is singular"); goto done; }
+    if (!(fabs(gsl_matrix_get(H, j, j)) > 1e-13 * big)) {
+      rc = sw_err_set(err, SW_ENUMERIC, "lcp: the reference system is singular");
+      goto done;
+    }
   gsl_vector_view hv = gsl_vector_view_array(s->Hh, m);
-  if (gsl_linalg_LU_svx(H, perm, &hv.vector)) { rc = sw_err_set(err, SW_ENUMERIC, "lcp: solve failed"); goto done; }
+  if (gsl_linalg_LU_svx(H, perm, &hv.vector)) {
+    rc = sw_err_set(err, SW_ENUMERIC, "lcp: solve failed");
+    goto done;
+  }
   for (p = 0; p < n; p++) {  /* column p of D: d_p at row owner[p] */
     const sw_net_dev *d = &net->dev[s->owner[p]];
     size_t kk = 0, q;
     for (q = 0; q < p; q++) if (s->owner[q] == s->owner[p]) kk++;
     gsl_vector_set_zero(b);
     gsl_vector_set(b, s->owner[p], d->seg[kk + 1].slope - d->seg[kk].slope);
-    if (gsl_linalg_LU_solve(H, perm, b, x)) { rc = sw_err_set(err, SW_ENUMERIC, "lcp: solve failed"); goto done; }
+    if (gsl_linalg_LU_solve(H, perm, b, x)) {
+      rc = sw_err_set(err, SW_ENUMERIC, "lcp: solve failed");
+      goto done;
+    }
     for (j = 0; j < m; j++) s->HD[j * n + p] = gsl_vector_get(x, j);
   }
   for (p = 0; p < n; p++) {
@@ -144,7 +178,10 @@ static int pmatrix_test(const lcp_sys *s, const char **how)
 {
   size_t n = s->n, mask, r, c;
   if (n == 0) { *how = "empty (no breakpoints)"; return 1; }
-  if (n > 12 && diag_dominant(s)) { *how = "strictly diagonally dominant with a positive diagonal"; return 1; }
+  if (n > 12 && diag_dominant(s)) {
+    *how = "strictly diagonally dominant with a positive diagonal";
+    return 1;
+  }
   if (n <= 12) {
     for (mask = 1; mask < ((size_t)1 << n); mask++) {
       size_t idx[12], k = 0;
@@ -154,8 +191,14 @@ static int pmatrix_test(const lcp_sys *s, const char **how)
       double det;
       for (r = 0; r < n; r++) if (mask & ((size_t)1 << r)) idx[k++] = r;
       A = gsl_matrix_alloc(k, k); p = gsl_permutation_alloc(k);
-      if (!A || !p) { gsl_matrix_free(A); gsl_permutation_free(p); *how = "not determined"; return PTEST_NOMEM; }
-      for (r = 0; r < k; r++) for (c = 0; c < k; c++) gsl_matrix_set(A, r, c, s->M[idx[r] * n + idx[c]]);
+      if (!A || !p) {
+        gsl_matrix_free(A);
+        gsl_permutation_free(p);
+        *how = "not determined";
+        return PTEST_NOMEM;
+      }
+      for (r = 0; r < k; r++)
+        for (c = 0; c < k; c++) gsl_matrix_set(A, r, c, s->M[idx[r] * n + idx[c]]);
       det = gsl_linalg_LU_decomp(A, p, &sgn) ? 0 : gsl_linalg_LU_det(A, sgn);
       gsl_matrix_free(A); gsl_permutation_free(p);
       if (!(det > 0)) { *how = "a principal minor is not positive"; return 0; }
@@ -167,10 +210,13 @@ static int pmatrix_test(const lcp_sys *s, const char **how)
     gsl_matrix *S = gsl_matrix_alloc(n, n);
     int ok;
     if (!S) { *how = "not determined"; return PTEST_NOMEM; }
-    for (r = 0; r < n; r++) for (c = 0; c < n; c++) gsl_matrix_set(S, r, c, s->M[r * n + c] + s->M[c * n + r]);
+    for (r = 0; r < n; r++)
+      for (c = 0; c < n; c++) gsl_matrix_set(S, r, c, s->M[r * n + c] + s->M[c * n + r]);
     ok = gsl_linalg_cholesky_decomp1(S) == GSL_SUCCESS;
     gsl_matrix_free(S);
-    *how = ok ? "M + M^T positive definite" : "not determined (too large for the minor test; neither diagonally dominant nor M + M^T positive definite)";
+    *how = ok ? "M + M^T positive definite"
+              : "not determined (too large for the minor test; neither diagonally dominant nor M + "
+                "M^T positive definite)";
     return ok ? 1 : -1;
   }
 }
@@ -199,7 +245,11 @@ static int lemke(const lcp_sys *s, double *u, size_t *pivots, sw_err *err)
   col = 2 * n;
   for (;;) {
     double piv = T[r * W + col];
-    if (++*pivots > maxpiv) { rc = sw_err_set(err, SW_ENUMERIC, "lcp: Lemke's algorithm did not finish in %zu pivots", maxpiv); goto done; }
+    if (++*pivots > maxpiv) {
+      rc = sw_err_set(err, SW_ENUMERIC, "lcp: Lemke's algorithm did not finish in %zu pivots",
+                      maxpiv);
+      goto done;
+    }
     for (k = 0; k < W; k++) T[r * W + k] /= piv;
     for (i = 0; i < n; i++) {
       double f = T[i * W + col];
@@ -235,12 +285,20 @@ static int lemke(const lcp_sys *s, double *u, size_t *pivots, sw_err *err)
           }
         }
       }
-      if (best == n) { rc = sw_err_set(err, SW_ENOSOL, "lcp: Lemke's algorithm ended on a ray after %zu pivots (no solution found; the LCP may have none)", *pivots); goto done; }
+      if (best == n) {
+        rc = sw_err_set(err, SW_ENOSOL,
+                        "lcp: Lemke's algorithm ended on a ray after %zu pivots (no solution "
+                        "found; the LCP may have none)",
+                        *pivots);
+        goto done;
+      }
       r = best;
     }
   }
 solved:
-  for (i = 0; i < n; i++) if (basis[i] >= n && basis[i] < 2 * n) u[basis[i] - n] = T[i * W + 2 * n + 1] > 0 ? T[i * W + 2 * n + 1] : 0;
+  for (i = 0; i < n; i++)
+    if (basis[i] >= n && basis[i] < 2 * n)
+      u[basis[i] - n] = T[i * W + 2 * n + 1] > 0 ? T[i * W + 2 * n + 1] : 0;
 done:
   free(T); free(basis);
   return rc;
@@ -262,7 +320,10 @@ int sw_net_lcp(const sw_net *net, int *state, size_t *pivots, int *pmatrix,
   if (rc) {
     lcp_free(&s);
     if (rc == SW_ENUMERIC)
-      return sw_err_set(err, SW_ENUMERIC, "lcp: the circuit is singular with every device on its first or on its last segment, so this LCP form does not apply (use method = \"enumerate\")");
+      return sw_err_set(
+          err, SW_ENUMERIC,
+          "lcp: the circuit is singular with every device on its first or on its last segment, so "
+          "this LCP form does not apply (use method = \"enumerate\")");
     return rc;
   }
   *pmatrix = pmatrix_test(&s, how);
@@ -286,8 +347,12 @@ int sw_net_lcp(const sw_net *net, int *state, size_t *pivots, int *pmatrix,
   }
   if (sw_net_state_ports(net, state, v, v + m, err)) { rc = err->code; goto done; }
   for (j = 0; j < m; j++)
-    if (sw_net_excess(&net->dev[j], (size_t)state[j], sw_net_dev_x(&net->dev[j], v[j], v[m + j])) != 0) {
-      rc = sw_err_set(err, SW_ENUMERIC, "lcp: Lemke's point puts %s outside its segment (rounding or a model bounded at its ends)", net->el[net->dev[j].el].name);
+    if (sw_net_excess(&net->dev[j], (size_t)state[j], sw_net_dev_x(&net->dev[j], v[j], v[m + j])) !=
+        0) {
+      rc = sw_err_set(err, SW_ENUMERIC,
+                      "lcp: Lemke's point puts %s outside its segment (rounding or a model bounded "
+                      "at its ends)",
+                      net->el[net->dev[j].el].name);
       goto done;
     }
 done:

@@ -37,7 +37,10 @@ int sw_net_lr_init(sw_net_lr *lr, size_t m, sw_err *err)
   lr->fac = sw_alloc(mm * mm, sizeof *lr->fac, err);
   lr->idx = sw_alloc(mm, sizeof *lr->idx, err);
   lr->perm = sw_alloc(mm, sizeof *lr->perm, err);
-  if (!lr->base || !lr->Minv || !lr->work || !lr->fac || !lr->idx || !lr->perm) { sw_net_lr_free(lr); return SW_ENOMEM; }
+  if (!lr->base || !lr->Minv || !lr->work || !lr->fac || !lr->idx || !lr->perm) {
+    sw_net_lr_free(lr);
+    return SW_ENOMEM;
+  }
   return SW_OK;
 }
 
@@ -127,7 +130,8 @@ int sw_net_lr_solve(const sw_net *net, sw_net_lr *lr, const int *state,
   if (m == 1) return solve_one(net, state, z, err);
   if (lr->valid) for (j = 0; j < m; j++) if (state[j] != lr->base[j]) lr->idx[k++] = j;
   if (!lr->valid || 2 * k > m || (k > 0 && net->refactor_always)) {
-    if (!refactor(net, lr, state)) return sw_err_set(err, SW_ENUMERIC, "the circuit equations of this state are singular");
+    if (!refactor(net, lr, state))
+      return sw_err_set(err, SW_ENUMERIC, "the circuit equations of this state are singular");
     k = 0;
   }
   z0 = lr->work; rhs = z0 + m; row = rhs + m; t = row + m;
@@ -167,10 +171,12 @@ int sw_net_lr_solve(const sw_net *net, sw_net_lr *lr, const int *state,
       for (c = 0; c < m; c++) acc += D[r * m + c] * z0[c];
       t[r] = acc;
     }
-    if (gsl_linalg_LU_decomp(&Sv.matrix, &p, &sgn) || gsl_linalg_LU_svx(&Sv.matrix, &p, &tv.vector)) bad = 1;
+    if (gsl_linalg_LU_decomp(&Sv.matrix, &p, &sgn) || gsl_linalg_LU_svx(&Sv.matrix, &p, &tv.vector))
+      bad = 1;
     for (r = 0; r < k && !bad; r++) if (!(fabs(S[r * k + r]) > 1e-8)) bad = 1;
     if (bad) {                    /* ill conditioned: start a new base here */
-      if (!refactor(net, lr, state)) return sw_err_set(err, SW_ENUMERIC, "the circuit equations of this state are singular");
+      if (!refactor(net, lr, state))
+        return sw_err_set(err, SW_ENUMERIC, "the circuit equations of this state are singular");
       return sw_net_lr_solve(net, lr, state, z, err);
     }
     for (r = 0; r < m; r++)

@@ -56,9 +56,12 @@ int sw_net_stamp(const sw_net *net, const int *state, gsl_matrix *A, gsl_vector 
     if (e->nb > 0) add_current(net, A, rhs, e->nb - 1, k, -1.0);
     if (e->kind == SW_NET_V || e->kind == SW_NET_VCVS || e->kind == SW_NET_CCVS) {
       add_v(A, e->col, e->na, 1); add_v(A, e->col, e->nb, -1);
-      if (e->kind == SW_NET_V) { if (rhs) gsl_vector_set(rhs, e->col, e->value); }
-      else if (e->kind == SW_NET_VCVS) { add_v(A, e->col, e->cp, -e->value); add_v(A, e->col, e->cm, e->value); }
-      else add_current(net, A, rhs, e->col, e->ctrl, -e->value);
+      if (e->kind == SW_NET_V) { if (rhs) gsl_vector_set(rhs, e->col, e->value);
+      } else if (e->kind == SW_NET_VCVS) {
+        add_v(A, e->col, e->cp, -e->value);
+        add_v(A, e->col, e->cm, e->value);
+      } else
+        add_current(net, A, rhs, e->col, e->ctrl, -e->value);
     }
   }
   if (state)
@@ -100,7 +103,10 @@ static int refine_reduction(sw_net *net, const gsl_matrix *L, const gsl_vector *
   gsl_matrix *W = gsl_matrix_alloc(nl, m + 1), *C = gsl_matrix_alloc(N, m + 1);
   long double *acc = sw_alloc(m + 1, sizeof *acc, err);
   int rc = SW_OK;
-  if (!W || !C || !acc) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction"); goto done; }
+  if (!W || !C || !acc) {
+    rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction");
+    goto done;
+  }
   for (r = 0; r < nl; r++) {
     const double *row = L->data + r * L->tda;
     for (j = 0; j < m; j++) acc[j] = 0;
@@ -146,12 +152,20 @@ int sw_net_reduce(sw_net *net, sw_err *err)
     L = gsl_matrix_alloc(nl, N); LT = gsl_matrix_alloc(N, nl);
     Q = gsl_matrix_alloc(N, N); R = gsl_matrix_alloc(N, nl);
     s = gsl_vector_alloc(nl); tau = gsl_vector_alloc(nl); w = gsl_vector_alloc(nl);
-    if (!L || !LT || !Q || !R || !s || !tau || !w) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction"); goto done; }
+    if (!L || !LT || !Q || !R || !s || !tau || !w) {
+      rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction");
+      goto done;
+    }
     {
       /* stamp into an N x N scratch then keep the first nl rows */
       gsl_matrix *A = gsl_matrix_alloc(N, N);
       gsl_vector *b = gsl_vector_alloc(N);
-      if (!A || !b) { gsl_matrix_free(A); gsl_vector_free(b); rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction"); goto done; }
+      if (!A || !b) {
+        gsl_matrix_free(A);
+        gsl_vector_free(b);
+        rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction");
+        goto done;
+      }
       sw_net_stamp(net, NULL, A, b);
       for (r = 0; r < nl; r++) {
         for (c = 0; c < N; c++) gsl_matrix_set(L, r, c, gsl_matrix_get(A, r, c));
@@ -166,10 +180,13 @@ int sw_net_reduce(sw_net *net, sw_err *err)
     }
     {
       double big = 0;
-      for (r = 0; r < nl; r++) if (fabs(gsl_matrix_get(R, r, r)) > big) big = fabs(gsl_matrix_get(R, r, r));
+      for (r = 0; r < nl; r++)
+        if (fabs(gsl_matrix_get(R, r, r)) > big) big = fabs(gsl_matrix_get(R, r, r));
       for (r = 0; r < nl; r++)
         if (!(fabs(gsl_matrix_get(R, r, r)) > 1e-12 * big)) {
-          rc = sw_err_set(err, SW_EINVAL, "the linear part of the network is singular: its equations are dependent (check controlled-source gains and how sources are connected)");
+          rc = sw_err_set(err, SW_EINVAL,
+                          "the linear part of the network is singular: its equations are dependent "
+                          "(check controlled-source gains and how sources are connected)");
           goto done;
         }
     }
@@ -189,7 +206,8 @@ int sw_net_reduce(sw_net *net, sw_err *err)
     if ((rc = refine_reduction(net, L, s, Q, R, err))) goto done;
   }
   for (j = 0; j < m; j++) {
-    for (c = 0; c < m; c++) ports_of(net, net->K + c, m, j, &net->Xv[j * m + c], &net->Xi[j * m + c]);
+    for (c = 0; c < m; c++)
+      ports_of(net, net->K + c, m, j, &net->Xv[j * m + c], &net->Xi[j * m + c]);
     ports_of(net, net->yp, 1, j, &net->vp[j], &net->ip[j]);
   }
 done:
@@ -246,7 +264,10 @@ int sw_net_state_ports(const sw_net *net, const int *state, double *v,
   if (m == 0) return SW_OK;
   M = gsl_matrix_alloc(m, m); r = gsl_vector_alloc(m); z = gsl_vector_alloc(m);
   p = gsl_permutation_alloc(m);
-  if (!M || !r || !z || !p) { rc = sw_err_set(err, SW_ENOMEM, "out of memory solving a state"); goto done; }
+  if (!M || !r || !z || !p) {
+    rc = sw_err_set(err, SW_ENOMEM, "out of memory solving a state");
+    goto done;
+  }
   for (j = 0; j < m; j++) {
     const sw_net_seg *g = &net->dev[j].seg[state[j]];
     for (c = 0; c < m; c++)
@@ -299,7 +320,8 @@ double sw_net_el_current(const sw_net *net, const double *y, size_t k)
 }
 
 /* Fills op from a full unknown vector y. */
-int sw_net_op_from_y(const sw_net *net, const double *y, const int *state, sw_net_op *op, sw_err *err)
+int sw_net_op_from_y(const sw_net *net, const double *y, const int *state, sw_net_op *op,
+                     sw_err *err)
 {
   size_t k, n = net->nnodes, ne = net->nel, m = net->ndev;
   sw_net_op_free(op);
@@ -309,7 +331,10 @@ int sw_net_op_from_y(const sw_net *net, const double *y, const int *state, sw_ne
   op->p = sw_alloc(ne, sizeof(double), err);
   op->state = sw_alloc(m, sizeof(int), err);
   op->on_bp = sw_alloc(m, 1, err);
-  if (!op->vnode || !op->v || !op->i || !op->p || !op->state || !op->on_bp) { sw_net_op_free(op); return SW_ENOMEM; }
+  if (!op->vnode || !op->v || !op->i || !op->p || !op->state || !op->on_bp) {
+    sw_net_op_free(op);
+    return SW_ENOMEM;
+  }
   for (k = 1; k < n; k++) op->vnode[k] = y[k - 1];
   for (k = 0; k < ne; k++) {
     const sw_net_el *e = &net->el[k];
@@ -337,13 +362,18 @@ int sw_net_op_from_state(const sw_net *net, const int *state, sw_net_op *op,
 {
   size_t N = net->nunk, r, c;
   gsl_matrix *A = gsl_matrix_alloc(N, N), *LU = gsl_matrix_alloc(N, N);
-  gsl_vector *b = gsl_vector_alloc(N), *y = gsl_vector_alloc(N), *res = gsl_vector_alloc(N), *dy = gsl_vector_alloc(N);
+  gsl_vector *b = gsl_vector_alloc(N), *y = gsl_vector_alloc(N), *res = gsl_vector_alloc(N),
+             *dy = gsl_vector_alloc(N);
   gsl_permutation *p = gsl_permutation_alloc(N);
   int sgn, rc = SW_OK;
-  if (!A || !LU || !b || !y || !res || !dy || !p) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA solve"); goto done; }
+  if (!A || !LU || !b || !y || !res || !dy || !p) {
+    rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA solve");
+    goto done;
+  }
   sw_net_stamp(net, state, A, b);
   gsl_matrix_memcpy(LU, A);
-  if (gsl_linalg_LU_decomp(LU, p, &sgn) || lu_singular(LU, max_abs(A)) || gsl_linalg_LU_solve(LU, p, b, y)) {
+  if (gsl_linalg_LU_decomp(LU, p, &sgn) || lu_singular(LU, max_abs(A)) ||
+      gsl_linalg_LU_solve(LU, p, b, y)) {
     rc = sw_err_set(err, SW_ENUMERIC, "the circuit matrix of this state is singular");
     goto done;
   }
@@ -396,7 +426,10 @@ static int stability_ports(const sw_net *net, const int *state, int *label, sw_e
   gsl_vector *beta = gsl_vector_alloc(m);
   gsl_eigen_gen_workspace *w = gsl_eigen_gen_alloc(m);
   int rc = SW_OK;
-  if (!A || !B || !alpha || !beta || !w) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in the stability test"); goto done; }
+  if (!A || !B || !alpha || !beta || !w) {
+    rc = sw_err_set(err, SW_ENOMEM, "out of memory in the stability test");
+    goto done;
+  }
   for (j = 0; j < m; j++) {
     const sw_net_seg *g = &net->dev[j].seg[state[j]];
     for (c = 0; c < m; c++) {
@@ -404,7 +437,10 @@ static int stability_ports(const sw_net *net, const int *state, int *label, sw_e
       gsl_matrix_set(B, j, c, g->b * net->Xv[j * m + c]);
     }
   }
-  if (gsl_eigen_gen(A, B, alpha, beta, w)) { rc = sw_err_set(err, SW_ENUMERIC, "the eigenvalue computation for the stability test failed"); goto done; }
+  if (gsl_eigen_gen(A, B, alpha, beta, w)) {
+    rc = sw_err_set(err, SW_ENUMERIC, "the eigenvalue computation for the stability test failed");
+    goto done;
+  }
   *label = classify(alpha, beta);
 done:
   gsl_matrix_free(A); gsl_matrix_free(B); gsl_vector_complex_free(alpha); gsl_vector_free(beta);
@@ -427,7 +463,10 @@ static int stability_full(const sw_net *net, const int *state, int *label, sw_er
   gsl_vector *beta = gsl_vector_alloc(N);
   gsl_eigen_gen_workspace *w = gsl_eigen_gen_alloc(N);
   int rc = SW_OK;
-  if (!G || !C || !alpha || !beta || !w) { rc = sw_err_set(err, SW_ENOMEM, "out of memory in the stability test"); goto done; }
+  if (!G || !C || !alpha || !beta || !w) {
+    rc = sw_err_set(err, SW_ENOMEM, "out of memory in the stability test");
+    goto done;
+  }
   sw_net_stamp(net, state, G, NULL);
   for (k = 0; k < net->ndev; k++) {
     const sw_net_el *e = &net->el[net->dev[k].el];
@@ -436,7 +475,10 @@ static int stability_full(const sw_net *net, const int *state, int *label, sw_er
     if (b) *gsl_matrix_ptr(C, b - 1, b - 1) -= 1;
     if (a && b) { *gsl_matrix_ptr(C, a - 1, b - 1) += 1; *gsl_matrix_ptr(C, b - 1, a - 1) += 1; }
   }
-  if (gsl_eigen_gen(G, C, alpha, beta, w)) { rc = sw_err_set(err, SW_ENUMERIC, "the eigenvalue computation for the stability test failed"); goto done; }
+  if (gsl_eigen_gen(G, C, alpha, beta, w)) {
+    rc = sw_err_set(err, SW_ENUMERIC, "the eigenvalue computation for the stability test failed");
+    goto done;
+  }
   *label = classify(alpha, beta);
 done:
   gsl_matrix_free(G); gsl_matrix_free(C); gsl_vector_complex_free(alpha); gsl_vector_free(beta);

@@ -35,7 +35,10 @@ int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
       }
     }
     have = 1;
-    if ((rc = sw_net_op_from_state(net, state, &ops[k], err))) { sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1); break; }
+    if ((rc = sw_net_op_from_state(net, state, &ops[k], err))) {
+      sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
+      break;
+    }
     ops[k].iterations = it;
   }
   {
@@ -115,7 +118,10 @@ static int source_basis(sw_net *net, const char *name, sweep_ws *w, sw_err *err)
   memcpy(w->ip0, net->ip, m * sizeof *w->ip0);
   if (sw_net_set(net, name, 1.0, err) || sw_net_prepare(net, err)) return err->code;
   for (r = 0; r < N; r++) w->dyp[r] = net->yp[r] - w->yp0[r];
-  for (r = 0; r < m; r++) { w->dvp[r] = net->vp[r] - w->vp0[r]; w->dip[r] = net->ip[r] - w->ip0[r]; }
+  for (r = 0; r < m; r++) {
+    w->dvp[r] = net->vp[r] - w->vp0[r];
+    w->dip[r] = net->ip[r] - w->ip0[r];
+  }
   return SW_OK;
 }
 
@@ -152,8 +158,10 @@ static int write_point(const sw_net *net, sweep_ws *w, const double *z, size_t k
     double v = node_v(y, e->na) - node_v(y, e->nb), i = y[d->col], x = d->x_is_i ? i : v;
     double lo = d->model.x[0], hi = d->model.x[d->model.nseg];
     double slack = 1e-9 * fmax(fmax(fabs(lo), fabs(hi)), 1e-300);
-    if ((x < lo - slack || x > hi + slack) && push_warn(info, j, k, SW_NW_RANGE, err)) return SW_ENOMEM;
-    if (d->pmax > 0 && fabs(v * i) > d->pmax && push_warn(info, j, k, SW_NW_PMAX, err)) return SW_ENOMEM;
+    if ((x < lo - slack || x > hi + slack) && push_warn(info, j, k, SW_NW_RANGE, err))
+      return SW_ENOMEM;
+    if (d->pmax > 0 && fabs(v * i) > d->pmax && push_warn(info, j, k, SW_NW_PMAX, err))
+      return SW_ENOMEM;
   }
   return SW_OK;
 }
@@ -173,7 +181,11 @@ static int ws_init(sw_net *net, sweep_ws *w, sw_err *err)
     ws_free(w);
     return SW_ENOMEM;
   }
-  w->dyp = w->yp0 + N; w->vp0 = w->dyp + N; w->dvp = w->vp0 + m; w->ip0 = w->dvp + m; w->dip = w->ip0 + m;
+  w->dyp = w->yp0 + N;
+  w->vp0 = w->dyp + N;
+  w->dvp = w->vp0 + m;
+  w->ip0 = w->dvp + m;
+  w->dip = w->ip0 + m;
   return SW_OK;
 }
 
@@ -190,8 +202,8 @@ static int solve_point(sw_net *net, sweep_ws *w, size_t k, int *have, double max
   if (!*have) sw_net_default_start(net, w->state);
   if (m == 1 && *have && load_line_holds(net, w->state[0], z)) {
     info->iterations++;
-  } else if (sw_net_assumed_run(net, &w->lr, w->hist, w->work, w->state, w->max_iter, w->state, &it, NULL,
-                                err) != SW_OK) {
+  } else if (sw_net_assumed_run(net, &w->lr, w->hist, w->work, w->state, w->max_iter, w->state, &it,
+                                NULL, err) != SW_OK) {
     if (err->code == SW_ENOMEM) return SW_ENOMEM;
     info->fallbacks++;
     if ((rc = sw_net_auto(net, w->state, max_states, w->state, &nf, &nf, &used, err)) ||
@@ -225,9 +237,15 @@ int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
   for (k = 0; k < n; k++) {
     if (source) {  /* only the particular solution moves */
       double val = values[k];
-      if (!sw_isfinite(val)) { rc = sw_err_set(err, SW_EINVAL, "value %zu is not finite", k + 1); break; }
+      if (!sw_isfinite(val)) {
+        rc = sw_err_set(err, SW_EINVAL, "value %zu is not finite", k + 1);
+        break;
+      }
       for (r = 0; r < N; r++) net->yp[r] = w.yp0[r] + val * w.dyp[r];
-      for (r = 0; r < m; r++) { net->vp[r] = w.vp0[r] + val * w.dvp[r]; net->ip[r] = w.ip0[r] + val * w.dip[r]; }
+      for (r = 0; r < m; r++) {
+        net->vp[r] = w.vp0[r] + val * w.dvp[r];
+        net->ip[r] = w.ip0[r] + val * w.dip[r];
+      }
     } else {       /* a resistor or gain: a new reduction */
       if ((rc = sw_net_set(net, name, values[k], err)) || (rc = sw_net_prepare(net, err))) {
         sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
@@ -290,9 +308,15 @@ int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
     if (r == 0) sw_net_default_start(net, state);
     if (sw_net_assumed(net, state, 0, state, &it, NULL, NULL, err) != SW_OK) {
       if (err->code == SW_ENOMEM) { rc = SW_ENOMEM; break; }
-      if ((rc = sw_net_auto(net, state, max_states, state, &it, &nf, &used, err))) { sw_err_prefix(err, "run %zu: ", r + 1); break; }
+      if ((rc = sw_net_auto(net, state, max_states, state, &it, &nf, &used, err))) {
+        sw_err_prefix(err, "run %zu: ", r + 1);
+        break;
+      }
     }
-    if ((rc = sw_net_op_from_state(net, state, &ops[r], err))) { sw_err_prefix(err, "run %zu: ", r + 1); break; }
+    if ((rc = sw_net_op_from_state(net, state, &ops[r], err))) {
+      sw_err_prefix(err, "run %zu: ", r + 1);
+      break;
+    }
     ops[r].iterations = it;
   }
   for (q = 0; q < k; q++) { sw_err e2; sw_net_set(net, net->el[el[q]].name, keep[q], &e2); }

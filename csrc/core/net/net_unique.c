@@ -46,7 +46,8 @@ static int dev_class(const sw_net *net, const sw_net_dev *d, char *why, size_t c
     }
     if (g->slope == 0) flat = 1;
     if (k + 1 < d->nseg) {
-      double b = g->hi, y1 = g->slope * b + g->icpt, y2 = d->seg[k + 1].slope * b + d->seg[k + 1].icpt;
+      double b = g->hi, y1 = g->slope * b + g->icpt,
+             y2 = d->seg[k + 1].slope * b + d->seg[k + 1].icpt;
       if (fabs(y1 - y2) > 1e-9 * (fabs(y1) + fabs(y2)) + 1e-300) {
         snprintf(why, cap, "%s's model jumps at %s = %g", name, d->x_is_i ? "i" : "v", b);
         return DEV_NOT;
@@ -79,8 +80,10 @@ static int admitted(const sw_net *net, unsigned char *cls, char *why, size_t cap
       continue;
     }
     if (self_vccs(e, &g) && g >= 0) continue;
-    snprintf(why, cap, "%s %s is a controlled source (the theorem admits positive resistors, "
-             "independent sources and increasing devices only)", sw_net_kind_name(e->kind), e->name);
+    snprintf(why, cap,
+             "%s %s is a controlled source (the theorem admits positive resistors, "
+             "independent sources and increasing devices only)",
+             sw_net_kind_name(e->kind), e->name);
     return 0;
   }
   return 1;
@@ -125,7 +128,8 @@ static int pin_pass(const sw_net *net, unsigned char *fix, size_t *p)
   size_t k, j, n = net->nnodes;
   int changed = 0;
   uf_reset(p, n);
-  for (k = 0; k < net->nel; k++) if (dv_fixed(net, fix, k)) uf_join(p, net->el[k].na, net->el[k].nb);
+  for (k = 0; k < net->nel; k++)
+    if (dv_fixed(net, fix, k)) uf_join(p, net->el[k].na, net->el[k].nb);
   for (j = 0; j < net->ndev; j++) {
     const sw_net_el *e = &net->el[net->dev[j].el];
     if ((fix[j] & FIX_V) || uf_find(p, e->na) != uf_find(p, e->nb)) continue;
@@ -160,8 +164,10 @@ int sw_net_monotone(const sw_net *net, char *why, size_t cap, sw_err *err)
   for (j = 0; j < m; j++) if (cls[j] == DEV_FLAT) ok = 1;
   for (j = 0; j < m && ok; j++)
     if (fix[j] != FIX_BOTH) {
-      snprintf(why, cap, "%s's model has flat segments (slope 0) and the elements around it do "
-               "not fix its %s", net->el[net->dev[j].el].name, (fix[j] & FIX_V) ? "current" : "voltage");
+      snprintf(why, cap,
+               "%s's model has flat segments (slope 0) and the elements around it do "
+               "not fix its %s",
+               net->el[net->dev[j].el].name, (fix[j] & FIX_V) ? "current" : "voltage");
       ok = 0;
     }
 done:
@@ -182,15 +188,22 @@ static void by_count(sw_net_verdict *out, size_t count, double states)
 {
   if (count >= 2) {
     out->unique = SW_UNIQUE_NO;
-    snprintf(out->reason, sizeof out->reason, "%zu operating points: an enumeration of all %.0f segment "
-             "combinations found them (net:solve_all() lists every one)", count, states);
+    snprintf(out->reason, sizeof out->reason,
+             "%zu operating points: an enumeration of all %.0f segment "
+             "combinations found them (net:solve_all() lists every one)",
+             count, states);
   } else if (count == 1) {
     out->unique = SW_UNIQUE_YES;
-    snprintf(out->reason, sizeof out->reason, "an enumeration of all %.0f segment combinations found "
-             "this point and no other", states);
+    snprintf(out->reason, sizeof out->reason,
+             "an enumeration of all %.0f segment combinations found "
+             "this point and no other",
+             states);
   } else {
-    snprintf(out->reason, sizeof out->reason, "not determined: an enumeration of all %.0f segment "
-             "combinations found no point (the solver's point lies within rounding of a segment end)", states);
+    snprintf(
+        out->reason, sizeof out->reason,
+        "not determined: an enumeration of all %.0f segment "
+        "combinations found no point (the solver's point lies within rounding of a segment end)",
+        states);
   }
 }
 
@@ -223,10 +236,14 @@ int sw_net_unique(const sw_net *net, size_t nfound, size_t nstates, int pmatrix,
   out->monotone = mono > 0;
   if (net->ndev == 0) {
     out->unique = SW_UNIQUE_YES;
-    snprintf(out->reason, sizeof out->reason, "a linear circuit with nonsingular equations has exactly one solution");
+    snprintf(out->reason, sizeof out->reason,
+             "a linear circuit with nonsingular equations has exactly one solution");
     return SW_OK;
   }
-  if (nfound > 0) { by_count(out, nfound, nstates ? (double)nstates : count_states(net)); return SW_OK; }
+  if (nfound > 0) {
+    by_count(out, nfound, nstates ? (double)nstates : count_states(net));
+    return SW_OK;
+  }
   if (mono) {
     out->unique = SW_UNIQUE_YES;
     snprintf(out->reason, sizeof out->reason, MONOTONE_TEXT, mono == 2 ? "strictly increasing" :
@@ -243,7 +260,8 @@ int sw_net_unique(const sw_net *net, size_t nfound, size_t nstates, int pmatrix,
              "complementarity problem, and with it the circuit, has exactly one solution", how);
     return SW_OK;
   }
-  snprintf(out->reason, sizeof out->reason, "not determined: the monotone network theorem does not apply, "
+  snprintf(out->reason, sizeof out->reason,
+           "not determined: the monotone network theorem does not apply, "
            "as %s; the LCP matrix %s%s; too many segment combinations to enumerate quickly (%.0f)",
            why, pmatrix == 0 ? "is not a P-matrix: " : "test: ", how, count_states(net));
   return SW_OK;

@@ -13,7 +13,8 @@ int sw_pwl_alloc(sw_pwl *m, size_t nseg, sw_err *err)
   memset(m, 0, sizeof *m);
   if (nseg < 1) return sw_err_set(err, SW_EINVAL, "a model needs at least 1 segment");
   if (nseg > SW_PWL_MAX_SEGMENTS)
-    return sw_err_set(err, SW_EINVAL, "%zu segments is more than the limit of %zu", nseg, SW_PWL_MAX_SEGMENTS);
+    return sw_err_set(err, SW_EINVAL, "%zu segments is more than the limit of %zu", nseg,
+                      SW_PWL_MAX_SEGMENTS);
   m->x = sw_alloc(nseg + 1, sizeof *m->x, err);
   m->ya = sw_alloc(nseg, sizeof *m->ya, err);
   m->yb = sw_alloc(nseg, sizeof *m->yb, err);
@@ -41,17 +42,20 @@ int sw_pwl_finish(sw_pwl *m, sw_err *err)
 {
   size_t k, n = m->nseg;
   for (k = 0; k <= n; k++)
-    if (!sw_isfinite(m->x[k])) return sw_err_set(err, SW_EINVAL, "x[%zu] is not finite (%g)", k + 1, m->x[k]);
+    if (!sw_isfinite(m->x[k]))
+      return sw_err_set(err, SW_EINVAL, "x[%zu] is not finite (%g)", k + 1, m->x[k]);
   for (k = 0; k < n; k++) {
     if (!(m->x[k + 1] > m->x[k]))
-      return sw_err_set(err, SW_EINVAL, "x must be strictly increasing (x[%zu] = %.17g after x[%zu] = %.17g)",
+      return sw_err_set(err, SW_EINVAL,
+                        "x must be strictly increasing (x[%zu] = %.17g after x[%zu] = %.17g)",
                         k + 2, m->x[k + 1], k + 1, m->x[k]);
     if (!sw_isfinite(m->ya[k]) || !sw_isfinite(m->yb[k]))
       return sw_err_set(err, SW_EINVAL, "segment %zu has a non-finite value", k + 1);
     m->slope[k] = (m->yb[k] - m->ya[k]) / (m->x[k + 1] - m->x[k]);
     if (!sw_isfinite(m->slope[k]))
-      return sw_err_set(err, SW_EINVAL, "segment %zu has an infinite slope (knots %g and %g too close)",
-                        k + 1, m->x[k], m->x[k + 1]);
+      return sw_err_set(err, SW_EINVAL,
+                        "segment %zu has an infinite slope (knots %g and %g too close)", k + 1,
+                        m->x[k], m->x[k + 1]);
   }
   m->continuous = 1;
   for (k = 0; k + 1 < n; k++)
@@ -78,7 +82,8 @@ int sw_pwl_from_points(sw_pwl *m, const double *x, const double *y, size_t n, sw
   int st;
   if (n < 2) return sw_err_set(err, SW_EINVAL, "need at least 2 knots (got %zu)", n);
   for (k = 0; k < n; k++)
-    if (!sw_isfinite(y[k])) return sw_err_set(err, SW_EINVAL, "y[%zu] is not finite (%g)", k + 1, y[k]);
+    if (!sw_isfinite(y[k]))
+      return sw_err_set(err, SW_EINVAL, "y[%zu] is not finite (%g)", k + 1, y[k]);
   if ((st = sw_pwl_alloc(m, n - 1, err))) return st;
   memcpy(m->x, x, n * sizeof *x);
   for (k = 0; k + 1 < n; k++) {
@@ -96,12 +101,17 @@ int sw_pwl_from_segments(sw_pwl *m, const double *lo, const double *hi,
   int st;
   if (nseg < 1) return sw_err_set(err, SW_EINVAL, "need at least 1 segment");
   for (k = 0; k < nseg; k++) {
-    if (!sw_isfinite(lo[k]) || !sw_isfinite(hi[k]) || !sw_isfinite(slope[k]) || !sw_isfinite(icpt[k]))
+    if (!sw_isfinite(lo[k]) || !sw_isfinite(hi[k]) || !sw_isfinite(slope[k]) ||
+        !sw_isfinite(icpt[k]))
       return sw_err_set(err, SW_EINVAL, "segment %zu has a non-finite field", k + 1);
-    if (!(lo[k] < hi[k])) return sw_err_set(err, SW_EINVAL, "segment %zu: lo (%g) must be below hi (%g)", k + 1, lo[k], hi[k]);
+    if (!(lo[k] < hi[k]))
+      return sw_err_set(err, SW_EINVAL, "segment %zu: lo (%g) must be below hi (%g)", k + 1, lo[k],
+                        hi[k]);
     if (k > 0 && lo[k] != hi[k - 1])
-      return sw_err_set(err, SW_EINVAL, "segment %zu starts at %.17g but segment %zu ends at %.17g (segments must join)",
-                        k + 1, lo[k], k, hi[k - 1]);
+      return sw_err_set(
+          err, SW_EINVAL,
+          "segment %zu starts at %.17g but segment %zu ends at %.17g (segments must join)", k + 1,
+          lo[k], k, hi[k - 1]);
   }
   if ((st = sw_pwl_alloc(m, nseg, err))) return st;
   for (k = 0; k < nseg; k++) {
@@ -140,8 +150,9 @@ static int outside(const sw_pwl *m, double x, double *y, sw_err *err)
 {
   int left = x < m->x[0];
   if (m->extend == SW_EXTEND_ERROR)
-    return sw_err_set(err, SW_ERANGE, "x = %g is outside the model's knots [%g, %g] (extend = \"error\")",
-                      x, m->x[0], m->x[m->nseg]);
+    return sw_err_set(err, SW_ERANGE,
+                      "x = %g is outside the model's knots [%g, %g] (extend = \"error\")", x,
+                      m->x[0], m->x[m->nseg]);
   if (m->extend == SW_EXTEND_HOLD) *y = left ? m->ya[0] : m->yb[m->nseg - 1];
   else *y = left ? sw_pwl_line(m, 0, x) : sw_pwl_line(m, m->nseg - 1, x);
   return SW_OK;
@@ -160,8 +171,9 @@ int sw_pwl_slope_at(const sw_pwl *m, double x, double *s, sw_err *err)
   if (isnan(x)) return sw_err_set(err, SW_EINVAL, "x is NaN");
   if (x < m->x[0] || x > m->x[m->nseg]) {
     if (m->extend == SW_EXTEND_ERROR)
-      return sw_err_set(err, SW_ERANGE, "x = %g is outside the model's knots [%g, %g] (extend = \"error\")",
-                        x, m->x[0], m->x[m->nseg]);
+      return sw_err_set(err, SW_ERANGE,
+                        "x = %g is outside the model's knots [%g, %g] (extend = \"error\")", x,
+                        m->x[0], m->x[m->nseg]);
     if (m->extend == SW_EXTEND_HOLD) { *s = 0; return SW_OK; }
   }
   *s = m->slope[sw_pwl_locate(m, x)];
@@ -178,7 +190,9 @@ int sw_pwl_norton(const sw_pwl *m, size_t k, double *j, double *g, sw_err *err)
 {
   double e, r;
   sw_pwl_thevenin(m, k, &e, &r);
-  if (r == 0) return sw_err_set(err, SW_EINVAL, "segment %zu is flat (slope 0): it has no Norton form", k + 1);
+  if (r == 0)
+    return sw_err_set(err, SW_EINVAL, "segment %zu is flat (slope 0): it has no Norton form",
+                      k + 1);
   *g = 1.0 / r;
   *j = -e / r;
   return SW_OK;
@@ -191,8 +205,9 @@ int sw_pwl_inverse(const sw_pwl *m, sw_pwl *out, sw_err *err)
   if (!m->continuous) return sw_err_set(err, SW_EINVAL, "only a continuous model has an inverse");
   for (k = 0; k < n; k++)
     if (!((dir > 0 && m->slope[k] > 0) || (dir < 0 && m->slope[k] < 0)))
-      return sw_err_set(err, SW_EINVAL, "model is not strictly monotone: segment %zu has slope %g%s",
-                        k + 1, m->slope[k], k ? " against the earlier segments" : "");
+      return sw_err_set(err, SW_EINVAL,
+                        "model is not strictly monotone: segment %zu has slope %g%s", k + 1,
+                        m->slope[k], k ? " against the earlier segments" : "");
   if ((st = sw_pwl_alloc(out, n, err))) return st;
   for (k = 0; k < n; k++) {
     size_t s = dir > 0 ? k : n - 1 - k; /* decreasing models reverse order */
@@ -210,7 +225,8 @@ int sw_pwl_canonical(const sw_pwl *m, double *a, double *b, double *c, double *b
 {
   size_t k, n = m->nseg;
   double y0;
-  if (!m->continuous) return sw_err_set(err, SW_EINVAL, "the canonical form needs a continuous model");
+  if (!m->continuous)
+    return sw_err_set(err, SW_EINVAL, "the canonical form needs a continuous model");
   *b = 0.5 * (m->slope[0] + m->slope[n - 1]);
   y0 = sw_pwl_line(m, sw_pwl_locate(m, 0.0), 0.0); /* the line extension's value at x = 0 */
   *a = y0;

@@ -123,7 +123,8 @@ static void advise_huge_pages(double *y, size_t n)
   const uintptr_t huge = (uintptr_t)2 << 20;
   uintptr_t lo = ((uintptr_t)y + huge - 1) & ~(huge - 1);
   uintptr_t hi = ((uintptr_t)(y + n)) & ~(huge - 1);
-  if (n >= ((size_t)32 << 20) / sizeof *y && hi > lo) (void)madvise((void *)lo, hi - lo, MADV_HUGEPAGE);
+  if (n >= ((size_t)32 << 20) / sizeof *y && hi > lo)
+    (void)madvise((void *)lo, hi - lo, MADV_HUGEPAGE);
 #else
   (void)y;
   (void)n;

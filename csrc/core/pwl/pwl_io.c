@@ -32,7 +32,8 @@ static int check_unit(const char *u, const char *which, sw_err *err)
     return sw_err_set(err, SW_EINVAL, "%s unit is longer than %d bytes", which, SW_UNIT_MAX - 1);
   for (i = 0; u[i]; i++)
     if (((unsigned char)u[i] < 0x20 && u[i] != '\t') || u[i] == 0x7f)
-      return sw_err_set(err, SW_EINVAL, "%s unit contains a control character (byte %zu)", which, i + 1);
+      return sw_err_set(err, SW_EINVAL, "%s unit contains a control character (byte %zu)", which,
+                        i + 1);
   return SW_OK;
 }
 
@@ -79,7 +80,8 @@ int sw_pwl_save_prov(const sw_pwl *m, const char *path, const char *xunit,
   if (!m || m->nseg < 1 || !m->x || !m->ya || !m->yb || !m->slope)
     return sw_err_set(err, SW_EINVAL, "the model is empty");
   if (!path || !*path) return sw_err_set(err, SW_EINVAL, "the path is empty");
-  if (check_unit(xunit, "x", err) || check_unit(yunit, "y", err)) return err ? err->code : SW_EINVAL;
+  if (check_unit(xunit, "x", err) || check_unit(yunit, "y", err))
+    return err ? err->code : SW_EINVAL;
   if (prov && sw_pwl_prov_check(prov, err)) return err ? err->code : SW_EINVAL;
   len = strlen(path);
   tmp = sw_alloc(len + 5, 1, err);
@@ -151,18 +153,21 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
         if (klen == 6 && memcmp(q, "extend", 6) == 0) {
           int k, found = 0;
           for (k = 0; k < 3; k++)
-            if ((size_t)(ve - v) == strlen(extend_names[k]) && memcmp(v, extend_names[k], (size_t)(ve - v)) == 0) {
+            if ((size_t)(ve - v) == strlen(extend_names[k]) &&
+                memcmp(v, extend_names[k], (size_t)(ve - v)) == 0) {
               *ext = (sw_extend)k;
               found = 1;
             }
           if (!found)
-            return sw_err_set(err, SW_EINVAL, "%s:%zu: extend must be line, hold or error (found \"%.*s\")",
-                              path, line, (int)((ve - v) > 40 ? 40 : (ve - v)), v);
+            return sw_err_set(err, SW_EINVAL,
+                              "%s:%zu: extend must be line, hold or error (found \"%.*s\")", path,
+                              line, (int)((ve - v) > 40 ? 40 : (ve - v)), v);
         } else if (klen == 8 && memcmp(q, "segments", 8) == 0) {
           char *e;
           unsigned long long c = strtoull(v, &e, 10);
           if (e == v || e != ve || c == 0)
-            return sw_err_set(err, SW_EINVAL, "%s:%zu: segments must be a positive whole number (found \"%.*s\")",
+            return sw_err_set(err, SW_EINVAL,
+                              "%s:%zu: segments must be a positive whole number (found \"%.*s\")",
                               path, line, (int)((ve - v) > 40 ? 40 : (ve - v)), v);
           *nseg_said = (size_t)c;
           *said_line = line;
@@ -170,7 +175,8 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
           char *dst = *q == 'x' ? xunit : yunit;
           size_t ul = (size_t)(ve - v);
           if (ul >= SW_UNIT_MAX) /* save refuses such units: never truncate one */
-            return sw_err_set(err, SW_EINVAL, "%s:%zu: %c unit is longer than %d bytes", path, line, *q, SW_UNIT_MAX - 1);
+            return sw_err_set(err, SW_EINVAL, "%s:%zu: %c unit is longer than %d bytes", path, line,
+                              *q, SW_UNIT_MAX - 1);
           if (dst) {
             size_t i;
             for (i = 0; i < ul; i++) /* a stray CR must not reach a later save */

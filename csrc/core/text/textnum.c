@@ -69,7 +69,10 @@ double sw_text_strtod(const char *p, char **end, int extended_ok)
   if (*q == '.') {
     for (q++; *q >= '0' && *q <= '9'; q++) {
       any = 1;
-      if (m || *q != '0') { if (++nd > 19) return strtod(p, end); m = m * 10 + (unsigned)(*q - '0'); }
+      if (m || *q != '0') {
+        if (++nd > 19) return strtod(p, end);
+        m = m * 10 + (unsigned)(*q - '0');
+      }
       e10--;
     }
   }

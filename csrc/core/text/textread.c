@@ -308,14 +308,16 @@ static int resolve_columns(scan *s, layout *lay, const sw_text_col *cols,
   if (!lay->wanted || !lay->vals || !lay->slot_field) return SW_ENOMEM;
   for (k = 0; k < ncols; k++) {
     if (!sw_isfinite(cols[k].scale) || cols[k].scale == 0)
-      return sw_err_set(s->err, SW_EINVAL, "%s: scale of wanted column %zu must be a finite non-zero number",
-                        s->name, k + 1);
+      return sw_err_set(s->err, SW_EINVAL,
+                        "%s: scale of wanted column %zu must be a finite non-zero number", s->name,
+                        k + 1);
     if (cols[k].name) {
       char t[64];
       show(t, sizeof t, cols[k].name, strlen(cols[k].name));
       if (!lay->has_header)
         return sw_err_set(s->err, SW_EINVAL,
-                          "%s:%zu: no header row (the first row is numbers), so column %s cannot be found by name; choose it by number 1..%zu",
+                          "%s:%zu: no header row (the first row is numbers), so column %s cannot "
+                          "be found by name; choose it by number 1..%zu",
                           s->name, lay->header_line, t, lay->nfields);
       for (f = 0; f < lay->nfields; f++)
         if (strcmp(lay->names[f], cols[k].name) == 0) break;
