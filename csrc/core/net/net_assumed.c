@@ -152,6 +152,44 @@ int sw_net_assumed(const sw_net *net, const int *start, size_t max_iter,
   return rc;
 }
 
+/* The attempt whose equations were singular: traced, and the error. */
+static int singular_attempt(const sw_net *net, const int *state, double *work, size_t it,
+                            sw_net_trace *trace, sw_err *err)
+{
+  size_t m = net->ndev, k;
+  double *v = work, *i = v + m, *x = i + m, *ex = x + m;
+  char text[200];
+  sw_net_state_text(net, state, text, sizeof text);
+  if (trace) {
+    for (k = 0; k < m; k++) v[k] = i[k] = x[k] = ex[k] = NAN;
+    if (trace_push(trace, m, state, v, i, x, ex, SW_TRACE_SINGULAR, err)) return SW_ENOMEM;
+  }
+  return sw_err_set(err, SW_ENOSOL,
+                    "assumed state: the equations are singular with states %s after %zu attempts",
+                    text, it);
+}
+
+/* Each device's x and its excess over its assumed segment (in work, after
+ * v and i); returns 1 when some device left its segment, the worst (by
+ * excess over its tolerance) in *worst. */
+static int check_segments(const sw_net *net, const int *state, double *work, size_t *worst)
+{
+  size_t m = net->ndev, k;
+  double *v = work, *i = v + m, *x = i + m, *ex = x + m, worst_rel = -1;
+  int bad = 0;
+  for (k = 0; k < m; k++) {
+    const sw_net_dev *d = &net->dev[k];
+    x[k] = sw_net_dev_x(d, v[k], i[k]);
+    ex[k] = sw_net_excess(d, (size_t)state[k], x[k]);
+    if (ex[k] != 0) {
+      double rel = fabs(ex[k]) / (d->tol * 1e9);
+      bad = 1;
+      if (rel > worst_rel) { worst_rel = rel; *worst = k; }
+    }
+  }
+  return bad;
+}
+
 int sw_net_assumed_run(const sw_net *net, sw_net_lr *lr, int *hist, double *work,
                        const int *start, size_t max_iter, int *state,
                        size_t *iterations, sw_net_trace *trace, sw_err *err)
@@ -166,35 +204,15 @@ int sw_net_assumed_run(const sw_net *net, sw_net_lr *lr, int *hist, double *work
   else sw_net_default_start(net, state);
   memcpy(hist, state, m * sizeof *state); nh = 1;
   for (it = 1; it <= max_iter; it++) {
-    int bad = 0, event = SW_TRACE_SOLVED;
+    int bad, event = SW_TRACE_SOLVED;
     size_t worst = 0;
-    double worst_rel = -1;
     *iterations = it;
     if ((rc = solve_ports(net, lr, state, v, i, z, trace != NULL, err))) {
-      if (rc == SW_ENOMEM) break; /* out of memory is not a singular state */
-      sw_net_state_text(net, state, text, sizeof text);
-      if (trace) {
-        for (k = 0; k < m; k++) v[k] = i[k] = x[k] = ex[k] = NAN;
-        if (trace_push(trace, m, state, v, i, x, ex, SW_TRACE_SINGULAR, err)) {
-          rc = SW_ENOMEM;
-          break;
-        }
-      }
-      rc = sw_err_set(err, SW_ENOSOL,
-                      "assumed state: the equations are singular with states %s after %zu attempts",
-                      text, it);
+      if (rc != SW_ENOMEM) /* out of memory is not a singular state */
+        rc = singular_attempt(net, state, work, it, trace, err);
       break;
     }
-    for (k = 0; k < m; k++) {
-      const sw_net_dev *d = &net->dev[k];
-      x[k] = sw_net_dev_x(d, v[k], i[k]);
-      ex[k] = sw_net_excess(d, (size_t)state[k], x[k]);
-      if (ex[k] != 0) {
-        double rel = fabs(ex[k]) / (d->tol * 1e9);
-        bad = 1;
-        if (rel > worst_rel) { worst_rel = rel; worst = k; }
-      }
-    }
+    bad = check_segments(net, state, work, &worst);
     if (!bad) {
       if (trace && trace_push(trace, m, state, v, i, x, ex, event, err)) rc = SW_ENOMEM;
       break;
