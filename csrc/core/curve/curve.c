@@ -287,7 +287,10 @@ int sw_curve_newton_lost(const sw_curve *c, double x)
  * infinite end or v(i)'s open end at -is maps to an infinite one. */
 static int diode_flip_end(const sw_curve *c, double x, double *y, sw_err *err)
 {
-  if (!sw_isfinite(x) || (c->x_is_i && x <= -c->is)) { *y = x > 0 ? INFINITY : -INFINITY; return SW_OK; }
+  if (!sw_isfinite(x) || (c->x_is_i && x <= -c->is)) {
+    *y = x > 0 ? INFINITY : -INFINITY;
+    return SW_OK;
+  }
   return diode_eval(c, x, y, err);
 }
 
@@ -295,8 +298,10 @@ int sw_curve_flip(const sw_curve *c, sw_curve *out, sw_err *err)
 {
   double lo, hi;
   int st;
-  if (c->kind != SW_CURVE_DIODE) return sw_err_set(err, SW_EINVAL, "only the diode law has a closed inverse");
-  if ((st = diode_flip_end(c, c->lo, &lo, err)) || (st = diode_flip_end(c, c->hi, &hi, err))) return st;
+  if (c->kind != SW_CURVE_DIODE)
+    return sw_err_set(err, SW_EINVAL, "only the diode law has a closed inverse");
+  if ((st = diode_flip_end(c, c->lo, &lo, err))) return st;
+  if ((st = diode_flip_end(c, c->hi, &hi, err))) return st;
   *out = *c;
   out->x_is_i = !c->x_is_i;
   /* i(v) -> v(i): v = -inf maps to the open end i = -is itself */

@@ -65,9 +65,9 @@ int sw_curve_bounded(const sw_curve *c);
 /* Newton on a law: the orientation to solve it in, its inverse, and the
  * law's own step limit.  sw_curve_newton_flip is 1 when, near the point
  * (x, y), the law is better solved as its inverse (a diode: v(i) at and
- * above zero current, i(v) below, toward i = -is where v(i) ends).  sw_curve_flip writes the same law with x and y exchanged, its
- * domain mapped through the law (SW_EINVAL for kinds without a closed
- * inverse). */
+ * above zero current, i(v) below, toward i = -is where v(i) ends).
+ * sw_curve_flip writes the same law with x and y exchanged, its domain
+ * mapped through the law (SW_EINVAL for kinds without a closed inverse). */
 int sw_curve_newton_flip(const sw_curve *c, double x, double y);
 int sw_curve_flip(const sw_curve *c, sw_curve *out, sw_err *err);
 /* 1 when the law's row can no longer resolve x (a diode's v(i) once i + is

@@ -49,6 +49,12 @@ typedef struct exact_ctx {
 
 static double clampbig(double x) { return sw_isfinite(x) ? x : BIG; }
 
+static int copy(exact_ctx *c, gsl_vector *dst, const gsl_vector *src)
+{
+  if (!gsl_vector_memcpy(dst, src)) return 0;
+  return sw_err_set(c->err, SW_ENUMERIC, "exact: vector copy failed");
+}
+
 static double port_v(const sw_net *net, const sw_net_dev *d, const gsl_vector *y)
 {
   const sw_net_el *e = &net->el[d->el];
@@ -127,7 +133,8 @@ static int fill(exact_ctx *c, const gsl_vector *y, gsl_vector *F, gsl_matrix *J)
     const sw_net_dev *d = &net->dev[k];
     const sw_net_el *e = &net->el[d->el];
     double res, rv, ri, mag;
-    if (dev_row(c, k, port_v(net, d, y), gsl_vector_get(y, d->col), &res, &rv, &ri, &mag)) return -1;
+    if (dev_row(c, k, port_v(net, d, y), gsl_vector_get(y, d->col), &res, &rv, &ri, &mag))
+      return -1;
     gsl_vector_set(F, d->col, res); gsl_vector_set(c->M, d->col, mag);
     if (!J) continue;
     for (r = 0; r < N; r++) gsl_matrix_set(J, d->col, r, 0);
@@ -162,8 +169,10 @@ static int newton_step(exact_ctx *c)
   int signum;
   size_t r;
   if (gsl_matrix_memcpy(c->LU, c->J) || gsl_linalg_LU_decomp(c->LU, c->perm, &signum)) return 1;
-  for (r = 0; r < c->LU->size1; r++)
-    if (!(fabs(gsl_matrix_get(c->LU, r, r)) > 0) || !sw_isfinite(gsl_matrix_get(c->LU, r, r))) return 1;
+  for (r = 0; r < c->LU->size1; r++) {
+    double u = gsl_matrix_get(c->LU, r, r);
+    if (!(fabs(u) > 0) || !sw_isfinite(u)) return 1;
+  }
   if (gsl_linalg_LU_solve(c->LU, c->perm, c->F, c->dy) || gsl_vector_scale(c->dy, -1.0)) return 1;
   for (r = 0; r < c->dy->size; r++) if (!sw_isfinite(gsl_vector_get(c->dy, r))) return 1;
   return 0;
@@ -179,9 +188,10 @@ static int step_small(const exact_ctx *c, const gsl_vector *y)
     double a = fabs(gsl_vector_get(y, r));
     if (a > big[r >= nv]) big[r >= nv] = a;
   }
-  for (r = 0; r < N; r++)
-    if (!(fabs(gsl_vector_get(c->dy, r)) <= 1e-14 * (fabs(gsl_vector_get(y, r)) + 1e-12 * big[r >= nv])))
-      return 0;
+  for (r = 0; r < N; r++) {
+    double scale = fabs(gsl_vector_get(y, r)) + 1e-12 * big[r >= nv];
+    if (!(fabs(gsl_vector_get(c->dy, r)) <= 1e-14 * scale)) return 0;
+  }
   return 1;
 }
 
@@ -193,14 +203,12 @@ static double junction_limit(const exact_ctx *c, const gsl_vector *y)
   size_t k;
   for (k = 0; k < net->ndev; k++) {
     const sw_net_dev *d = &net->dev[k];
-    const sw_net_el *e = &net->el[d->el];
     const dev_law *L = &c->law[k];
-    double dv, di, dx, lim;
+    double dx, x0, lim;
     if (!L->cv) continue;
-    dv = (e->na ? gsl_vector_get(c->dy, e->na - 1) : 0) - (e->nb ? gsl_vector_get(c->dy, e->nb - 1) : 0);
-    di = gsl_vector_get(c->dy, d->col);
-    dx = L->so ? di : dv;
-    lim = sw_curve_limit_step(L->cv, L->so ? gsl_vector_get(y, d->col) : port_v(net, d, y), dx);
+    dx = L->so ? gsl_vector_get(c->dy, d->col) : port_v(net, d, c->dy);
+    x0 = L->so ? gsl_vector_get(y, d->col) : port_v(net, d, y);
+    lim = sw_curve_limit_step(L->cv, x0, dx);
     if (dx != 0 && lim / dx >= 0 && lim / dx < alpha) alpha = lim / dx;
   }
   return alpha;
@@ -214,13 +222,13 @@ static int line_search(exact_ctx *c, double alpha, double *fn)
   double t;
   for (t = alpha; t > 1e-12 * alpha; t *= 0.5) {
     double ft;
-    for (r = 0; r < N; r++) gsl_vector_set(c->yt, r, gsl_vector_get(c->y, r) + t * gsl_vector_get(c->dy, r));
+    for (r = 0; r < N; r++)
+      gsl_vector_set(c->yt, r, gsl_vector_get(c->y, r) + t * gsl_vector_get(c->dy, r));
     if (fill(c, c->yt, c->Ft, c->J)) return -1;
     ft = norm2(c->Ft);
     if (sw_isfinite(ft) && ft <= (1 - 1e-4 * t) * *fn) {
       if (t < 1) c->limited = 1;
-      if (gsl_vector_memcpy(c->y, c->yt) || gsl_vector_memcpy(c->F, c->Ft))
-        return sw_err_set(c->err, SW_ENUMERIC, "exact: vector copy failed"), -1;
+      if (copy(c, c->y, c->yt) || copy(c, c->F, c->Ft)) return -1;
       *fn = ft;
       return 1;
     }
@@ -235,8 +243,8 @@ static int lost(const exact_ctx *c)
   size_t k;
   for (k = 0; k < c->net->ndev; k++) {
     const sw_net_dev *d = &c->net->dev[k];
-    if (c->law[k].cv && c->law[k].so && sw_curve_newton_lost(c->law[k].cv, gsl_vector_get(c->y, d->col)))
-      return 1;
+    const dev_law *L = &c->law[k];
+    if (L->cv && L->so && sw_curve_newton_lost(L->cv, gsl_vector_get(c->y, d->col))) return 1;
   }
   return 0;
 }
@@ -269,18 +277,18 @@ static int continuation(exact_ctx *c, size_t max_iter, size_t *steps, double *re
 {
   double lam = 0, dl = 0.125;
   size_t cap = max_iter < 50 ? max_iter : 50, budget = c->its + 20 * max_iter;
-  if (gsl_vector_memcpy(c->ys, c->y0)) return sw_err_set(c->err, SW_ENUMERIC, "exact: vector copy failed"), -1;
+  if (copy(c, c->ys, c->y0)) return -1;
   *steps = 0;
   while (lam < 1) {
     double to = lam + dl > 1 - 1e-9 ? 1 : lam + dl;
     size_t before = c->its;
     int st;
     c->lambda = to;
-    if (gsl_vector_memcpy(c->y, c->ys)) return sw_err_set(c->err, SW_ENUMERIC, "exact: vector copy failed"), -1;
+    if (copy(c, c->y, c->ys)) return -1;
     st = newton(c, to == 1 ? max_iter : cap, to == 1 ? TOL_EXACT : TOL_STEP);
     if (st < 0) return st;
     if (st == NT_OK) {
-      if (gsl_vector_memcpy(c->ys, c->y)) return sw_err_set(c->err, SW_ENUMERIC, "exact: vector copy failed"), -1;
+      if (copy(c, c->ys, c->y)) return -1;
       lam = to; (*steps)++;
       if (c->its - before <= 6 && dl < 0.5) dl *= 2;
     } else if ((dl *= 0.25) < 1e-7) break;
@@ -315,14 +323,16 @@ static int setup_laws(exact_ctx *c, const sw_curve *const *curves, const sw_net_
   for (k = 0; k < net->ndev; k++) {
     const sw_net_dev *d = &net->dev[k];
     dev_law *L = &c->law[k];
-    double v = op->v[d->el], i = all_iv ? -INFINITY : op->i[d->el], xm = d->x_is_i ? op->i[d->el] : v, p, s;
+    double v = op->v[d->el], i = all_iv ? -INFINITY : op->i[d->el], p, s;
+    double xm = d->x_is_i ? op->i[d->el] : v;
     sw_err e;
     L->cv = curves ? curves[k] : NULL;
     L->so = L->ux = d->x_is_i;
     L->w = 1;
     L->floor = 0;
     if (!L->cv) continue;
-    if (L->cv->x_is_i == d->x_is_i && sw_curve_newton_flip(L->cv, d->x_is_i ? i : v, d->x_is_i ? v : i) &&
+    if (L->cv->x_is_i == d->x_is_i &&
+        sw_curve_newton_flip(L->cv, d->x_is_i ? i : v, d->x_is_i ? v : i) &&
         sw_curve_flip(L->cv, &L->flip, &e) == SW_OK) {
       double xs = d->x_is_i ? v : op->i[d->el], f = 0, df = 0;
       L->cv = &L->flip;
@@ -355,20 +365,26 @@ static int outside_at(exact_ctx *c, size_t *k, double *x)
   return 0;
 }
 
+#define NO_REACH "exact: Newton's method did not reach the exact laws: neither from the PWL " \
+  "point (%zu iterations) nor by continuation from the PWL model toward the exact curves "
+
 static int fail_message(exact_ctx *c, size_t first, size_t steps, double reached)
 {
   if (reached > 0)
-    return sw_err_set(c->err, SW_ENUMERIC, "exact: Newton's method did not reach the exact laws: neither from the PWL point (%zu iterations) nor by continuation from the PWL model toward the exact curves (%zu steps, stopped at lambda = %.3g of 1; no solution of the exact circuit near the PWL point?)",
+    return sw_err_set(c->err, SW_ENUMERIC, NO_REACH "(%zu steps, stopped at lambda = %.3g of 1; "
+                      "no solution of the exact circuit near the PWL point?)",
                       first, steps, reached);
-  return sw_err_set(c->err, SW_ENUMERIC, "exact: Newton's method did not reach the exact laws: neither from the PWL point (%zu iterations) nor by continuation from the PWL model toward the exact curves (no step of it converged; no solution of the exact circuit near the PWL point?)",
-                    first);
+  return sw_err_set(c->err, SW_ENUMERIC, NO_REACH "(no step of it converged; no solution of the "
+                    "exact circuit near the PWL point?)", first);
 }
 
 static int outside_message(exact_ctx *c, const sw_curve *const *curves, size_t k, double x)
 {
   const sw_net_dev *d = &c->net->dev[k];
   const sw_curve *cv = curves[k];
-  return sw_err_set(c->err, SW_ENUMERIC, "exact: Newton's method ended at %s = %g, outside the domain of %s's exact law [%g, %g]: the exact circuit has no solution there (extend the curve's range)",
+  return sw_err_set(c->err, SW_ENUMERIC, "exact: Newton's method ended at %s = %g, outside the "
+                    "domain of %s's exact law [%g, %g]: the exact circuit has no solution there "
+                    "(extend the curve's range)",
                     c->law[k].ux ? "i" : "v", x, c->net->el[d->el].name, cv->lo, cv->hi);
 }
 
@@ -405,7 +421,8 @@ static int finish_op(exact_ctx *c, sw_net_op *op, sw_err *err)
   if (!state) return SW_ENOMEM;
   for (k = 0; k < net->ndev; k++) {
     const sw_net_dev *d = &net->dev[k];
-    state[k] = (int)sw_net_locate(d, d->x_is_i ? gsl_vector_get(c->y, d->col) : port_v(net, d, c->y));
+    double x = d->x_is_i ? gsl_vector_get(c->y, d->col) : port_v(net, d, c->y);
+    state[k] = (int)sw_net_locate(d, x);
   }
   rc = sw_net_op_from_y(net, c->y->data, state, op, err);
   free(state);
@@ -422,8 +439,7 @@ static int direct(exact_ctx *c, const sw_curve *const *curves, const sw_net_op *
 {
   int turned = setup_laws(c, curves, op, 0);
   c->lambda = 1;
-  if (gsl_vector_memcpy(c->y, c->y0)) { sw_err_set(c->err, SW_ENUMERIC, "exact: vector copy failed"); *st = -1; }
-  else *st = newton(c, max_iter, TOL_EXACT);
+  *st = copy(c, c->y, c->y0) ? -1 : newton(c, max_iter, TOL_EXACT);
   return turned;
 }
 
