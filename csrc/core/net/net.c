@@ -300,100 +300,120 @@ static int is_control_node(const sw_net *net, size_t j)
   return 0;
 }
 
-static int check_topology(sw_net *net, sw_err *err)
+/* Each current-controlled source's control element, by name. */
+static int resolve_controls(sw_net *net, sw_err *err)
 {
-  size_t n = net->nnodes, k, j;
-  size_t *count, *parent;
-  int rc = SW_OK;
-  if (net->nel == 0) return sw_err_set(err, SW_EINVAL, "the network has no elements");
-  count = sw_alloc(n, sizeof *count, err);
-  parent = sw_alloc(n, sizeof *parent, err);
-  if (!count || !parent) { free(count); free(parent); return SW_ENOMEM; }
-  /* resolve controls */
-  for (k = 0; k < net->nel && !rc; k++) {
+  size_t k;
+  for (k = 0; k < net->nel; k++) {
     sw_net_el *e = &net->el[k];
-    if (e->kind == SW_NET_CCVS || e->kind == SW_NET_CCCS) {
-      size_t c = sw_net_find(net, e->ctrl_name);
-      if (c == SW_NET_NONE)
-        rc = sw_err_set(err, SW_EINVAL,
+    size_t c;
+    if (e->kind != SW_NET_CCVS && e->kind != SW_NET_CCCS) continue;
+    c = sw_net_find(net, e->ctrl_name);
+    if (c == SW_NET_NONE)
+      return sw_err_set(err, SW_EINVAL,
                         "%s %s: no element named '%s' to take the control current from",
                         sw_net_kind_name(e->kind), e->name, e->ctrl_name);
-      else if (net->el[c].kind == SW_NET_CCCS || c == k)
-        rc = sw_err_set(err, SW_EINVAL,
+    if (net->el[c].kind == SW_NET_CCCS || c == k)
+      return sw_err_set(err, SW_EINVAL,
                         "%s %s: the control element '%s' must not be a current-controlled current "
                         "source or itself",
                         sw_net_kind_name(e->kind), e->name, e->ctrl_name);
-      else e->ctrl = c;
-    }
+    e->ctrl = c;
   }
-  /* dangling nodes: one current-carrying terminal, unless a voltage source
-   * holds the node for a control input to read (no current flows there) */
+  return SW_OK;
+}
+
+/* Dangling nodes: one current-carrying terminal, unless a voltage source
+ * holds the node for a control input to read (no current flows there);
+ * and elements other than resistors and devices across one node. */
+static int check_terminals(const sw_net *net, size_t *count, sw_err *err)
+{
+  size_t n = net->nnodes, k, j;
   for (k = 0; k < net->nel; k++) { count[net->el[k].na]++; count[net->el[k].nb]++; }
-  for (j = 1; j < n && !rc; j++) {
+  for (j = 1; j < n; j++) {
     if (count[j] == 0)
-      rc =
-          sw_err_set(err, SW_EINVAL,
-                     "node '%s' is only used as a control node: no element carries current into it",
-                     net->node[j]);
-    else if (count[j] == 1) {
+      return sw_err_set(err, SW_EINVAL, "node '%s' is only used as a control node: no element "
+                        "carries current into it", net->node[j]);
+    if (count[j] == 1) {
       for (k = 0; k < net->nel; k++)
         if (net->el[k].na == j || net->el[k].nb == j) break;
       if (!(is_vlike(net->el[k].kind) && is_control_node(net, j)))
-        rc = sw_err_set(err, SW_EINVAL, "node '%s' is dangling: only %s connects to it",
-                        net->node[j], net->el[k].name);
+        return sw_err_set(err, SW_EINVAL, "node '%s' is dangling: only %s connects to it",
+                          net->node[j], net->el[k].name);
     }
   }
-  for (k = 0; k < net->nel && !rc; k++)
+  for (k = 0; k < net->nel; k++)
     if (net->el[k].na == net->el[k].nb && net->el[k].kind != SW_NET_R &&
         net->el[k].kind != SW_NET_DEV)
-      rc = sw_err_set(err, SW_EINVAL, "%s %s connects node '%s' to itself",
-                      sw_net_kind_name(net->el[k].kind), net->el[k].name, net->node[net->el[k].na]);
-  /* loops of voltage sources */
-  for (j = 0; j < n; j++) parent[j] = j;
-  for (k = 0; k < net->nel && !rc; k++) {
+      return sw_err_set(err, SW_EINVAL, "%s %s connects node '%s' to itself",
+                        sw_net_kind_name(net->el[k].kind), net->el[k].name,
+                        net->node[net->el[k].na]);
+  return SW_OK;
+}
+
+/* Loops of voltage sources (union-find over their terminals). */
+static int check_vloops(const sw_net *net, size_t *parent, sw_err *err)
+{
+  size_t j, k;
+  for (j = 0; j < net->nnodes; j++) parent[j] = j;
+  for (k = 0; k < net->nel; k++) {
     const sw_net_el *e = &net->el[k];
     size_t a, b;
     if (!is_vlike(e->kind)) continue;
     a = uf_find(parent, e->na); b = uf_find(parent, e->nb);
-    if (a == b) rc = vloop_error(net, k, err);
-    else parent[a] = b;
+    if (a == b) return vloop_error(net, k, err);
+    parent[a] = b;
   }
-  /* floating parts and cuts of current sources: connectivity to the
-   * reference through elements other than current sources */
-  if (!rc) {
-    for (j = 0; j < n; j++) parent[j] = j;
+  return SW_OK;
+}
+
+/* Floating parts and cuts of current sources: connectivity to the
+ * reference through elements other than current sources. */
+static int check_reach(const sw_net *net, size_t *parent, sw_err *err)
+{
+  size_t n = net->nnodes, j, k;
+  for (j = 0; j < n; j++) parent[j] = j;
+  for (k = 0; k < net->nel; k++) {
+    const sw_net_el *e = &net->el[k];
+    if (!is_ilike(e->kind)) parent[uf_find(parent, e->na)] = uf_find(parent, e->nb);
+  }
+  for (j = 1; j < n; j++) {
+    size_t root = uf_find(parent, j), q;
+    char nodes[160] = "", srcs[160] = "";
+    if (root == uf_find(parent, 0)) continue;
+    for (q = 1; q < n; q++)
+      if (uf_find(parent, q) == root) append(nodes, sizeof nodes, net->node[q]);
     for (k = 0; k < net->nel; k++) {
       const sw_net_el *e = &net->el[k];
-      if (is_ilike(e->kind)) continue;
-      parent[uf_find(parent, e->na)] = uf_find(parent, e->nb);
+      if (is_ilike(e->kind) &&
+          ((uf_find(parent, e->na) == root) != (uf_find(parent, e->nb) == root)))
+        append(srcs, sizeof srcs, e->name);
     }
-    for (j = 1; j < n && !rc; j++) {
-      size_t root = uf_find(parent, j), g = uf_find(parent, 0);
-      char nodes[160] = "", srcs[160] = "";
-      size_t q;
-      if (root == g) continue;
-      for (q = 1; q < n; q++)
-        if (uf_find(parent, q) == root) append(nodes, sizeof nodes, net->node[q]);
-      for (k = 0; k < net->nel; k++) {
-        const sw_net_el *e = &net->el[k];
-        if (is_ilike(e->kind) &&
-            ((uf_find(parent, e->na) == root) != (uf_find(parent, e->nb) == root)))
-          append(srcs, sizeof srcs, e->name);
-      }
-      if (srcs[0])
-        rc = sw_err_set(err, SW_EINVAL,
-                        "current sources %s form a cut: nodes %s reach the reference only through "
-                        "them, so their voltages are undetermined",
-                        srcs, nodes);
-      else
-        rc = sw_err_set(err, SW_EINVAL, "floating nodes %s: no path to the reference node \"0\"",
-                        nodes);
-    }
+    if (srcs[0])
+      return sw_err_set(err, SW_EINVAL,
+                        "current sources %s form a cut: nodes %s reach the reference only "
+                        "through them, so their voltages are undetermined", srcs, nodes);
+    return sw_err_set(err, SW_EINVAL, "floating nodes %s: no path to the reference node (gnd)",
+                      nodes);
   }
+  return SW_OK;
+}
+
+static int check_topology(sw_net *net, sw_err *err)
+{
+  size_t n = net->nnodes;
+  size_t *count, *parent;
+  int rc;
+  if (net->nel == 0) return sw_err_set(err, SW_EINVAL, "the network has no elements");
+  count = sw_alloc(n, sizeof *count, err);
+  parent = sw_alloc(n, sizeof *parent, err);
+  if (!count || !parent) { free(count); free(parent); return SW_ENOMEM; }
+  if (!(rc = resolve_controls(net, err)) && !(rc = check_terminals(net, count, err)) &&
+      !(rc = check_vloops(net, parent, err)))
+    rc = check_reach(net, parent, err);
   free(count); free(parent);
   return rc;
 }
-
 
 int sw_net_prepare(sw_net *net, sw_err *err)
 {
