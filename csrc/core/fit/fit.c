@@ -23,26 +23,96 @@
 #define POLISH_RTOL 1e-2 /* the polish only centres the lines: a coarse level will do */
 #define TOL_MAX_GRID 2000001
 
-/* The sample set of curve c on [lo, hi] with tube scales and weights. */
-static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err *err)
+/* How many samples a fit of c works on: the curve's own inside (lo, hi)
+ * plus the range ends, or an analytic grid's target size. */
+static size_t sample_count(const sw_curve *c, const sw_fit_opts *o)
 {
-  size_t i, n, k = 0;
-  int st = SW_OK;
-  memset(d, 0, sizeof *d);
+  size_t n, a = 0, b;
   if (c->kind == SW_CURVE_SAMPLES) {
-    size_t a = 0, b;
     while (a < c->n && c->x[a] <= o->lo) a++;
     b = a;
     while (b < c->n && c->x[b] < o->hi) b++;
-    n = b - a + 2;
-  } else {
-    n = o->grid ? o->grid : DEFAULT_GRID;
-    /* optimal knots sit on grid points: keep ~400 points per segment */
-    if (!o->grid && o->knots == SW_KNOTS_OPTIMAL && n < 400 * o->segments + 1)
-      n = 400 * o->segments + 1 < 100001 ? 400 * o->segments + 1 : 100001;
-    if (n < 8 * o->segments + 1) n = 8 * o->segments + 1;
-    if (n < 3) n = 3;
+    return b - a + 2;
   }
+  n = o->grid ? o->grid : DEFAULT_GRID;
+  /* optimal knots sit on grid points: keep ~400 points per segment */
+  if (!o->grid && o->knots == SW_KNOTS_OPTIMAL && n < 400 * o->segments + 1)
+    n = 400 * o->segments + 1 < 100001 ? 400 * o->segments + 1 : 100001;
+  if (n < 8 * o->segments + 1) n = 8 * o->segments + 1;
+  return n < 3 ? 3 : n;
+}
+
+/* The abscissae and weights: the curve's samples inside (lo, hi) between
+ * the range ends (weight 1, or 0 for an end no sample sits on), or the
+ * grid's with quadrature weights. */
+static void place_samples(const sw_curve *c, const sw_fit_opts *o, fit_data *d)
+{
+  size_t i, k = 0, n = d->n;
+  if (c->kind != SW_CURVE_SAMPLES) {
+    for (i = 0; i < n; i++)
+      d->w[i] = 0.5 * ((i + 1 < n ? d->x[i + 1] : d->x[i]) - (i > 0 ? d->x[i - 1] : d->x[i]));
+    return;
+  }
+  d->x[k] = o->lo;
+  d->w[k++] = 0;
+  for (i = 0; i < c->n; i++)
+    if (c->x[i] > o->lo && c->x[i] < o->hi) {
+      d->x[k] = c->x[i];
+      d->y[k] = c->y[i];
+      d->w[k++] = 1;
+    } else if (c->x[i] == o->lo)
+      d->w[0] = 1;
+    else if (c->x[i] == o->hi) d->w[n - 1] = 1;
+  d->x[k++] = o->hi;
+}
+
+/* The values and tube scales of the samples. */
+static int sample_values(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err *err)
+{
+  size_t i, n = d->n;
+  int st;
+  for (i = 0; i < n; i++) {
+    /* a sample's own value is taken as it is (x is unique and sorted) */
+    int own = c->kind == SW_CURVE_SAMPLES && i > 0 && i + 1 < n;
+    if (!own && (st = sw_curve_eval(c, d->x[i], &d->y[i], err))) return st;
+    if (!sw_isfinite(d->y[i]))
+      return sw_err_set(err, SW_ENUMERIC, "the curve is not finite at x = %g", d->x[i]);
+    if (o->rel && !(o->rel_floor > 0) &&
+        (d->y[i] == 0 || (i > 0 && (d->y[i] > 0) != (d->y[i - 1] > 0))))
+      return sw_err_set(err, SW_EINVAL, "relative error is undefined where the curve is 0 "
+                        "(near x = %g); give rel_floor or a range that avoids it", d->x[i]);
+    d->s[i] = fit_scale_of(d->y[i], o->rel, o->rel_floor);
+  }
+  return SW_OK;
+}
+
+/* The through points as samples of their own, and the level searches'
+ * start kept far from overflow (they double from it). */
+static int finish_samples(const sw_fit_opts *o, fit_data *d, sw_err *err)
+{
+  double lvl;
+  if (o->nthrough) {
+    double *ss = sw_alloc(o->nthrough, sizeof *ss, err);
+    int st;
+    if (!ss) return SW_ENOMEM;
+    st = fit_data_merge(d, o->through_x, o->through_y, ss, 0, o->nthrough, 1, err);
+    free(ss);
+    if (st) return st;
+  }
+  lvl = fit_start_level(d);
+  if (!sw_isfinite(lvl) || lvl > 1e250)
+    return sw_err_set(err, SW_ERANGE, "the curve's values over their error scale reach %g%s: "
+                      "rescale the data%s", lvl, o->rel ? " (relative error)" : "",
+                      o->rel ? " or raise rel_floor" : "");
+  return SW_OK;
+}
+
+/* The sample set of curve c on [lo, hi] with tube scales and weights. */
+static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err *err)
+{
+  size_t n = sample_count(c, o);
+  int st;
+  memset(d, 0, sizeof *d);
   if (c->kind != SW_CURVE_SAMPLES) {
     if ((st = fit_grid_analytic(c, o->lo, o->hi, n, o->rel, o->rel_floor, o->tol, &d->x, &n, err)))
       return st;
@@ -55,57 +125,8 @@ static int prepare(const sw_curve *c, const sw_fit_opts *o, fit_data *d, sw_err 
   d->w = sw_alloc(n, sizeof(double), err);
   if (!d->x || !d->y || !d->s || !d->w) { fit_data_free(d); return SW_ENOMEM; }
   d->n = n;
-  if (c->kind == SW_CURVE_SAMPLES) {
-    d->x[k] = o->lo;
-    d->w[k++] = 0;
-    for (i = 0; i < c->n; i++)
-      if (c->x[i] > o->lo && c->x[i] < o->hi) {
-        d->x[k] = c->x[i];
-        d->y[k] = c->y[i];
-        d->w[k++] = 1;
-      } else if (c->x[i] == o->lo)
-        d->w[0] = 1;
-      else if (c->x[i] == o->hi) d->w[n - 1] = 1;
-    d->x[k++] = o->hi;
-  } else {
-    for (i = 0; i < n; i++)
-      d->w[i] = 0.5 * ((i + 1 < n ? d->x[i + 1] : d->x[i]) - (i > 0 ? d->x[i - 1] : d->x[i]));
-  }
-  for (i = 0; i < n; i++) {
-    /* a sample's own value is taken as it is (x is unique and sorted) */
-    int own = c->kind == SW_CURVE_SAMPLES && i > 0 && i + 1 < n;
-    if (!own && (st = sw_curve_eval(c, d->x[i], &d->y[i], err))) goto fail;
-    if (!sw_isfinite(d->y[i])) {
-      st = sw_err_set(err, SW_ENUMERIC, "the curve is not finite at x = %g", d->x[i]);
-      goto fail;
-    }
-    if (o->rel && !(o->rel_floor > 0) &&
-        (d->y[i] == 0 || (i > 0 && (d->y[i] > 0) != (d->y[i - 1] > 0)))) {
-      st = sw_err_set(err, SW_EINVAL, "relative error is undefined where the curve is 0 "
-                      "(near x = %g); give rel_floor or a range that avoids it", d->x[i]);
-      goto fail;
-    }
-    d->s[i] = fit_scale_of(d->y[i], o->rel, o->rel_floor);
-  }
-  if (o->nthrough) {
-    double *ss = sw_alloc(o->nthrough, sizeof *ss, err);
-    if (!ss) { st = SW_ENOMEM; goto fail; }
-    st = fit_data_merge(d, o->through_x, o->through_y, ss, 0, o->nthrough, 1, err);
-    free(ss);
-    if (st) goto fail;
-  }
-  { /* level searches double from this start: keep them far from overflow */
-    double lvl = fit_start_level(d);
-    if (!sw_isfinite(lvl) || lvl > 1e250) {
-      st = sw_err_set(err, SW_ERANGE, "the curve's values over their error scale reach %g%s: "
-                      "rescale the data%s", lvl, o->rel ? " (relative error)" : "",
-                      o->rel ? " or raise rel_floor" : "");
-      goto fail;
-    }
-  }
-  return SW_OK;
-fail:
-  fit_data_free(d);
+  place_samples(c, o, d);
+  if ((st = sample_values(c, o, d, err)) || (st = finish_samples(o, d, err))) fit_data_free(d);
   return st;
 }
 
