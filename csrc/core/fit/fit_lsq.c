@@ -403,11 +403,67 @@ static int cont_sse(const fit_data *d, const double *K, size_t n, double *c, dou
   return SW_OK;
 }
 
+/* Every stride-th sample of d into sub, weights scaled to match. */
+static int thin_samples(const fit_data *d, size_t stride, fit_data *sub, sw_err *err)
+{
+  size_t i, m = 0, cap = d->n / stride + 2;
+  sub->x = sw_alloc(cap, sizeof(double), err);
+  sub->y = sw_alloc(cap, sizeof(double), err);
+  sub->s = sw_alloc(cap, sizeof(double), err);
+  sub->w = sw_alloc(cap, sizeof(double), err);
+  if (!sub->x || !sub->y || !sub->s || !sub->w) { fit_data_free(sub); return SW_ENOMEM; }
+  for (i = 0; i < d->n; i += stride, m++) {
+    sub->x[m] = d->x[i];
+    sub->y[m] = d->y[i];
+    sub->s[m] = d->s[i];
+    sub->w[m] = d->w[i] * (double)stride;
+  }
+  sub->n = m;
+  return SW_OK;
+}
+
+/* Golden-section search of interior knot j between its neighbours (K2 and
+ * c are scratch); knots[j] and *best move when the error drops. */
+static int golden_knot(const fit_data *d, double *knots, size_t nseg, size_t j, double *c,
+                       double *K2, double *best, sw_err *err)
+{
+  const double g = 0.6180339887498949;
+  double a = knots[j - 1], b = knots[j + 1], w = b - a, x1, x2, f1, f2, cur;
+  size_t it;
+  int st;
+  a += 1e-6 * w;
+  b -= 1e-6 * w;
+  memcpy(K2, knots, (nseg + 1) * sizeof *K2);
+  x1 = b - g * (b - a);
+  x2 = a + g * (b - a);
+  K2[j] = x1;
+  if ((st = cont_sse(d, K2, nseg, c, &f1, err))) return st;
+  K2[j] = x2;
+  if ((st = cont_sse(d, K2, nseg, c, &f2, err))) return st;
+  for (it = 0; it < 24; it++) {
+    if (f1 <= f2) {
+      b = x2; x2 = x1; f2 = f1;
+      x1 = b - g * (b - a);
+      K2[j] = x1;
+      st = cont_sse(d, K2, nseg, c, &f1, err);
+    } else {
+      a = x1; x1 = x2; f1 = f2;
+      x2 = a + g * (b - a);
+      K2[j] = x2;
+      st = cont_sse(d, K2, nseg, c, &f2, err);
+    }
+    if (st) return st;
+  }
+  cur = f1 <= f2 ? f1 : f2;
+  if (cur < *best) { *best = cur; knots[j] = f1 <= f2 ? x1 : x2; }
+  return SW_OK;
+}
+
 int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int continuous,
                     const double *start, double *knots, size_t *iters, sw_err *err)
 {
-  double *c, *K2, best, cur;
-  size_t j, sweep, it;
+  double *c, *K2, best;
+  size_t j, sweep;
   fit_data sub;
   size_t stride;
   int st = dp_knots(d, lo, hi, nseg, knots, iters, err);
@@ -420,24 +476,7 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
    * final fit on all of them */
   stride = d->n / SEARCH_SAMPLES + 1;
   if (stride > 1) {
-    size_t i, m = 0;
-    sub.x = sw_alloc(d->n / stride + 2, sizeof(double), err);
-    sub.y = sw_alloc(d->n / stride + 2, sizeof(double), err);
-    sub.s = sw_alloc(d->n / stride + 2, sizeof(double), err);
-    sub.w = sw_alloc(d->n / stride + 2, sizeof(double), err);
-    if (!sub.x || !sub.y || !sub.s || !sub.w) {
-      fit_data_free(&sub);
-      free(c);
-      free(K2);
-      return SW_ENOMEM;
-    }
-    for (i = 0; i < d->n; i += stride, m++) {
-      sub.x[m] = d->x[i];
-      sub.y[m] = d->y[i];
-      sub.s[m] = d->s[i];
-      sub.w[m] = d->w[i] * (double)stride;
-    }
-    sub.n = m;
+    if ((st = thin_samples(d, stride, &sub, err))) goto done;
     d = &sub;
   }
   if ((st = cont_sse(d, knots, nseg, c, &best, err))) goto done;
@@ -450,38 +489,8 @@ int fit_lsq_optimal(const fit_data *d, double lo, double hi, size_t nseg, int co
   for (sweep = 0; sweep < 4; sweep++) {
     double before = best;
     for (j = 1; j < nseg; j++) {
-      const double g = 0.6180339887498949;
-      double a = knots[j - 1], b = knots[j + 1], w = b - a, x1, x2, f1, f2;
-      a += 1e-6 * w;
-      b -= 1e-6 * w;
-      memcpy(K2, knots, (nseg + 1) * sizeof *K2);
-      x1 = b - g * (b - a);
-      x2 = a + g * (b - a);
-      K2[j] = x1;
-      if ((st = cont_sse(d, K2, nseg, c, &f1, err))) goto done;
-      K2[j] = x2;
-      if ((st = cont_sse(d, K2, nseg, c, &f2, err))) goto done;
-      for (it = 0; it < 24; it++) {
-        if (f1 <= f2) {
-          b = x2;
-          x2 = x1;
-          f2 = f1;
-          x1 = b - g * (b - a);
-          K2[j] = x1;
-          st = cont_sse(d, K2, nseg, c, &f1, err);
-        } else {
-          a = x1;
-          x1 = x2;
-          f1 = f2;
-          x2 = a + g * (b - a);
-          K2[j] = x2;
-          st = cont_sse(d, K2, nseg, c, &f2, err);
-        }
-        if (st) goto done;
-      }
+      if ((st = golden_knot(d, knots, nseg, j, c, K2, &best, err))) goto done;
       *iters += 1;
-      cur = f1 <= f2 ? f1 : f2;
-      if (cur < best) { best = cur; knots[j] = f1 <= f2 ? x1 : x2; }
     }
     if (!(best < before * (1 - 1e-9))) break;
   }
