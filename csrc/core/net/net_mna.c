@@ -133,6 +133,44 @@ done:
   return rc;
 }
 
+/* The linear rows of the MNA system into L and s: stamped into an N x N
+ * scratch, of which the first nl rows are kept. */
+static int linear_rows(const sw_net *net, gsl_matrix *L, gsl_vector *s, sw_err *err)
+{
+  size_t N = net->nunk, r, c;
+  gsl_matrix *A = gsl_matrix_alloc(N, N);
+  gsl_vector *b = gsl_vector_alloc(N);
+  if (!A || !b) {
+    gsl_matrix_free(A);
+    gsl_vector_free(b);
+    return sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction");
+  }
+  sw_net_stamp(net, NULL, A, b);
+  for (r = 0; r < net->nlin; r++) {
+    for (c = 0; c < N; c++) gsl_matrix_set(L, r, c, gsl_matrix_get(A, r, c));
+    gsl_vector_set(s, r, gsl_vector_get(b, r));
+  }
+  gsl_matrix_free(A);
+  gsl_vector_free(b);
+  return SW_OK;
+}
+
+/* The linear equations are independent: no diagonal of R is small next to
+ * the largest. */
+static int check_rank(const gsl_matrix *R, size_t nl, sw_err *err)
+{
+  double big = 0;
+  size_t r;
+  for (r = 0; r < nl; r++)
+    if (fabs(gsl_matrix_get(R, r, r)) > big) big = fabs(gsl_matrix_get(R, r, r));
+  for (r = 0; r < nl; r++)
+    if (!(fabs(gsl_matrix_get(R, r, r)) > 1e-12 * big))
+      return sw_err_set(err, SW_EINVAL,
+                        "the linear part of the network is singular: its equations are dependent "
+                        "(check controlled-source gains and how sources are connected)");
+  return SW_OK;
+}
+
 int sw_net_reduce(sw_net *net, sw_err *err)
 {
   size_t N = net->nunk, nl = net->nlin, m = net->ndev, r, c, j;
@@ -156,40 +194,13 @@ int sw_net_reduce(sw_net *net, sw_err *err)
       rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction");
       goto done;
     }
-    {
-      /* stamp into an N x N scratch then keep the first nl rows */
-      gsl_matrix *A = gsl_matrix_alloc(N, N);
-      gsl_vector *b = gsl_vector_alloc(N);
-      if (!A || !b) {
-        gsl_matrix_free(A);
-        gsl_vector_free(b);
-        rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA reduction");
-        goto done;
-      }
-      sw_net_stamp(net, NULL, A, b);
-      for (r = 0; r < nl; r++) {
-        for (c = 0; c < N; c++) gsl_matrix_set(L, r, c, gsl_matrix_get(A, r, c));
-        gsl_vector_set(s, r, gsl_vector_get(b, r));
-      }
-      gsl_matrix_free(A); gsl_vector_free(b);
-    }
+    if ((rc = linear_rows(net, L, s, err))) goto done;
     gsl_matrix_transpose_memcpy(LT, L);
     if (gsl_linalg_QR_decomp(LT, tau) || gsl_linalg_QR_unpack(LT, tau, Q, R)) {
       rc = sw_err_set(err, SW_ENUMERIC, "QR factorisation of the linear part failed");
       goto done;
     }
-    {
-      double big = 0;
-      for (r = 0; r < nl; r++)
-        if (fabs(gsl_matrix_get(R, r, r)) > big) big = fabs(gsl_matrix_get(R, r, r));
-      for (r = 0; r < nl; r++)
-        if (!(fabs(gsl_matrix_get(R, r, r)) > 1e-12 * big)) {
-          rc = sw_err_set(err, SW_EINVAL,
-                          "the linear part of the network is singular: its equations are dependent "
-                          "(check controlled-source gains and how sources are connected)");
-          goto done;
-        }
-    }
+    if ((rc = check_rank(R, nl, err))) goto done;
     for (r = 0; r < N; r++)
       for (j = 0; j < m; j++) net->K[r * m + j] = gsl_matrix_get(Q, r, nl + j);
     {
