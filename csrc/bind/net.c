@@ -332,22 +332,78 @@ static void push_exact_info(lua_State *L, const sw_net_exact_info *x)
 
 /* n:solve(method, start, trace, max_states, exact, max_iter, lowrank)
  * -> op, info {method=, nfound=, pmatrix=, pmatrix_test=, trace=} */
+/* What one solve method did (for the info table). */
+typedef struct solve_run {
+  int method;               /* index into solve_methods */
+  size_t it, nfound, updates;
+  int pm;                   /* lcp: P-matrix verdict, -1 unknown */
+  const char *used, *how;
+} solve_run;
+
+static const char *const solve_methods[] = { "auto", "assumed", "enumerate", "lcp", NULL };
+
+/* Runs the method r->method into state; the trace into h when asked. */
+static int run_method(sw_net *net, const int *start, double max_states, int refactor_always,
+                      lsw_hold *h, int want_trace, int *state, solve_run *r, sw_err *err)
+{
+  size_t m = net->ndev, count = 0;
+  int *all = NULL, rc = SW_OK;
+  switch (r->method) {
+  case 0: return sw_net_auto(net, start, max_states, state, &r->it, &r->nfound, &r->used, err);
+  case 1:
+    net->refactor_always = refactor_always;
+    rc = sw_net_assumed(net, start, 0, state, &r->it, want_trace ? &h->trace : NULL, &r->updates,
+                        err);
+    net->refactor_always = 0;
+    return rc;
+  case 2:
+    rc = sw_net_enumerate(net, max_states, &all, &count, &r->it, err);
+    if (rc == SW_OK && count == 0)
+      rc = sw_err_set(err, SW_ENOSOL,
+                      "no consistent state exists: enumeration of all %zu states found none", r->it);
+    if (rc == SW_OK) memcpy(state, all, m * sizeof *state);
+    free(all);
+    r->nfound = count;
+    return rc;
+  default: return sw_net_lcp(net, state, &r->it, &r->pm, &r->how, err);
+  }
+}
+
+/* The second result of solve: {method=, nfound=, pmatrix=, pmatrix_test=,
+ * lowrank_updates=, trace=}. */
+static void push_solve_info(lua_State *L, const sw_net *net, const solve_run *r, int exact,
+                            int want_trace, lsw_hold *h)
+{
+  lua_createtable(L, 0, 5);
+  lua_pushstring(L, exact ? "exact" : r->used); lua_setfield(L, -2, "method");
+  lua_pushinteger(L, (lua_Integer)r->nfound); lua_setfield(L, -2, "nfound");
+  if (r->method == 3) {
+    if (r->pm >= 0) { lua_pushboolean(L, r->pm); lua_setfield(L, -2, "pmatrix"); }
+    lua_pushstring(L, r->how); lua_setfield(L, -2, "pmatrix_test");
+  }
+  if (r->method == 1) {
+    lua_pushinteger(L, (lua_Integer)r->updates);
+    lua_setfield(L, -2, "lowrank_updates");
+  }
+  if (want_trace && r->method == 1) { push_trace(L, net, &h->trace); lua_setfield(L, -2, "trace"); }
+}
+
 static int l_solve(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
-  static const char *const methods[] = { "auto", "assumed", "enumerate", "lcp", NULL };
-  int method = luaL_checkoption(L, 2, "auto", methods);
-  int want_trace = lua_toboolean(L, 4), exact = lua_toboolean(L, 6), rc = SW_OK, pm = -1;
+  int want_trace = lua_toboolean(L, 4), exact = lua_toboolean(L, 6), rc;
   double max_states = luaL_optnumber(L, 5, 1e6);
   lua_Integer max_iter = luaL_optinteger(L, 7, 0);
   const sw_net *net = &n->net;
-  size_t m, it = 0, nfound = 0, count = 0, updates = 0;
-  const char *used = methods[method], *how = NULL;
+  size_t m;
   int *start = NULL, *state, stab;
   lsw_hold *h;
   sw_net_verdict verdict;
   sw_net_exact_info xinfo = { NULL, 0, 0 };
   sw_err err = { 0, "" };
+  solve_run r = { 0, 0, 0, 0, -1, NULL, NULL };
+  r.method = luaL_checkoption(L, 2, "auto", solve_methods);
+  r.used = solve_methods[r.method];
   lua_settop(L, 8);
   prepare(L, n, "network:solve");
   m = net->ndev;
@@ -362,26 +418,8 @@ static int l_solve(lua_State *L)
   h->states = sw_alloc(m ? m : 1, sizeof(int), &err);
   if (!h->states) return lsw_raise(L, "network:solve", &err);
   state = h->states;
-  switch (method) {
-  case 0: rc = sw_net_auto(net, start, max_states, state, &it, &nfound, &used, &err); break;
-  case 1:
-    n->net.refactor_always = lua_isboolean(L, 8) && !lua_toboolean(L, 8);
-    rc = sw_net_assumed(net, start, 0, state, &it, want_trace ? &h->trace : NULL, &updates, &err);
-    n->net.refactor_always = 0;
-    break;
-  case 2: {
-    int *all = NULL;
-    rc = sw_net_enumerate(net, max_states, &all, &count, &it, &err);
-    if (rc == SW_OK && count == 0)
-      rc = sw_err_set(&err, SW_ENOSOL,
-                      "no consistent state exists: enumeration of all %zu states found none", it);
-    if (rc == SW_OK) memcpy(state, all, m * sizeof *state);
-    free(all);
-    nfound = count;
-    break;
-  }
-  case 3: rc = sw_net_lcp(net, state, &it, &pm, &how, &err); break;
-  }
+  rc = run_method(&n->net, start, max_states, lua_isboolean(L, 8) && !lua_toboolean(L, 8), h,
+                  want_trace, state, &r, &err);
   if (rc) {
     if (want_trace && h->trace.n) { /* the attempts are part of the answer */
       push_trace(L, net, &h->trace);
@@ -393,9 +431,9 @@ static int l_solve(lua_State *L)
   }
   if (sw_net_op_from_state(net, state, &h->ops[0], &err))
     return lsw_raise(L, "network:solve", &err);
-  h->ops[0].iterations = it;
-  if (sw_net_unique(net, nfound, nfound ? it : 0, method == 3 ? pm : -2, how, max_states, &verdict,
-                    &err))
+  h->ops[0].iterations = r.it;
+  if (sw_net_unique(net, r.nfound, r.nfound ? r.it : 0, r.method == 3 ? r.pm : -2, r.how,
+                    max_states, &verdict, &err))
     return lsw_raise(L, "network:solve", &err);
   stab = sw_net_op_stability(net, &h->ops[0], verdict.monotone, &err); /* of the PWL point */
   if (stab < 0) return lsw_raise(L, "network:solve", &err);
@@ -403,18 +441,7 @@ static int l_solve(lua_State *L)
   push_op(L, net, &h->ops[0]);
   push_verdict(L, &verdict, stab, exact);
   if (exact) push_exact_info(L, &xinfo);
-  lua_createtable(L, 0, 5);
-  lua_pushstring(L, exact ? "exact" : used); lua_setfield(L, -2, "method");
-  lua_pushinteger(L, (lua_Integer)nfound); lua_setfield(L, -2, "nfound");
-  if (method == 3) {
-    if (pm >= 0) { lua_pushboolean(L, pm); lua_setfield(L, -2, "pmatrix"); }
-    lua_pushstring(L, how); lua_setfield(L, -2, "pmatrix_test");
-  }
-  if (method == 1) {
-    lua_pushinteger(L, (lua_Integer)updates);
-    lua_setfield(L, -2, "lowrank_updates");
-  }
-  if (want_trace && method == 1) { push_trace(L, net, &h->trace); lua_setfield(L, -2, "trace"); }
+  push_solve_info(L, net, &r, exact, want_trace, h);
   return 2;
 }
 
