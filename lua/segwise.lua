@@ -28,12 +28,15 @@ end
 function sw.curve.samples(xs, ys, opts)
   opts = check_opts("curve.samples", opts, { sort = "boolean", duplicates = { "error", "mean" } })
   if type(xs) ~= "table" and not util.is_array(xs) then
-    error("segwise.curve.samples: xs must be a table of numbers (got " .. util.describe(xs) .. ")", 2)
+    error("segwise.curve.samples: xs must be a table of numbers (got " .. util.describe(xs)
+      .. ")", 2)
   end
   if type(ys) ~= "table" and not util.is_array(ys) then
-    error("segwise.curve.samples: ys must be a table of numbers (got " .. util.describe(ys) .. ")", 2)
+    error("segwise.curve.samples: ys must be a table of numbers (got " .. util.describe(ys)
+      .. ")", 2)
   end
-  return (call("curve.samples", core.curve_samples, xs, ys, opts.sort or false, opts.duplicates == "mean"))
+  return (call("curve.samples", core.curve_samples, xs, ys, opts.sort or false,
+    opts.duplicates == "mean"))
 end
 
 -- Shockley diode with series resistance.  x = "v" gives i(v), "i" gives v(i).
@@ -46,7 +49,8 @@ function sw.curve.diode(p)
   if p.vt and p.temp then error("segwise.curve.diode: give vt or temp, not both", 2) end
   if p.temp ~= nil then check_kelvin("curve.diode", "temp", p.temp) end
   local vt = p.vt or core.thermal_voltage(p.temp or 300)
-  return (call("curve.diode", core.curve_diode, p.is, p.n or 1, vt, p.rs or 0, p.x == "i", p.lo, p.hi))
+  return (call("curve.diode", core.curve_diode, p.is, p.n or 1, vt, p.rs or 0, p.x == "i",
+    p.lo, p.hi))
 end
 
 -- y = k * sign(x) * |x|^n, odd-symmetric (varistor-like laws).
@@ -63,7 +67,8 @@ function sw.curve.fn(f, opts)
   end
   opts = check_opts("curve.fn", opts, { lo = "number", hi = "number" })
   if opts.lo == nil or opts.hi == nil then error("segwise.curve.fn: lo and hi are required", 2) end
-  return (call("curve.fn", core.curve_fn, f, check_number("curve.fn", "lo", opts.lo), check_number("curve.fn", "hi", opts.hi)))
+  return (call("curve.fn", core.curve_fn, f, check_number("curve.fn", "lo", opts.lo),
+    check_number("curve.fn", "hi", opts.hi)))
 end
 
 -- kT/q at a temperature in kelvin (default 300 K).
@@ -90,14 +95,18 @@ sw.pwl = setmetatable({}, { __call = pwl_points })
 function sw.pwl.segments(list, opts)
   opts = check_opts("pwl.segments", opts, { extend = EXTEND })
   if type(list) ~= "table" then
-    error("segwise.pwl.segments: expected a list of segments (got " .. util.describe(list) .. ")", 2)
+    error("segwise.pwl.segments: expected a list of segments (got " .. util.describe(list)
+      .. ")", 2)
   end
   local lo, hi, slope, icpt = {}, {}, {}, {}
   for k, s in ipairs(list) do
-    if type(s) ~= "table" then error(("segwise.pwl.segments: segment %d must be a table"):format(k), 2) end
+    if type(s) ~= "table" then
+      error(("segwise.pwl.segments: segment %d must be a table"):format(k), 2)
+    end
     for _, f in ipairs { "lo", "hi", "slope", "intercept" } do
       if type(s[f]) ~= "number" then
-        error(("segwise.pwl.segments: segment %d: %s must be a number (got %s)"):format(k, f, util.describe(s[f])), 2)
+        error(("segwise.pwl.segments: segment %d: %s must be a number (got %s)"):format(k, f,
+          util.describe(s[f])), 2)
       end
     end
     lo[k], hi[k], slope[k], icpt[k] = s.lo, s.hi, s.slope, s.intercept

@@ -45,7 +45,9 @@ end
 local function call(fname, f, ...) return util.call(fname, f, ...) end
 
 -- numbers used as node names index results as strings too
-local by_string = { __index = function(t, k) if type(k) == "number" then return rawget(t, tostring(k)) end end }
+local by_string = {
+  __index = function(t, k) if type(k) == "number" then return rawget(t, tostring(k)) end end
+}
 
 function M.network()
   return setmetatable({ _c = core.net_new(), _values = {}, _devices = {}, _kinds = {}, _exact = {},
@@ -74,7 +76,9 @@ local function rate(self, fname, name, opts)
   opts = check_opts(fname, opts, RATINGS[fname])
   for k, v in pairs(opts) do
     check_number(fname, k, v, 3)
-    if not (v > 0) then error(("segwise.%s: %s (%s) must be positive"):format(fname, k, fmt(v)), 3) end
+    if not (v > 0) then
+      error(("segwise.%s: %s (%s) must be positive"):format(fname, k, fmt(v)), 3)
+    end
   end
   self._ratings[name_arg(fname, "name", name)] = next(opts) and opts or nil
 end
@@ -91,13 +95,19 @@ function Network:isource(name, from, to, amps, opts)
   rate(self, "network:isource", name, opts)
   return add(self, "network:isource", "i", name, { from, to }, nil, amps, "amps")
 end
-function Network:vcvs(name, p, m, cp, cm, gain) return add(self, "network:vcvs", "vcvs", name, { p, m, cp, cm }, nil, gain, "gain") end
-function Network:vccs(name, from, to, cp, cm, gm) return add(self, "network:vccs", "vccs", name, { from, to, cp, cm }, nil, gm, "gm") end
+function Network:vcvs(name, p, m, cp, cm, gain)
+  return add(self, "network:vcvs", "vcvs", name, { p, m, cp, cm }, nil, gain, "gain")
+end
+function Network:vccs(name, from, to, cp, cm, gm)
+  return add(self, "network:vccs", "vccs", name, { from, to, cp, cm }, nil, gm, "gm")
+end
 function Network:ccvs(name, p, m, ctrl, r)
-  return add(self, "network:ccvs", "ccvs", name, { p, m }, name_arg("network:ccvs", "ctrl", ctrl), r, "r")
+  return add(self, "network:ccvs", "ccvs", name, { p, m },
+    name_arg("network:ccvs", "ctrl", ctrl), r, "r")
 end
 function Network:cccs(name, from, to, ctrl, gain)
-  return add(self, "network:cccs", "cccs", name, { from, to }, name_arg("network:cccs", "ctrl", ctrl), gain, "gain")
+  return add(self, "network:cccs", "cccs", name, { from, to },
+    name_arg("network:cccs", "ctrl", ctrl), gain, "gain")
 end
 
 -- PWL device: model gives i(v) (x = "v", the default) or v(i) (x = "i").
@@ -106,12 +116,14 @@ function Network:element(name, a, b, model, opts)
   a = node_arg("network:element", "node 1", a)
   b = node_arg("network:element", "node 2", b)
   if not util.is_model(model) then
-    error(("segwise.network:element: %s: model must be a segwise model (got %s)"):format(name, type(model)), 2)
+    error(("segwise.network:element: %s: model must be a segwise model (got %s)"):format(
+      name, type(model)), 2)
   end
   opts = check_opts("network:element", opts,
     { x = { "v", "i" }, exact = "userdata", pmax = "number", active = "boolean" })
   if opts.pmax ~= nil then check_number("network:element", "pmax", opts.pmax) end
-  call("network:element", self._c.device, self._c, name, a, b, model, opts.x == "i", opts.pmax or 0, opts.exact)
+  call("network:element", self._c.device, self._c, name, a, b, model, opts.x == "i",
+    opts.pmax or 0, opts.exact)
   self._devices[#self._devices + 1] = name
   self._kinds[name] = "element"
   self._exact[name] = opts.exact ~= nil
@@ -130,7 +142,9 @@ function Network:set(name, value)
   return self
 end
 
-function Network:segments(name) return self._c:segments(name_arg("network:segments", "name", name)) end
+function Network:segments(name)
+  return self._c:segments(name_arg("network:segments", "name", name))
+end
 function Network:info() return self._c:info() end
 function Network:free() self._c:free() end
 
@@ -179,7 +193,8 @@ local function trace_text(self, attempts)
     local lines, assume = {}, {}
     for _, d in ipairs(self._devices) do
       local xn = xof[d]
-      assume[#assume + 1] = ("%s on segment %d (%s)"):format(d, a.state[d], seg_text(self, d, a.state[d], xn, xn == "v" and "V" or "A"))
+      assume[#assume + 1] = ("%s on segment %d (%s)"):format(d, a.state[d],
+        seg_text(self, d, a.state[d], xn, xn == "v" and "V" or "A"))
     end
     lines[1] = ("attempt %d: assume %s"):format(k, table.concat(assume, ", "))
     if a.event == "singular" then
@@ -189,13 +204,19 @@ local function trace_text(self, attempts)
         local xn, ex = xof[d], a.excess[d]
         local unit = xn == "v" and "V" or "A"
         local verdict
-        if ex == 0 then verdict = "inside its segment"
-        elseif ex > 0 then verdict = ("outside: %s above the segment's end by %s %s"):format(xn, fmt(ex), unit)
-        else verdict = ("outside: %s below the segment's start by %s %s"):format(xn, fmt(-ex), unit) end
-        lines[#lines + 1] = ("  %s: v = %s V, i = %s A -> %s"):format(d, fmt(a.v[d]), fmt(a.i[d]), verdict)
+        if ex == 0 then
+          verdict = "inside its segment"
+        elseif ex > 0 then
+          verdict = ("outside: %s above the segment's end by %s %s"):format(xn, fmt(ex), unit)
+        else
+          verdict = ("outside: %s below the segment's start by %s %s"):format(xn, fmt(-ex), unit)
+        end
+        lines[#lines + 1] = ("  %s: v = %s V, i = %s A -> %s"):format(d, fmt(a.v[d]),
+          fmt(a.i[d]), verdict)
       end
       if a.event == "cycle" then
-        lines[#lines + 1] = "  moving every violator would repeat an earlier assumption (a cycle): from here on only the worst device moves, one segment at a time"
+        lines[#lines + 1] = "  moving every violator would repeat an earlier assumption "
+          .. "(a cycle): from here on only the worst device moves, one segment at a time"
       end
       local moved = {}
       for _, mv in ipairs(a.moves) do
@@ -203,7 +224,8 @@ local function trace_text(self, attempts)
       end
       if #moved > 0 then lines[#lines + 1] = "  re-assign: " .. table.concat(moved, ", ")
       elseif a.event == "converged" then
-        lines[#lines + 1] = "  every device lies inside its assumed segment: the state is consistent"
+        lines[#lines + 1] =
+          "  every device lies inside its assumed segment: the state is consistent"
       end
     end
     a.text = table.concat(lines, "\n")
@@ -372,25 +394,30 @@ end
 -- A point the solver returns may be one a real circuit cannot rest at.
 local function stability_caution(op)
   if op.stability ~= "unstable" then return end
-  caution(op, ("this operating point is unstable (%s method): with a small capacitance across each device the circuit drifts away from it, so a real circuit does not rest here; net:solve_all() lists the stable points"):format(
+  caution(op, ("this operating point is unstable (%s method): with a small capacitance "
+    .. "across each device the circuit drifts away from it, so a real circuit does not rest "
+    .. "here; net:solve_all() lists the stable points"):format(
     op.method or "solve"), { kind = "unstable" })
 end
 
 -- lowrank = false: the assumed-state method refactorises its m x m system
 -- at every change of state instead of a Sherman-Morrison-Woodbury update
 -- (same answers; for measuring what the updates save).
-local SOLVE_OPTS = { method = { "auto", "assumed", "enumerate", "lcp" }, start = "table", trace = "boolean",
-                     exact = "boolean", max_states = "number", max_iter = "number", lowrank = "boolean" }
+local SOLVE_OPTS = { method = { "auto", "assumed", "enumerate", "lcp" }, start = "table",
+                     trace = "boolean", exact = "boolean", max_states = "number",
+                     max_iter = "number", lowrank = "boolean" }
 
 function Network:solve(opts)
   opts = check_opts("network:solve", opts, SOLVE_OPTS)
   local method = opts.method or "auto"
   if opts.trace and method == "auto" then method = "assumed" end
   if opts.trace and method ~= "assumed" then
-    error("segwise.network:solve: trace = true records the assumed-state method; use method = \"assumed\"", 2)
+    error("segwise.network:solve: trace = true records the assumed-state method; "
+      .. "use method = \"assumed\"", 2)
   end
   local missing = opts.exact and without_exact(self) or {}
-  local ok, op, info = pcall(self._c.solve, self._c, method, opts.start, opts.trace, opts.max_states, opts.exact, opts.max_iter, opts.lowrank)
+  local ok, op, info = pcall(self._c.solve, self._c, method, opts.start, opts.trace,
+    opts.max_states, opts.exact, opts.max_iter, opts.lowrank)
   if not ok then
     if type(op) == "table" then
       error(op.error .. "\nwhat was tried:\n" .. tostring(trace_text(self, op)), 2)
@@ -434,10 +461,13 @@ local function loop_warnings(self, res, where_of)
     local where = where_of(n, first, last)
     w.count = n
     if w.kind == "range" then
-      w.message = ("%s operates outside its model's knots [%s, %s] %s: the model is extrapolated there, so refit over a range that covers these points"):format(
+      w.message = ("%s operates outside its model's knots [%s, %s] %s: the model is "
+        .. "extrapolated there, so refit over a range that covers these points"):format(
         w.device, fmt(e.lo), fmt(e.hi), where)
     else
-      w.message = ("%s dissipates more than its pmax rating of %s W %s: a device driven beyond its rating leaves the range its model describes, so these points cannot be trusted"):format(
+      w.message = ("%s dissipates more than its pmax rating of %s W %s: a device driven "
+        .. "beyond its rating leaves the range its model describes, so these points cannot "
+        .. "be trusted"):format(
         w.device, fmt(e.pmax), where)
     end
     setmetatable(w, mt)
@@ -450,16 +480,20 @@ end
 -- point (see the sweep notes in docs/API.md and csrc/core/net/net_sweep.c).
 function Network:sweep(name, values, opts)
   name = name_arg("network:sweep", "name", name)
-  opts = check_opts("network:sweep", opts, { start = "table", max_states = "number", out = "table", lowrank = "boolean" })
+  opts = check_opts("network:sweep", opts,
+    { start = "table", max_states = "number", out = "table", lowrank = "boolean" })
   if opts.out then
-    local res = call("network:sweep", self._c.sweep_arrays, self._c, name, values, opts.start, opts.max_states, opts.out, opts.lowrank)
+    local res = call("network:sweep", self._c.sweep_arrays, self._c, name, values, opts.start,
+      opts.max_states, opts.out, opts.lowrank)
     res.n = res[1] and #res[1] or 0
     loop_warnings(self, res, function(n, first, last)
-      return ("at %d of %d points (indices %d..%d; first at %s = %s)"):format(n, #values, first, last, name, fmt(values[first]))
+      return ("at %d of %d points (indices %d..%d; first at %s = %s)"):format(n, #values,
+        first, last, name, fmt(values[first]))
     end)
     return res
   end
-  local rows = call("network:sweep", self._c.sweep, self._c, name, values, opts.start, opts.max_states, opts.lowrank)
+  local rows = call("network:sweep", self._c.sweep, self._c, name, values, opts.start,
+    opts.max_states, opts.lowrank)
   local elements = self:info().elements
   for k, op in ipairs(rows) do rows[k] = finish_op(self, op, { method = "sweep" }, elements) end
   return rows
@@ -657,16 +691,21 @@ end
 -- values as arrays in res.values, and res.stats[quantity] = {min, max,
 -- mean, sd}.
 function Network:montecarlo(vary, opts)
-  if type(vary) ~= "table" then error("segwise.network:montecarlo: expected a table {name = tol, ...}", 2) end
-  opts = check_opts("network:montecarlo", opts, { runs = "number", seed = "number", max_states = "number", out = "table" })
+  if type(vary) ~= "table" then
+    error("segwise.network:montecarlo: expected a table {name = tol, ...}", 2)
+  end
+  opts = check_opts("network:montecarlo", opts,
+    { runs = "number", seed = "number", max_states = "number", out = "table" })
   local names, tols, gauss = spreads(self, vary)
   local runs = opts.runs or 1000
-  if runs ~= math.floor(runs) then error("segwise.network:montecarlo: runs must be an integer", 2) end
+  if runs ~= math.floor(runs) then
+    error("segwise.network:montecarlo: runs must be an integer", 2)
+  end
   runs = math.tointeger(runs)
   local seed = math.tointeger(opts.seed or 1) or 1
   if opts.out then
-    local res = call("network:montecarlo", self._c.montecarlo_arrays, self._c, names, tols, gauss, runs, seed,
-      opts.max_states, opts.out)
+    local res = call("network:montecarlo", self._c.montecarlo_arrays, self._c, names, tols,
+      gauss, runs, seed, opts.max_states, opts.out)
     res.n = runs
     res.stats = {}
     for k, q in ipairs(opts.out) do res.stats[q] = array_stats(res[k]) end
@@ -675,7 +714,8 @@ function Network:montecarlo(vary, opts)
     end)
     return res
   end
-  local list = call("network:montecarlo", self._c.montecarlo, self._c, names, tols, gauss, runs, seed, opts.max_states)
+  local list = call("network:montecarlo", self._c.montecarlo, self._c, names, tols, gauss,
+    runs, seed, opts.max_states)
   local elements = self:info().elements
   for k, op in ipairs(list) do
     list[k] = finish_op(self, op, { method = "montecarlo" }, elements)
@@ -687,11 +727,13 @@ end
 
 function Network:__tostring()
   local info = self:info()
-  local lines = { ("network: %d nodes (reference \"0\"), %d elements"):format(#info.nodes, #info.elements) }
+  local lines = { ("network: %d nodes (reference \"0\"), %d elements"):format(#info.nodes,
+    #info.elements) }
   for _, e in ipairs(info.elements) do
     local what
     if e.kind == "element" then
-      what = ("PWL device, %d segments, model gives %s"):format(e.nseg, e.x == "v" and "i(v)" or "v(i)")
+      what = ("PWL device, %d segments, model gives %s"):format(e.nseg,
+        e.x == "v" and "i(v)" or "v(i)")
       if e.pmax > 0 then what = what .. (", pmax %s W"):format(fmt(e.pmax)) end
     elseif e.kind == "resistor" then what = fmt(e.value) .. " ohm"
     elseif e.kind == "vsource" then what = fmt(e.value) .. " V"
@@ -699,7 +741,8 @@ function Network:__tostring()
     elseif e.kind == "vcvs" or e.kind == "vccs" then
       what = ("gain %s controlled by V(%s) - V(%s)"):format(fmt(e.value), e.nodes[3], e.nodes[4])
     else what = ("gain %s controlled by the current of %s"):format(fmt(e.value), e.ctrl) end
-    lines[#lines + 1] = ("  %-8s %-8s %s -> %s  %s"):format(e.name, e.kind, e.nodes[1], e.nodes[2], what)
+    lines[#lines + 1] = ("  %-8s %-8s %s -> %s  %s"):format(e.name, e.kind, e.nodes[1],
+      e.nodes[2], what)
   end
   return table.concat(lines, "\n")
 end
@@ -716,7 +759,9 @@ function M.compare_ops(a, b)
     return s > 0 and d / s or 0
   end
   for _, name in ipairs(a.devices) do
-    if b.vd[name] == nil then error(("segwise.compare_ops: device %s is missing from the second point"):format(name), 2) end
+    if b.vd[name] == nil then
+      error(("segwise.compare_ops: device %s is missing from the second point"):format(name), 2)
+    end
     local r = { v_a = a.vd[name], v_b = b.vd[name], i_a = a.i[name], i_b = b.i[name] }
     r.dv, r.di = math.abs(r.v_a - r.v_b), math.abs(r.i_a - r.i_b)
     r.rel_v, r.rel_i = rel(r.dv, r.v_a, r.v_b), rel(r.di, r.i_a, r.i_b)

@@ -24,7 +24,8 @@ end
 
 local function check_column(fname, what, v)
   if v ~= nil and type(v) ~= "string" and math.type(v) ~= "integer" then
-    error(("segwise.%s: %s must be a header name or a column number (got %s)"):format(fname, what, describe(v)), 3)
+    error(("segwise.%s: %s must be a header name or a column number (got %s)"):format(fname,
+      what, describe(v)), 3)
   end
 end
 
@@ -100,7 +101,8 @@ M.array = setmetatable({
   read = function(path, column, opts)
     check_path("array.read", path)
     check_column("array.read", "column", column)
-    opts = check_opts("array.read", opts, { scale = "number", delimiter = "string", header = "boolean" })
+    opts = check_opts("array.read", opts,
+      { scale = "number", delimiter = "string", header = "boolean" })
     local a = call("array.read", core.array_read, path, column, opts)
     return a
   end,

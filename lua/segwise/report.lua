@@ -166,7 +166,9 @@ end
 function M.fit_table(model, opts)
   opts = check_opts("report.fit_table", opts, FIT_TABLE_OPTS)
   local F = "segwise.report.fit_table"
-  for _, m in ipairs { "nseg", "seg", "thevenin", "norton" } do method_or_fail(model, m, F, "model") end
+  for _, m in ipairs { "nseg", "seg", "thevenin", "norton" } do
+    method_or_fail(model, m, F, "model")
+  end
   check_positive(opts.rel_floor, "rel_floor", F)
   check_positive(opts.rel_zero, "rel_zero", F, true)
   local xu, yu = units_of(opts)
@@ -182,7 +184,8 @@ function M.fit_table(model, opts)
   local curve = opts.curve
   if curve ~= nil then method_or_fail(model, "compare", F, "model") end
   if opts.rel_floor and curve == nil and not (info and info.rel_floor == opts.rel_floor) then
-    error(F .. ": rel_floor needs curve = the curve the model approximates (the relative errors are recomputed against it)", 2)
+    error(F .. ": rel_floor needs curve = the curve the model approximates (the relative "
+      .. "errors are recomputed against it)", 2)
   end
   local function compare(lo, hi, what)
     local ok, c = pcall(model.compare, model, curve, { lo = lo, hi = hi, rel_floor = floor })
@@ -207,7 +210,8 @@ function M.fit_table(model, opts)
     end
     rows[k] = row
   end
-  local judge = { floored = floor ~= nil and floor > 0, rel_fit = info ~= nil and info.error == "rel",
+  local judge = { floored = floor ~= nil and floor > 0,
+    rel_fit = info ~= nil and info.error == "rel",
     rel_zero = opts.rel_zero or M.REL_ZERO, ymax = model_ymax(model) }
   local dashed = false
   for _, row in ipairs(rows) do
@@ -266,13 +270,21 @@ function M.fit_table(model, opts)
   end
   if sum then
     local e = {}
-    if sum.max_abs then e[#e + 1] = "max abs " .. human(sum.max_abs, yu, d) .. " at " .. human(sum.x_abs, xu, d) end
+    if sum.max_abs then
+      e[#e + 1] = "max abs " .. human(sum.max_abs, yu, d) .. " at " .. human(sum.x_abs, xu, d)
+    end
     local rel, dash = rel_shown(sum.max_rel, sum.max_abs, judge)
-    if rel then e[#e + 1] = "max rel " .. M.si_in(rel * 100, 0, d or 3) .. " % at " .. human(sum.x_rel, xu, d)
-    elseif dash and sum.max_abs then e[#e + 1] = "max rel " .. DASH; dashed = true end
+    if rel then
+      e[#e + 1] = "max rel " .. M.si_in(rel * 100, 0, d or 3) .. " % at " .. human(sum.x_rel, xu, d)
+    elseif dash and sum.max_abs then
+      e[#e + 1] = "max rel " .. DASH; dashed = true
+    end
     if sum.rms then e[#e + 1] = "rms " .. human(sum.rms, yu, d) end
     if floor and floor > 0 then e[#e + 1] = "rel floor " .. human(floor, yu, d) end
-    if #e > 0 then head[#head + 1] = (curve ~= nil and "error against the curve: " or "error: ") .. concat(e, ", ") end
+    if #e > 0 then
+      head[#head + 1] = (curve ~= nil and "error against the curve: " or "error: ")
+        .. concat(e, ", ")
+    end
   end
   if format == "markdown" then
     for i = 1, #head do head[i] = "- " .. md_escape(head[i]) end
@@ -285,7 +297,8 @@ function M.fit_table(model, opts)
   if dashed then
     local note = fmt("%smax rel %s: the curve is near 0 there (give rel_floor and curve)\n",
       format == "markdown" and "- " or "", DASH)
-    if format == "markdown" then parts[#parts + 1] = note else parts[#parts] = parts[#parts] .. note end
+    if format == "markdown" then parts[#parts + 1] = note
+    else parts[#parts] = parts[#parts] .. note end
   end
   return finish(parts, opts, F)
 end

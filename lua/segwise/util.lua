@@ -70,10 +70,12 @@ end
 -- A finite number argument, named in the message when it is not.
 function util.check_number(fname, name, v, level)
   if type(v) ~= "number" then
-    error(("segwise.%s: %s must be a number (got %s)"):format(fname, name, describe(v)), (level or 2) + 1)
+    error(("segwise.%s: %s must be a number (got %s)"):format(fname, name, describe(v)),
+      (level or 2) + 1)
   end
   if v ~= v or v == math.huge or v == -math.huge then
-    error(("segwise.%s: %s must be finite (got %s)"):format(fname, name, tostring(v)), (level or 2) + 1)
+    error(("segwise.%s: %s must be finite (got %s)"):format(fname, name, tostring(v)),
+      (level or 2) + 1)
   end
   return v
 end
@@ -126,7 +128,8 @@ local function call_with(fname, rename, f, ...)
     local bare = msg:match("^[^\n]-:%d+: (segwise[%.:].*)$") or msg:match("^segwise[%.:].*$")
     if bare then
       -- a core function called through pcall has no name of its own
-      bare = bare:gsub(rename and "^segwise[%w_.:]*: " or "^segwise: ", "segwise." .. fname .. ": ", 1)
+      bare = bare:gsub(rename and "^segwise[%w_.:]*: " or "^segwise: ",
+        "segwise." .. fname .. ": ", 1)
       error(bare, user_level())
     end
   end

@@ -121,7 +121,8 @@ end
 function M.new(lo, hi, opts)
   opts = opts or {}
   if not finite(lo) or not finite(hi) then
-    error(fmt("segwise.plot: axis range must be finite (got %s .. %s)", tostring(lo), tostring(hi)), 2)
+    error(fmt("segwise.plot: axis range must be finite (got %s .. %s)", tostring(lo),
+      tostring(hi)), 2)
   end
   if lo > hi then lo, hi = hi, lo end
   local unit = opts.unit or ""

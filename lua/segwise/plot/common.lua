@@ -25,7 +25,8 @@ M.PALETTE = {
 
 -- Dash patterns, the second cue for grey-scale print: {on, off, ...} in
 -- units of the line width.  The first is solid.
-M.DASHES = { {}, { 6, 3 }, { 2, 2 }, { 8, 3, 2, 3 }, { 12, 4 }, { 1, 3 }, { 4, 2, 1, 2, 1, 2 }, { 10, 2, 2, 2 } }
+M.DASHES = { {}, { 6, 3 }, { 2, 2 }, { 8, 3, 2, 3 }, { 12, 4 }, { 1, 3 }, { 4, 2, 1, 2, 1, 2 },
+  { 10, 2, 2, 2 } }
 
 M.MARKERS = { "circle", "square", "triangle", "diamond", "cross", "plus", "triangle_down", "star" }
 
@@ -89,11 +90,13 @@ function M.normalise(spec, F)
   end
   for i = 1, #series do
     local s = series[i]
-    local what = fmt("series %d%s", i, type(s) == "table" and s.label and (" ('" .. tostring(s.label) .. "')") or "")
+    local what = fmt("series %d%s", i,
+      type(s) == "table" and s.label and (" ('" .. tostring(s.label) .. "')") or "")
     if type(s) ~= "table" then error(fmt("%s: %s must be a table", F, what), 3) end
     local style = s.style or "line"
     if not STYLES[style] then
-      error(fmt("%s: %s: style must be 'line', 'points' or 'step' (got %s)", F, what, tostring(style)), 3)
+      error(fmt("%s: %s: style must be 'line', 'points' or 'step' (got %s)", F, what,
+        tostring(style)), 3)
     end
     local xs = read_array(s.x, what .. " x", F)
     local ys
@@ -166,7 +169,8 @@ function M.axes(p, F, opts)
       if spec.log then lo, hi = 1, 10 else lo, hi = 0, 1 end
     end
     if spec.log and (lo <= 0 or hi <= 0) then
-      error(fmt("%s: spec.%s.log needs positive limits (got %s .. %s)", F, a, tostring(lo), tostring(hi)), 3)
+      error(fmt("%s: spec.%s.log needs positive limits (got %s .. %s)", F, a, tostring(lo),
+        tostring(hi)), 3)
     end
     axes[a] = axis.new(lo, hi, { log = spec.log, unit = spec.unit,
       n = a == "x" and (opts.nx or 6) or (opts.ny or 6),

@@ -60,7 +60,8 @@ local function model_list(models, F)
   -- a model, or anything shaped like one (it has a knots method)
   local ok, knots = pcall(function() return models.knots end)
   if not ok or type(knots) ~= "function" then
-    error(fmt("%s: models must be a segwise model or a list of {name=, model=} (got %s)", F, type(models)), 3)
+    error(fmt("%s: models must be a segwise model or a list of {name=, model=} (got %s)", F,
+      type(models)), 3)
   end
   return { { name = "PWL model", model = models } }
 end
@@ -130,7 +131,8 @@ function M.fit(curve, models, opts)
   local spec = { title = opts.title, x = opts.x or {}, y = opts.y or {}, series = {} }
   if curve ~= nil then
     local xs = grid(lo, hi, opts.n or 200, spec.x.log)
-    spec.series[1] = { x = xs, y = values_at(curve, xs, "the curve", F), label = opts.curve_label or "exact" }
+    spec.series[1] = { x = xs, y = values_at(curve, xs, "the curve", F),
+      label = opts.curve_label or "exact" }
   end
   for i, m in ipairs(list) do
     local px, py = model_polyline(m.model)

@@ -27,7 +27,8 @@ local function num(v) return fmt("%.2f", v) end
 
 local function marker_shape(kind, x, y, r, color)
   if kind == "square" then
-    return fmt('<rect x="%s" y="%s" width="%s" height="%s" fill="%s"/>', num(x - r), num(y - r), num(2 * r), num(2 * r), color)
+    return fmt('<rect x="%s" y="%s" width="%s" height="%s" fill="%s"/>', num(x - r), num(y - r),
+      num(2 * r), num(2 * r), color)
   elseif kind == "triangle" or kind == "triangle_down" then
     local d = kind == "triangle" and 1 or -1
     return fmt('<path d="M%s %s L%s %s L%s %s Z" fill="%s"/>', num(x), num(y - d * r * 1.2),
@@ -38,8 +39,8 @@ local function marker_shape(kind, x, y, r, color)
   elseif kind == "cross" or kind == "plus" or kind == "star" then
     local parts = {}
     if kind ~= "plus" then
-      parts[#parts + 1] = fmt("M%s %s L%s %s M%s %s L%s %s", num(x - r), num(y - r), num(x + r), num(y + r),
-        num(x - r), num(y + r), num(x + r), num(y - r))
+      parts[#parts + 1] = fmt("M%s %s L%s %s M%s %s L%s %s", num(x - r), num(y - r),
+        num(x + r), num(y + r), num(x - r), num(y + r), num(x + r), num(y - r))
     end
     if kind ~= "cross" then
       parts[#parts + 1] = fmt("M%s %s L%s %s M%s %s L%s %s", num(x - r), num(y), num(x + r), num(y),
@@ -75,7 +76,8 @@ function M.render(spec)
     error(F .. ": width and height must be numbers of at least 100 and 80 px", 3)
   end
   local fs = spec.font_size or 12
-  local xa, ya = common.axes(p, F, { nx = max(3, math.floor(W / 110)), ny = max(3, math.floor(H / 70)) })
+  local xa, ya = common.axes(p, F,
+    { nx = max(3, math.floor(W / 110)), ny = max(3, math.floor(H / 70)) })
 
   local ylw = 0
   for _, l in ipairs(ya.labels) do ylw = max(ylw, text_w(l, fs)) end
@@ -91,9 +93,11 @@ function M.render(spec)
   local function add(...) o[#o + 1] = fmt(...) end
   add('<?xml version="1.0" encoding="UTF-8"?>')
   add('<svg xmlns="http://www.w3.org/2000/svg" width="%d" height="%d" viewBox="0 0 %d %d" '
-    .. 'font-family="DejaVu Sans, Helvetica, Arial, sans-serif" font-size="%s">', W, H, W, H, num(fs))
+    .. 'font-family="DejaVu Sans, Helvetica, Arial, sans-serif" font-size="%s">',
+    W, H, W, H, num(fs))
   add("<title>%s</title>", esc(p.title or "segwise plot"))
-  add('<defs><clipPath id="sw-plot-area"><rect x="%s" y="%s" width="%s" height="%s"/></clipPath></defs>',
+  add('<defs><clipPath id="sw-plot-area">'
+    .. '<rect x="%s" y="%s" width="%s" height="%s"/></clipPath></defs>',
     num(left), num(top), num(pw), num(ph))
   add('<rect x="0" y="0" width="%d" height="%d" fill="#ffffff"/>', W, H)
   if p.title then
@@ -105,20 +109,28 @@ function M.render(spec)
   add('<g class="grid" stroke="#d9d9d9" stroke-width="1">')
   for _, v in ipairs(xa.ticks) do
     local f = xa.map(v)
-    if f and f >= -1e-9 and f <= 1 + 1e-9 then add('<line x1="%s" y1="%s" x2="%s" y2="%s"/>', num(X(f)), num(top), num(X(f)), num(top + ph)) end
+    if f and f >= -1e-9 and f <= 1 + 1e-9 then
+      add('<line x1="%s" y1="%s" x2="%s" y2="%s"/>', num(X(f)), num(top), num(X(f)),
+        num(top + ph))
+    end
   end
   for _, v in ipairs(ya.ticks) do
     local f = ya.map(v)
-    if f and f >= -1e-9 and f <= 1 + 1e-9 then add('<line x1="%s" y1="%s" x2="%s" y2="%s"/>', num(left), num(Y(f)), num(left + pw), num(Y(f))) end
+    if f and f >= -1e-9 and f <= 1 + 1e-9 then
+      add('<line x1="%s" y1="%s" x2="%s" y2="%s"/>', num(left), num(Y(f)), num(left + pw),
+        num(Y(f)))
+    end
   end
   add("</g>")
-  add('<rect class="frame" x="%s" y="%s" width="%s" height="%s" fill="none" stroke="#333333" stroke-width="1"/>',
+  add('<rect class="frame" x="%s" y="%s" width="%s" height="%s" fill="none" '
+    .. 'stroke="#333333" stroke-width="1"/>',
     num(left), num(top), num(pw), num(ph))
   add('<g class="x-ticks" text-anchor="middle" fill="#222222">')
   for i, v in ipairs(xa.ticks) do
     local f = xa.map(v)
     if f and f >= -1e-9 and f <= 1 + 1e-9 then
-      add('<line x1="%s" y1="%s" x2="%s" y2="%s" stroke="#333333"/>', num(X(f)), num(top + ph), num(X(f)), num(top + ph + 5))
+      add('<line x1="%s" y1="%s" x2="%s" y2="%s" stroke="#333333"/>', num(X(f)), num(top + ph),
+        num(X(f)), num(top + ph + 5))
       add('<text x="%s" y="%s">%s</text>', num(X(f)), num(top + ph + 6 + fs), esc(xa.labels[i]))
     end
   end
@@ -127,16 +139,19 @@ function M.render(spec)
   for i, v in ipairs(ya.ticks) do
     local f = ya.map(v)
     if f and f >= -1e-9 and f <= 1 + 1e-9 then
-      add('<line x1="%s" y1="%s" x2="%s" y2="%s" stroke="#333333"/>', num(left - 5), num(Y(f)), num(left), num(Y(f)))
+      add('<line x1="%s" y1="%s" x2="%s" y2="%s" stroke="#333333"/>', num(left - 5), num(Y(f)),
+        num(left), num(Y(f)))
       add('<text x="%s" y="%s">%s</text>', num(left - 8), num(Y(f) + fs * 0.35), esc(ya.labels[i]))
     end
   end
   add("</g>")
   if p.x.label ~= "" then
-    add('<text class="x-label" x="%s" y="%s" text-anchor="middle">%s</text>', num(left + pw / 2), num(H - 8), esc(p.x.label))
+    add('<text class="x-label" x="%s" y="%s" text-anchor="middle">%s</text>',
+      num(left + pw / 2), num(H - 8), esc(p.x.label))
   end
   if p.y.label ~= "" then
-    add('<text class="y-label" transform="translate(%s %s) rotate(-90)" text-anchor="middle">%s</text>',
+    add('<text class="y-label" transform="translate(%s %s) rotate(-90)" '
+      .. 'text-anchor="middle">%s</text>',
       num(fs * 1.2), num(top + ph / 2), esc(p.y.label))
   end
 
@@ -153,8 +168,8 @@ function M.render(spec)
         end
       end
       if #d > 0 then
-        add('<path d="%s" stroke="%s" stroke-width="%s" stroke-linejoin="round"%s/>', concat(d, " "),
-          esc(s.color), num(lw), dash_attr(s, lw))
+        add('<path d="%s" stroke="%s" stroke-width="%s" stroke-linejoin="round"%s/>',
+          concat(d, " "), esc(s.color), num(lw), dash_attr(s, lw))
       end
     end
     if s.style == "points" or s.marker then
@@ -174,7 +189,8 @@ function M.render(spec)
       local fx, fy = xa.map(m.x), ya.map(m.y)
       if fx and fy and fx >= -1e-9 and fx <= 1 + 1e-9 and fy >= -1e-9 and fy <= 1 + 1e-9 then
         local x, y = X(fx), Y(fy)
-        add('<circle cx="%s" cy="%s" r="4.5" fill="#ffffff" stroke="#000000" stroke-width="1.5"/>', num(x), num(y))
+        add('<circle cx="%s" cy="%s" r="4.5" fill="#ffffff" stroke="#000000" '
+          .. 'stroke-width="1.5"/>', num(x), num(y))
         if m.label then
           local anchor = fx > 0.8 and "end" or "start"
           local dx = anchor == "end" and -7 or 7
@@ -211,7 +227,9 @@ function M.render(spec)
             local fx, fy = xa.map(s.x[k]), ya.map(s.y[k])
             if fx and fy then
               local x, y = X(fx), Y(fy)
-              if x >= c[1] - 4 and x <= c[1] + bw + 4 and y >= c[2] - 4 and y <= c[2] + bh + 4 then n = n + 1 end
+              if x >= c[1] - 4 and x <= c[1] + bw + 4 and y >= c[2] - 4 and y <= c[2] + bh + 4 then
+                n = n + 1
+              end
             end
           end
           -- a line crossing the box counts too: sample between the points
@@ -231,14 +249,15 @@ function M.render(spec)
     end
     local bx, by = choice[1], choice[2]
     add('<g class="legend">')
-    add('<rect x="%s" y="%s" width="%s" height="%s" fill="#ffffff" fill-opacity="0.9" stroke="#999999"/>',
+    add('<rect x="%s" y="%s" width="%s" height="%s" fill="#ffffff" fill-opacity="0.9" '
+      .. 'stroke="#999999"/>',
       num(bx), num(by), num(bw), num(bh))
     for i, s in ipairs(labelled) do
       local y = by + 4 + (i - 0.5) * fs * 1.5
       local lwid = s.width or 2
       if s.style ~= "points" then
-        add('<line x1="%s" y1="%s" x2="%s" y2="%s" stroke="%s" stroke-width="%s"%s/>', num(bx + 6), num(y),
-          num(bx + 38), num(y), esc(s.color), num(lwid), dash_attr(s, lwid))
+        add('<line x1="%s" y1="%s" x2="%s" y2="%s" stroke="%s" stroke-width="%s"%s/>',
+          num(bx + 6), num(y), num(bx + 38), num(y), esc(s.color), num(lwid), dash_attr(s, lwid))
       end
       if s.style == "points" or s.marker then
         o[#o + 1] = marker_shape(marker_kind(s), bx + 22, y, 3.5, esc(s.color))
@@ -247,7 +266,8 @@ function M.render(spec)
     end
     if p.marks_label and #p.marks > 0 then
       local y = by + 4 + (#labelled + 0.5) * fs * 1.5
-      add('<circle cx="%s" cy="%s" r="4.5" fill="#ffffff" stroke="#000000" stroke-width="1.5"/>', num(bx + 22), num(y))
+      add('<circle cx="%s" cy="%s" r="4.5" fill="#ffffff" stroke="#000000" '
+        .. 'stroke-width="1.5"/>', num(bx + 22), num(y))
       add('<text x="%s" y="%s">%s</text>', num(bx + 44), num(y + fs * 0.35), esc(p.marks_label))
     end
     add("</g>")

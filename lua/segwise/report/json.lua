@@ -33,7 +33,9 @@ local function json_value(v, full, seen, path, out)
     local ok_len, len = pcall(function() return #v end)
     if t == "userdata" then
       -- arrays of doubles (sw.array) have a length and numeric indices
-      if not ok_len then error("segwise.report.json: " .. path .. " is a userdata without a length", 0) end
+      if not ok_len then
+        error("segwise.report.json: " .. path .. " is a userdata without a length", 0)
+      end
       n = len
     else
       local count = 0

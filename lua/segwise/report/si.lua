@@ -40,7 +40,8 @@ end
 
 local function check_digits(digits, fname)
   digits = digits or 3
-  if math.type(digits) ~= "integer" and not (type(digits) == "number" and digits == floor(digits)) then
+  if math.type(digits) ~= "integer"
+      and not (type(digits) == "number" and digits == floor(digits)) then
     error(fname .. ": digits must be an integer from 1 to 17 (got " .. tostring(digits) .. ")", 3)
   end
   if digits < 1 or digits > 17 then
@@ -286,7 +287,8 @@ function M.parse_si(text, unit)
   end
   -- part-marking style: digits, prefix letter in place of the point, digits
   do
-    local sg, ip, letter, fp, tail = s:match("^([+-]?)(%d*)([%a\194-\244][\128-\191]*)(%d*)%s*(.-)$")
+    local sg, ip, letter, fp, tail =
+      s:match("^([+-]?)(%d*)([%a\194-\244][\128-\191]*)(%d*)%s*(.-)$")
     local tf = tail and first_char(tail)
     if sg and INFIX[letter] and fp ~= ""
        and not tail:find("^[%d%.]") and not tail:find("%s")

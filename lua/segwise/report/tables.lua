@@ -47,13 +47,15 @@ local function norm_column(c, i)
     error(fmt("segwise.report.table: column %d needs a name", i), 3)
   end
   if c.fmt ~= nil and type(c.fmt) ~= "string" and type(c.fmt) ~= "function" then
-    error(fmt("segwise.report.table: column '%s': fmt must be a format string or a function", name), 3)
+    error(fmt("segwise.report.table: column '%s': fmt must be a format string or a function",
+      name), 3)
   end
   if c.fn ~= nil and type(c.fn) ~= "function" then
     error(fmt("segwise.report.table: column '%s': fn must be a function of the row", name), 3)
   end
   if c.align ~= nil and c.align ~= "left" and c.align ~= "right" and c.align ~= "center" then
-    error(fmt("segwise.report.table: column '%s': align must be 'left', 'right' or 'center'", name), 3)
+    error(fmt("segwise.report.table: column '%s': align must be 'left', 'right' or 'center'",
+      name), 3)
   end
   if c.unit ~= nil and type(c.unit) ~= "string" then
     error(fmt("segwise.report.table: column '%s': unit must be a string", name), 3)
@@ -133,11 +135,13 @@ local function apply_fmt(col, v, r)
   if type(col.fmt) == "function" then
     local ok, s = pcall(col.fmt, v)
     if not ok then
-      error(fmt("segwise.report.table: column '%s', row %d: fmt failed: %s", col.name, r, tostring(s)), 5)
+      error(fmt("segwise.report.table: column '%s', row %d: fmt failed: %s", col.name, r,
+        tostring(s)), 5)
     end
     return tostring(s)
   end
-  if type(v) == "number" and (v ~= v or v == huge or v == -huge) and not col.fmt:find("%%[%d.]*[sq]") then
+  if type(v) == "number" and (v ~= v or v == huge or v == -huge)
+      and not col.fmt:find("%%[%d.]*[sq]") then
     return nonfinite_text(v)
   end
   local ok, s = pcall(fmt, col.fmt, v)
@@ -279,7 +283,9 @@ local function render_markdown(rows, cols, opts)
     widths[j] = w
   end
   local lines = {}
-  if opts.title then lines[#lines + 1] = "**" .. md_escape(opts.title) .. "**"; lines[#lines + 1] = "" end
+  if opts.title then
+    lines[#lines + 1] = "**" .. md_escape(opts.title) .. "**"; lines[#lines + 1] = ""
+  end
   local h, rule = {}, {}
   for j = 1, #cols do
     h[j] = pad(header[j], widths[j], aligns[j] == "right" and "right" or "left")
@@ -292,7 +298,9 @@ local function render_markdown(rows, cols, opts)
   lines[#lines + 1] = "| " .. concat(rule, " | ") .. " |"
   for r = 1, #cells do
     local l = {}
-    for j = 1, #cols do l[j] = pad(cells[r][j], widths[j], aligns[j] == "right" and "right" or "left") end
+    for j = 1, #cols do
+      l[j] = pad(cells[r][j], widths[j], aligns[j] == "right" and "right" or "left")
+    end
     lines[#lines + 1] = "| " .. concat(l, " | ") .. " |"
   end
   return concat(lines, "\n") .. "\n"
@@ -339,7 +347,8 @@ local function render_csv(rows, cols, opts)
   return concat(lines, eol) .. eol
 end
 
-local RENDER = { text = render_text, csv = render_csv, markdown = render_markdown, md = render_markdown }
+local RENDER = { text = render_text, csv = render_csv, markdown = render_markdown,
+  md = render_markdown }
 
 -- The options of M.table (the values of format, units and span are
 -- checked there, with their own messages).
@@ -349,8 +358,9 @@ local TABLE_OPTS = { format = "string", out = "string|userdata|table", digits = 
 
 --- Formats rows as a table.
 -- @tparam {table,...} rows list of row tables
--- @tparam {string|table,...} columns names, or {name=, key=, unit=, fmt=, fn=, align=, digits=, scale=,
---   si = false (no prefix: one plain unit), optional = true (may be empty in every row)};
+-- @tparam {string|table,...} columns names, or {name=, key=, unit=, fmt=, fn=, align=,
+--   digits=, scale=, si = false (no prefix: one plain unit), optional = true (may be empty
+--   in every row)};
 --   a dotted key such as "i.D1" reads row.i.D1; a key that no row holds is an error
 -- @tparam[opt] table opts {format = "text"|"csv"|"markdown", out = path or handle,
 --   digits = 3, units = "auto"|"header"|"cells" (see human_cells), span = 4 (decades, for "auto"),
@@ -371,11 +381,15 @@ function M.table(rows, columns, opts)
   if type(columns) ~= "table" or #columns == 0 then
     error("segwise.report.table: columns must be a non-empty list", 2)
   end
-  if opts.units ~= nil and opts.units ~= "auto" and opts.units ~= "header" and opts.units ~= "cells" then
-    error("segwise.report.table: units must be 'auto', 'header' or 'cells' (got " .. tostring(opts.units) .. ")", 2)
+  if opts.units ~= nil and opts.units ~= "auto" and opts.units ~= "header"
+      and opts.units ~= "cells" then
+    error("segwise.report.table: units must be 'auto', 'header' or 'cells' (got "
+      .. tostring(opts.units) .. ")", 2)
   end
-  if opts.span ~= nil and not (type(opts.span) == "number" and opts.span >= 0 and opts.span < huge) then
-    error("segwise.report.table: span must be a number of decades >= 0 (got " .. tostring(opts.span) .. ")", 2)
+  if opts.span ~= nil
+      and not (type(opts.span) == "number" and opts.span >= 0 and opts.span < huge) then
+    error("segwise.report.table: span must be a number of decades >= 0 (got "
+      .. tostring(opts.span) .. ")", 2)
   end
   local cols = {}
   for i, c in ipairs(columns) do cols[i] = norm_column(c, i) end
@@ -383,7 +397,8 @@ function M.table(rows, columns, opts)
   local format = opts.format or "text"
   local render = RENDER[format]
   if not render then
-    error("segwise.report.table: format must be 'text', 'csv' or 'markdown' (got " .. tostring(format) .. ")", 2)
+    error("segwise.report.table: format must be 'text', 'csv' or 'markdown' (got "
+      .. tostring(format) .. ")", 2)
   end
   local s = render(rows, cols, opts)
   return write(opts.out, s, "segwise.report.table")
