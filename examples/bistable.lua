@@ -40,7 +40,8 @@ say(sw.report.table(points, {
   { name = "", key = "stability" },
 }))
 say("With a small capacitance across the device, a point is stable when di/dv + 1/R > 0:")
-say(("here 1/R = %s, so only the falling part of the N (di/dv < -1/R) is unstable.\n"):format(sw.si(1 / R, "S")))
+say(("here 1/R = %s, so only the falling part of the N (di/dv < -1/R) is unstable.\n"):format(
+  sw.si(1 / R, "S")))
 
 -- Hysteresis: each sweep starts from the previous point (warm start).
 local up, down = {}, {}

@@ -4,9 +4,11 @@
 local sw, say, outdir = dofile("examples/preamble.lua") { ... }
 
 -- i(v), current in mA in the file.
-local diode = sw.curve.read("examples/data/schottky_iv.csv", { x = "V_V", y = "I_mA", scale = { y = 1e-3 } })
+local diode = sw.curve.read("examples/data/schottky_iv.csv",
+  { x = "V_V", y = "I_mA", scale = { y = 1e-3 } })
 local lo, hi = diode:domain()
-local SEGMENTS, TOL = 6, 0.002          -- segments for the fixed-count schemes; amps for the tolerance fit
+-- segments for the fixed-count schemes; amps for the tolerance fit
+local SEGMENTS, TOL = 6, 0.002
 
 local fits = {}
 for _, scheme in ipairs { "uniform", "geometric", "curvature", "optimal" } do
@@ -28,15 +30,18 @@ say("few segments meet a stated error.  Relative errors are large near 0.1 V bec
 say("an absolute fit spends nothing on microamps; fit with error = \"rel\" if they matter.\n")
 
 local fit_path, err_path = outdir .. "/breakpoints_fits.svg", outdir .. "/breakpoints_errors.svg"
-local axes = { x = { label = "diode voltage", unit = "V" }, y = { label = "diode current", unit = "A" } }
+local axes = { x = { label = "diode voltage", unit = "V" },
+               y = { label = "diode current", unit = "A" } }
 local spec = sw.plot.fit_spec(diode, fits, { x = axes.x, y = axes.y, curve_label = "measured" })
 spec.title = "Schottky diode: measured points and five PWL models"
 sw.plot.svg(fit_path, spec)
-local espec = sw.plot.error_spec(diode, fits, { x = axes.x, y = { label = "model - measured", unit = "A" } })
+local espec = sw.plot.error_spec(diode, fits,
+  { x = axes.x, y = { label = "model - measured", unit = "A" } })
 espec.title = "Error of each model against the measured points"
 sw.plot.svg(err_path, espec)
 say("plots: " .. fit_path .. ", " .. err_path)
 
-local result = { curve = diode, fits = fits, tol = TOL, segments = SEGMENTS, plots = { fit_path, err_path } }
+local result = { curve = diode, fits = fits, tol = TOL, segments = SEGMENTS,
+                 plots = { fit_path, err_path } }
 for _, f in ipairs(fits) do result[f.scheme] = f.model end
 return result

@@ -31,15 +31,18 @@ local fits = {
   { name = "within 5 % (1 mA floor)",
     model = sw.fit(diode, { tol = RTOL, error = "rel", rel_floor = FLOOR, monotone = true }) },
 }
-say("\nfits compared against the measured points (minimax unless stated; relative errors\nare taken against at least 1 mA, so the noise floor near 0 V does not swamp them):")
+say("\nfits compared against the measured points (minimax unless stated; relative errors\n"
+  .. "are taken against at least 1 mA, so the noise floor near 0 V does not swamp them):")
 say(sw.report.compare_fits(fits, diode, { x = "V", y = "A", range = { rel_floor = FLOOR } }))
 local chosen = fits[#fits].model
 say("The load current will span 0.1 mA .. 0.8 A, so the relative fit is chosen: it keeps")
-say(("small currents right where an absolute band of %s would not. Its %d segments:"):format(sw.si(TOL, "A"), chosen:nseg()))
+say(("small currents right where an absolute band of %s would not. Its %d segments:"):format(
+  sw.si(TOL, "A"), chosen:nseg()))
 say(sw.report.fit_table(chosen, { x = "V", y = "A", cell_units = "header" }))
 
 ---------------------------------------------------------------- 2. one point
-heading(("2. The circuit at %s: supply -> DIODE -> %s load"):format(sw.si(VNOM, "V"), sw.si(RL, "Ω")))
+heading(("2. The circuit at %s: supply -> DIODE -> %s load"):format(sw.si(VNOM, "V"),
+  sw.si(RL, "Ω")))
 local net = sw.network()
 net:vsource("VS", "sup", "gnd", VNOM)
 net:element("DIODE", "sup", "out", chosen, { x = "v", exact = diode, pmax = 1.0 })
@@ -50,7 +53,8 @@ local op = net:solve()
 say(sw.report.op_table(op))
 local ex = net:solve { exact = true }
 local d = sw.compare_ops(op, ex)
-say(("against the measured curve itself (Newton from the PWL point): DIODE differs by %s and %s (%.3f %%)"):format(
+say(("against the measured curve itself (Newton from the PWL point): DIODE differs by %s "
+  .. "and %s (%.3f %%)"):format(
   sw.si(d.DIODE.dv, "V"), sw.si(d.DIODE.di, "A"), d.DIODE.rel_i * 100))
 
 ---------------------------------------------------------------- 3. the sweep
@@ -62,8 +66,9 @@ local rows = {}
 for k, o in ipairs(ops) do
   net:set("VS", supplies[k])
   local e = net:solve { exact = true }
-  rows[k] = { vs = supplies[k], v_load = o.v.out, i = o.i.DIODE, i_data = e.i.DIODE, v_d = o.vd.DIODE, p_d = o.p.DIODE,
-              p_load = o.p.RL, seg = o.state.DIODE, loss = supplies[k] > 0 and (1 - o.v.out / supplies[k]) * 100 or 0 }
+  rows[k] = { vs = supplies[k], v_load = o.v.out, i = o.i.DIODE, i_data = e.i.DIODE,
+              v_d = o.vd.DIODE, p_d = o.p.DIODE, p_load = o.p.RL, seg = o.state.DIODE,
+              loss = supplies[k] > 0 and (1 - o.v.out / supplies[k]) * 100 or 0 }
 end
 net:set("VS", VNOM)
 say(sw.report.table(rows, {
@@ -85,7 +90,8 @@ say(("At 9 V the diode drops %s and dissipates %s (rating used here: 1 W)."):for
 local xs, ys = {}, {}
 for k, r in ipairs(rows) do xs[k], ys[k] = r.vs, r.i end
 sw.plot.term({ title = "load current against supply", x = { label = "supply", unit = "V" },
-               y = { label = "current", unit = "A" }, series = { { x = xs, y = ys, label = "PWL" } } },
+               y = { label = "current", unit = "A" },
+               series = { { x = xs, y = ys, label = "PWL" } } },
              { width = 64, height = 14, color = false, print = not quiet })
 
 ---------------------------------------------------------------- plots
@@ -96,10 +102,12 @@ local function plot(name, spec)
   plots[#plots + 1] = path
 end
 local V = { label = "diode voltage", unit = "V" }
-local fspec = sw.plot.fit_spec(diode, fits, { x = V, y = { label = "diode current", unit = "A" }, curve_label = "measured" })
+local fspec = sw.plot.fit_spec(diode, fits,
+  { x = V, y = { label = "diode current", unit = "A" }, curve_label = "measured" })
 fspec.title = "Rectifier diode: measured points and PWL models"
 plot("fits.svg", fspec)
-local espec = sw.plot.error_spec(diode, fits, { x = V, y = { label = "model - measured", unit = "A" } })
+local espec = sw.plot.error_spec(diode, fits,
+  { x = V, y = { label = "model - measured", unit = "A" } })
 espec.title = "Error of each model against the measured points"
 plot("errors.svg", espec)
 
@@ -115,7 +123,8 @@ for _, vs in ipairs { 3, 5, 7, 9 } do
                           label = ("load line, %s"):format(sw.si(vs, "V")) }
   marks[#marks + 1] = { x = r.v_d, y = r.i, label = sw.si(r.i, "A") }
 end
-plot("loadlines.svg", { title = ("Load lines through %s, supplies 3, 5, 7, 9 V"):format(sw.si(RL, "Ω")),
+plot("loadlines.svg", {
+  title = ("Load lines through %s, supplies 3, 5, 7, 9 V"):format(sw.si(RL, "Ω")),
   x = V, y = { label = "current", unit = "A", min = 0, max = 1.0 }, series = series, marks = marks,
   marks_label = "operating points" })
 
@@ -125,17 +134,19 @@ plot("sweep.svg", { title = "Load current against supply", x = { label = "supply
   y = { label = "current", unit = "A" },
   series = { { x = sx, y = si_pwl, label = "PWL model" },
              { x = sx, y = si_data, label = "measured curve (Newton)", style = "points" } } })
-plot("diode_power.svg", { title = "Diode dissipation against supply", x = { label = "supply", unit = "V" },
-  y = { label = "power", unit = "W" }, series = { { x = sx, y = sp, label = "P(DIODE)", marker = true } } })
+plot("diode_power.svg", { title = "Diode dissipation against supply",
+  x = { label = "supply", unit = "V" }, y = { label = "power", unit = "W" },
+  series = { { x = sx, y = sp, label = "P(DIODE)", marker = true } } })
 
 heading("Caution")
 say("A PWL model is an approximation, good only over the range it was fitted on")
-say(("(here %s .. %s). Check the real device's ratings (current, power, temperature)"):format(sw.si(vlo, "V"), sw.si(vhi, "V")))
+say(("(here %s .. %s). Check the real device's ratings (current, power, temperature)"):format(
+  sw.si(vlo, "V"), sw.si(vhi, "V")))
 say("in its datasheet before trusting any operating point. For mains or high-energy")
 say("circuits follow local electrical codes and licensed practice.")
 
 say(("\nplots (%d SVG files) written to %s/:"):format(#plots, outdir))
 for _, p in ipairs(plots) do say("  " .. p) end
 
-return { curve = diode, fits = fits, chosen = chosen, tol = TOL, rl = RL, vnom = VNOM, op = op, exact = ex,
-         rows = rows, plots = plots, outdir = outdir }
+return { curve = diode, fits = fits, chosen = chosen, tol = TOL, rl = RL, vnom = VNOM, op = op,
+         exact = ex, rows = rows, plots = plots, outdir = outdir }

@@ -21,7 +21,8 @@ end
 
 -- 1. The measured sweep (current in mA in the file) and its PWL model
 --    over the working range 5..35 mA; least squares suits noisy data.
-local led = sw.curve.read("examples/data/led_white.csv", { x = "I_mA", y = "V_V", scale = { x = 1e-3 } })
+local led = sw.curve.read("examples/data/led_white.csv",
+  { x = "I_mA", y = "V_V", scale = { x = 1e-3 } })
 local model = sw.fit(led, { lo = 0.005, hi = 0.035, segments = 4, criterion = "lsq" })
 -- The law the invented data was generated from (see the file's first line).
 local law = sw.curve.diode { is = 2e-18, n = 3.0, vt = 0.02585, rs = 6, x = "i" }
@@ -34,7 +35,8 @@ say(("model against the exact law: max error %s at %s, rms %s\n"):format(
 -- 2. Ballast for TARGET at the nominal bus: R = (BUS - NLED*v(TARGET)) / TARGET.
 local r_calc = (BUS - NLED * model(TARGET)) / TARGET
 local r = e24_at_or_above(r_calc)
-say(("ballast: %s calculated, %s chosen (E24, at or above)\n"):format(sw.si(r_calc, "Ω"), sw.si(r, "Ω")))
+say(("ballast: %s calculated, %s chosen (E24, at or above)\n"):format(sw.si(r_calc, "Ω"),
+  sw.si(r, "Ω")))
 
 -- 3. The string: VB -> RB -> LED1 -> LED2 -> LED3 -> ground.  Each LED's model
 --    gives v(i), so x = "i"; the exact law rides along for the comparison.
@@ -54,7 +56,8 @@ for k = 0, 6 do
   local ex = net:solve { exact = true }
   local i = op.i.LED1
   rows[#rows + 1] = {
-    vb = vb, i = i, i_exact = ex.i.LED1, dev = math.abs(i - ex.i.LED1) < 5e-5 * ex.i.LED1 and 0 or (i - ex.i.LED1) / ex.i.LED1 * 100,
+    vb = vb, i = i, i_exact = ex.i.LED1,
+    dev = math.abs(i - ex.i.LED1) < 5e-5 * ex.i.LED1 and 0 or (i - ex.i.LED1) / ex.i.LED1 * 100,
     v_led = op.vd.LED1, p_led = op.p.LED1, p_r = op.p.RB, eff = NLED * op.p.LED1 / (vb * i) * 100,
   }
 end
@@ -71,22 +74,25 @@ say(sw.report.table(rows, {
   { name = "P ballast", key = "p_r", unit = "W" },
   { name = "LED share", key = "eff", fmt = "%.1f", unit = "%" },
 }))
-say(("the ±10 %% bus swing moves the LED current from %s to %s (%.0f %% of the nominal current)"):format(
+say(("the ±10 %% bus swing moves the LED current from %s to %s (%.0f %% of the nominal "
+  .. "current)"):format(
   sw.si(rows[1].i, "A"), sw.si(rows[#rows].i, "A"), (rows[#rows].i - rows[1].i) / rows[4].i * 100))
 
 -- 4. Tolerances: the ballast within ±5 % (uniform) and the bus with a 3 %
 --    standard deviation (normal), 20000 seeded runs written into arrays.
 local RUNS = 20000
-local mc = net:montecarlo({ RB = 0.05, VB = { sd = 0.03 } }, { runs = RUNS, seed = 24, out = { "i.LED1", "p.LED1" } })
+local mc = net:montecarlo({ RB = 0.05, VB = { sd = 0.03 } },
+  { runs = RUNS, seed = 24, out = { "i.LED1", "p.LED1" } })
 local st, above = mc.stats["i.LED1"], 0
 for k = 1, RUNS do
   if mc["i.LED1"][k] > 1.25 * TARGET then above = above + 1 end
 end
-say(("tolerance study, %d runs: LED current %s ± %s (sd), %s .. %s; %.2f %% of the runs above %s"):format(
+say(("tolerance study, %d runs: LED current %s ± %s (sd), %s .. %s; %.2f %% of the runs "
+  .. "above %s"):format(
   RUNS, sw.si(st.mean, "A"), sw.si(st.sd, "A"), sw.si(st.min, "A"), sw.si(st.max, "A"),
   above / RUNS * 100, sw.si(1.25 * TARGET, "A")))
 say(("largest LED dissipation in those runs: %s (check it against the LED's rating)"):format(
   sw.si(mc.stats["p.LED1"].max, "W")))
 
-return { model = model, law = law, r = r, r_calc = r_calc, nled = NLED, target = TARGET, rows = rows,
-         vs_law = vs_law, mc = mc, above = above }
+return { model = model, law = law, r = r, r_calc = r_calc, nled = NLED, target = TARGET,
+         rows = rows, vs_law = vs_law, mc = mc, above = above }

@@ -40,7 +40,8 @@ say(("lamp: %d readings; filament %s cold (at %s), %s hot (at %s)"):format(#rows
 local TOL = 0.5e-3
 local model = sw.fit(lamp, { tol = TOL })
 local info = model:fit_info()
-say(("model: %d segments, max error %s (tolerance %s)"):format(model:nseg(), sw.si(info.max_abs, "A"), sw.si(TOL, "A")))
+say(("model: %d segments, max error %s (tolerance %s)"):format(model:nseg(),
+  sw.si(info.max_abs, "A"), sw.si(TOL, "A")))
 
 -- Save the model file, then load it as another script would.
 local path = outdir .. "/pilot_lamp_model.csv"
@@ -63,5 +64,5 @@ say(sw.report.op_table(op2))
 local d = sw.compare_ops(op, op2)
 say(("fitted vs reloaded model: largest difference %g V, %g A"):format(d.max.dv, d.max.di))
 
-return { vs = vs, is = is, tol = TOL, model = model, loaded = loaded, path = path, x_unit = xu, y_unit = yu,
-         op = op, op_loaded = op2, supply = 24, r = 130 }
+return { vs = vs, is = is, tol = TOL, model = model, loaded = loaded, path = path, x_unit = xu,
+         y_unit = yu, op = op, op_loaded = op2, supply = 24, r = 130 }

@@ -7,13 +7,15 @@
 local sw, say = dofile("examples/preamble.lua") { ... }
 
 local CELLS, ISC_STC = 36, 5.0           -- cells in series; photocurrent at 1000 W/m^2
-local RSH, RW, VBAT = 150, 0.1, 12.6     -- module shunt (ohm), wiring + battery (ohm), battery EMF (V)
+-- module shunt (ohm), wiring + battery (ohm), battery EMF (V)
+local RSH, RW, VBAT = 150, 0.1, 12.6
 local DARK = { is = 1e-7, n = 1.3 * CELLS, vt = 0.02585 }         -- the module's cells as one diode
 local BLOCK = { is = 2e-6, n = 1.1, vt = 0.02585, rs = 0.02 }     -- Schottky blocking diode
 
 -- Both laws give i(v); each is fitted over the voltages it will see.
 local dark_law = sw.curve.diode { is = DARK.is, n = DARK.n, vt = DARK.vt, x = "v" }
-local block_law = sw.curve.diode { is = BLOCK.is, n = BLOCK.n, vt = BLOCK.vt, rs = BLOCK.rs, x = "v" }
+local block_law = sw.curve.diode { is = BLOCK.is, n = BLOCK.n, vt = BLOCK.vt, rs = BLOCK.rs,
+                                   x = "v" }
 -- Both pass through the origin, so the night-time currents stay right.
 local dark = sw.fit(dark_law, { lo = 0, hi = 22, tol = 0.005, through = { { 0, 0 } } })
 -- The blocking diode: its forward side by the fit, its reverse side (flat
@@ -23,7 +25,8 @@ local xs, ys = fwd:knots()
 table.insert(xs, 1, -14)
 table.insert(ys, 1, block_law(-14))
 local block = sw.pwl { x = xs, y = ys }
-say(("dark diode: %d segments on 0 .. 22 V within 5 mA; blocking diode: %d segments on -14 .. 0.65 V\n"):format(
+say(("dark diode: %d segments on 0 .. 22 V within 5 mA; blocking diode: %d segments on "
+  .. "-14 .. 0.65 V\n"):format(
   dark:nseg(), block:nseg()))
 
 local net = sw.network()
@@ -43,13 +46,14 @@ local rows = {}
 for k, op in ipairs(ops) do
   net:set("IPH", iph[k])
   local ex = net:solve { exact = true }
-  rows[k] = { g = suns[k], iph = iph[k], v_pv = op.v.pv, v_db = op.vd.DB, i = op.i.DB, i_exact = ex.i.DB,
-              p_bat = op.i.DB * VBAT, p_db = op.p.DB, p_pv = op.v.pv * op.i.DB,
+  rows[k] = { g = suns[k], iph = iph[k], v_pv = op.v.pv, v_db = op.vd.DB, i = op.i.DB,
+              i_exact = ex.i.DB, p_bat = op.i.DB * VBAT, p_db = op.p.DB, p_pv = op.v.pv * op.i.DB,
               state = op.i.DB > 1e-3 and "charging" or "blocked" }
 end
 net:set("IPH", 0)
 
-say(("battery %s through %s, module shunt %s"):format(sw.si(VBAT, "V"), sw.si(RW, "Ω"), sw.si(RSH, "Ω")))
+say(("battery %s through %s, module shunt %s"):format(sw.si(VBAT, "V"), sw.si(RW, "Ω"),
+  sw.si(RSH, "Ω")))
 say(sw.report.table(rows, {
   { name = "irradiance", key = "g", fmt = "%d", unit = "W/m²" },
   { name = "I photo", key = "iph", unit = "A" },

@@ -33,7 +33,8 @@ do
     rows[#rows + 1] = { i * 1e3, law(i) + 0.004 * u() }
   end
   write("led_white.csv", "I_mA,V_V",
-    "v(i) of a diode law is=2e-18 A, n=3.0, vt=25.85 mV, rs=6 ohm, plus uniform noise of +-2 mV (LCG seed 11)", rows)
+    "v(i) of a diode law is=2e-18 A, n=3.0, vt=25.85 mV, rs=6 ohm, plus uniform noise of "
+      .. "+-2 mV (LCG seed 11)", rows)
 end
 
 -- Schottky diode: i(v), relative noise.
@@ -45,7 +46,8 @@ do
     rows[#rows + 1] = { v, law(v) * 1e3 * (1 + 0.01 * u()) }
   end
   write("schottky_iv.csv", "V_V,I_mA",
-    "i(v) of a diode law is=0.5 uA, n=1.05, vt=25.85 mV, rs=80 mohm, times (1 + uniform noise of +-0.5 %) (LCG seed 23)", rows)
+    "i(v) of a diode law is=0.5 uA, n=1.05, vt=25.85 mV, rs=80 mohm, times (1 + uniform "
+      .. "noise of +-0.5 %) (LCG seed 23)", rows)
 end
 
 -- Silicon rectifier diode: i(v) from 0 V, relative noise plus a 1 uA floor.
@@ -58,5 +60,6 @@ do
     rows[#rows + 1] = { v, (i * (1 + 0.01 * u()) + 1e-6 * u()) * 1e3 }
   end
   write("rectifier_iv.csv", "V_V,I_mA",
-    "i(v) of a diode law is=4 nA, n=1.9, vt=25.85 mV, rs=50 mohm, times (1 + uniform noise of +-0.5 %), plus uniform noise of +-0.5 uA (LCG seed 37)", rows)
+    "i(v) of a diode law is=4 nA, n=1.9, vt=25.85 mV, rs=50 mohm, times (1 + uniform noise "
+      .. "of +-0.5 %), plus uniform noise of +-0.5 uA (LCG seed 37)", rows)
 end
