@@ -489,35 +489,64 @@ int fit_minimax_tol(const fit_data *d, double e, int continuous, const fit_cons 
   return st;
 }
 
-/* Segment count at level e: greedy for discontinuous models and convex
- * data, reachable sets (reach, decided once by the caller: it scans the
- * data) for other continuous ones; knots into kx when given. */
-static int count_at(const fit_data *d, double e, int reach, int continuous, const fit_cons *cons,
-                    size_t maxseg, tube_ws *w, rec_list *R, double *kx, double *ky, size_t *m,
-                    sw_err *err)
+/* One count search: the data, the count to meet, the model kind and its
+ * constraints, whether counts come from reachable sets (decided once by
+ * the caller: it scans the data), and the tube workspace every pass
+ * shares. */
+typedef struct count_task {
+  const fit_data *d;
+  size_t nseg;
+  int continuous;
+  const fit_cons *cons;
+  int reach;
+  tube_ws *w;
+} count_task;
+
+/* Levels around the smallest that meets the count: lo fails it; hi meets
+ * it when known. */
+typedef struct level_bracket {
+  double lo, hi;
+  int known;
+} level_bracket;
+
+/* The knots of the greedy pass just recorded in R, into kx. */
+static void knots_of_recs(const fit_data *d, const rec_list *R, double *kx)
 {
+  size_t j;
+  for (j = 0; j < R->n; j++) kx[j] = d->x[R->r[j].p];
+  kx[R->n] = d->x[R->r[R->n - 1].q];
+}
+
+/* Segment count at level e (above nseg: nseg + 1 or more): greedy for
+ * discontinuous models and convex data, reachable sets for other
+ * continuous ones; knots into kx (and values into ky) when given. */
+static int count_at(const count_task *t, double e, rec_list *R, double *kx, double *ky,
+                    size_t *m, sw_err *err)
+{
+  const fit_data *d = t->d;
+  size_t maxseg = t->nseg;
   int st = SW_OK;
-  if (reach) {
-    if (greedy_settles(d, e, cons, maxseg, w, kx ? R : NULL, m, &st, err)) {
+  if (t->reach) {
+    if (greedy_settles(d, e, t->cons, maxseg, t->w, kx ? R : NULL, m, &st, err)) {
       if (st) return st;
       if (*m == SIZE_MAX) *m = maxseg + 1;
-      else if (kx && *m <= maxseg) {
-        size_t j;
-        for (j = 0; j < R->n; j++) kx[j] = d->x[R->r[j].p];
-        kx[R->n] = d->x[R->r[R->n - 1].q];
-      }
+      else if (kx && *m <= maxseg) knots_of_recs(d, R, kx);
       return SW_OK;
     }
-    st = reach_with_greedy(d, e, cons, maxseg, w, m, kx, ky, err);
+    st = reach_with_greedy(d, e, t->cons, maxseg, t->w, m, kx, ky, err);
     if (*m == SIZE_MAX) *m = maxseg + 1;
     return st;
   }
-  *m = greedy(d, e, continuous, cons, maxseg, w, kx ? R : NULL, &st, err);
-  if (!st && kx && *m <= maxseg) {
-    size_t j;
-    for (j = 0; j < R->n; j++) kx[j] = d->x[R->r[j].p];
-    kx[R->n] = d->x[R->r[R->n - 1].q];
-  }
+  *m = greedy(d, e, t->continuous, t->cons, maxseg, t->w, kx ? R : NULL, &st, err);
+  if (!st && kx && *m <= maxseg) knots_of_recs(d, R, kx);
+  return st;
+}
+
+/* The greedy count at level e (the task's kind; never reachable sets). */
+static int greedy_count(const count_task *t, double e, size_t *m, sw_err *err)
+{
+  int st = SW_OK;
+  *m = greedy(t->d, e, t->continuous, t->cons, t->nseg, t->w, NULL, &st, err);
   return st;
 }
 
@@ -527,41 +556,40 @@ static int count_at(const fit_data *d, double e, int reach, int continuous, cons
  * still taken on the full data, so the guess affects the time only. */
 
 /* The smallest level whose greedy count is at most nseg, to relative
- * precision rtol, above the infeasible *elo: unless *ehi is known to meet
- * the count it doubles until it does (at most 200 times, while finite;
- * else *found = 0).  *steps gets the bisection's step count. */
-static int greedy_level(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
-                        tube_ws *w, double rtol, int known, double *elo, double *ehi, int *found,
+ * precision rtol, above the infeasible b->lo: unless b->hi is known to
+ * meet the count it doubles until it does (at most 200 times, while
+ * finite; else *found = 0).  *steps gets the bisection's step count. */
+static int greedy_level(const count_task *t, double rtol, level_bracket *b, int *found,
                         size_t *steps, sw_err *err)
 {
   size_t m, it;
-  int st = SW_OK, tries;
+  int st, tries;
   *found = 0;
   *steps = 0;
-  for (tries = 0; !known && tries < 200 && sw_isfinite(*ehi); tries++) {
-    m = greedy(d, *ehi, continuous, cons, nseg, w, NULL, &st, err);
-    if (st) return st;
-    if (m <= nseg) known = 1;
-    else { *elo = *ehi; *ehi *= 2; }
+  for (tries = 0; !b->known && tries < 200 && sw_isfinite(b->hi); tries++) {
+    if ((st = greedy_count(t, b->hi, &m, err))) return st;
+    if (m <= t->nseg) b->known = 1;
+    else { b->lo = b->hi; b->hi *= 2; }
   }
-  if (!known) return SW_OK;
-  for (it = 0; it < FIT_BISECT_STEPS && *ehi - *elo > rtol * *ehi; it++) {
-    double mid = fit_mid_level(*elo, *ehi);
-    m = greedy(d, mid, continuous, cons, nseg, w, NULL, &st, err);
-    if (st) return st;
-    if (m <= nseg) *ehi = mid; else *elo = mid;
+  if (!b->known) return SW_OK;
+  for (it = 0; it < FIT_BISECT_STEPS && b->hi - b->lo > rtol * b->hi; it++) {
+    double mid = fit_mid_level(b->lo, b->hi);
+    if ((st = greedy_count(t, mid, &m, err))) return st;
+    if (m <= t->nseg) b->hi = mid; else b->lo = mid;
   }
   *steps = it;
   *found = 1;
   return SW_OK;
 }
 
-static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
-                       tube_ws *w, double rtol, double *g, sw_err *err)
+/* A guess *g of the level (0: none) from every k-th sample. */
+static int level_guess(const count_task *t, double rtol, double *g, sw_err *err)
 {
+  const fit_data *d = t->d;
   fit_data s;
+  count_task sub = *t;
+  level_bracket b = { 0, 0, 0 };
   size_t step, i, it;
-  double elo = 0, ehi;
   int st = SW_OK, found;
   *g = 0;
   if (d->n < GUESS_MIN) return SW_OK;
@@ -569,100 +597,108 @@ static int level_guess(const fit_data *d, size_t nseg, int continuous, const fit
   if ((st = subset_alloc(&s, (d->n - 1) / step + 2, err))) goto done;
   for (i = 0; i < d->n; i += step) subset_take(&s, d, i);
   if (s.x[s.n - 1] < d->x[d->n - 1]) subset_take(&s, d, d->n - 1);
-  ehi = fit_start_level(&s);
-  st = greedy_level(&s, nseg, continuous, cons, w, rtol, 0, &elo, &ehi, &found, &it, err);
-  if (!st && found) *g = ehi; /* else no guess: the full search decides */
+  b.hi = fit_start_level(&s);
+  sub.d = &s;
+  st = greedy_level(&sub, rtol, &b, &found, &it, err);
+  if (!st && found) *g = b.hi; /* else no guess: the full search decides */
 done:
   free(s.x); free(s.y); free(s.s);
   return st;
 }
 
 /* Brackets the smallest level whose greedy count is at most nseg around
- * the guess g, stepping away from it by 1e-3, 4e-3, ... of g; *known = 1
- * when *ehi has been seen to meet the count ( *elo only ever rises). */
-static int bracket_guess(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
-                         tube_ws *w, double g, double *elo, double *ehi, int *known, sw_err *err)
+ * the guess g, stepping away from it by 1e-3, 4e-3, ... of g; b->known = 1
+ * when b->hi has been seen to meet the count (b->lo only ever rises). */
+static int bracket_guess(const count_task *t, double g, level_bracket *b, sw_err *err)
 {
   double step;
   size_t m;
-  int st = SW_OK, i;
-  *known = 0;
-  m = greedy(d, g, continuous, cons, nseg, w, NULL, &st, err);
-  if (st) return st;
-  if (m <= nseg) {
-    *ehi = g;
-    *known = 1;
+  int st, i;
+  b->known = 0;
+  if ((st = greedy_count(t, g, &m, err))) return st;
+  if (m <= t->nseg) {
+    b->hi = g;
+    b->known = 1;
     for (i = 0, step = 1e-3; i < 6; i++, step *= 4) {
       double p = g * (1 - step);
-      if (!(p > *elo)) break;
-      m = greedy(d, p, continuous, cons, nseg, w, NULL, &st, err);
-      if (st) return st;
-      if (m > nseg) { *elo = p; break; }
-      *ehi = p;
+      if (!(p > b->lo)) break;
+      if ((st = greedy_count(t, p, &m, err))) return st;
+      if (m > t->nseg) { b->lo = p; break; }
+      b->hi = p;
     }
     return SW_OK;
   }
-  if (g > *elo) *elo = g;
+  if (g > b->lo) b->lo = g;
   for (i = 0, step = 1e-3; i < 8; i++, step *= 4) {
     double p = g * (1 + step);
-    m = greedy(d, p, continuous, cons, nseg, w, NULL, &st, err);
-    if (st) return st;
-    if (m <= nseg) { *ehi = p; *known = 1; return SW_OK; }
-    *elo = p;
+    if ((st = greedy_count(t, p, &m, err))) return st;
+    if (m <= t->nseg) { b->hi = p; b->known = 1; return SW_OK; }
+    b->lo = p;
   }
-  if (*ehi <= *elo) *ehi = 2 * *elo; /* the doubling search goes on from here */
+  if (b->hi <= b->lo) b->hi = 2 * b->lo; /* the doubling search goes on from here */
   return SW_OK;
 }
 
-/* The level bracket [*elo, *ehi] of the continuous count by reachable
- * sets, and *lower, a level no model of nseg segments gets below.
- * Reachable sets cost more than a greedy pass: bracket their optimum
- * between the discontinuous optimum (a continuous model is also a
- * discontinuous one) and the continuous greedy's level, then bisect
- * coarsely; the fixed-knot minimax that follows settles the level. */
-static int reach_levels(const fit_data *d, size_t nseg, int continuous, const fit_cons *cons,
-                        tube_ws *w, double *elo, double *ehi, double *lower, int *found,
+/* The level of the greedy count: a guess from a subset, bracketed on the
+ * full data, then bisected to rtol (the guess's own precision is rtol0). */
+static int greedy_search(const count_task *t, double rtol0, double rtol, level_bracket *b,
+                         int *found, size_t *steps, sw_err *err)
+{
+  double g;
+  int st;
+  if ((st = level_guess(t, rtol0, &g, err))) return st;
+  if (g > 0 && (st = bracket_guess(t, g, b, err))) return st;
+  return greedy_level(t, rtol, b, found, steps, err);
+}
+
+/* The level bracket of the continuous count by reachable sets, and *lower,
+ * a level no model of nseg segments gets below.  Reachable sets cost more
+ * than a greedy pass: bracket their optimum between the discontinuous
+ * optimum (a continuous model is also a discontinuous one) and the
+ * continuous greedy's level, then bisect coarsely; the fixed-knot minimax
+ * that follows settles the level. */
+static int reach_levels(const count_task *t, level_bracket *b, double *lower, int *found,
                         size_t *iters, sw_err *err)
 {
-  double eg = *ehi, gl = 0, g;
+  count_task disc = *t, cont = *t;
+  level_bracket gb;
+  double g;
   size_t m, it;
-  int use_greedy = !(cons && cons->has_last), known, tries, st;
-  if ((st = level_guess(d, nseg, 0, NULL, w, 1e-5, &g, err))) return st;
-  if (g > 0 && (st = bracket_guess(d, nseg, 0, NULL, w, g, elo, ehi, &known, err))) return st;
-  /* known = 1: without constraints the start level meets any count */
-  if ((st = greedy_level(d, nseg, 0, NULL, w, 1e-4, 1, elo, ehi, found, &it, err))) return st;
+  int tries, st;
+  disc.continuous = 0; disc.cons = NULL; disc.reach = 0;
+  cont.continuous = 1; cont.reach = 0;
+  gb.hi = b->hi; /* the start level, for the continuous greedy */
+  if ((st = level_guess(&disc, 1e-5, &g, err))) return st;
+  if (g > 0 && (st = bracket_guess(&disc, g, b, err))) return st;
+  b->known = 1; /* without constraints the start level meets any count */
+  if ((st = greedy_level(&disc, 1e-4, b, found, &it, err))) return st;
   *iters += it;
-  *ehi = *elo;
-  *lower = *elo; /* the discontinuous bound holds for every continuous model */
-  gl = *elo;     /* and for the continuous greedy */
-  if (use_greedy) {
-    int gknown = 0;
-    if ((st = level_guess(d, nseg, 1, cons, w, 1e-8, &g, err))) return st;
-    if (g > 0 && (st = bracket_guess(d, nseg, 1, cons, w, g, &gl, &eg, &gknown, err))) return st;
-    if ((st = greedy_level(d, nseg, 1, cons, w, 1e-6, gknown, &gl, &eg, found, &it, err)))
-      return st;
-    if (*found) *ehi = eg;
+  b->hi = b->lo;
+  *lower = b->lo; /* the discontinuous bound holds for every continuous model */
+  gb.lo = b->lo;  /* and for the continuous greedy */
+  gb.known = 0;
+  if (!(t->cons && t->cons->has_last)) {
+    if ((st = greedy_search(&cont, 1e-8, 1e-6, &gb, found, &it, err))) return st;
+    if (*found) b->hi = gb.hi;
   }
   for (tries = 0; tries < 200; tries++) {
-    if ((st = count_at(d, *ehi, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err)))
-      return st;
-    if (m <= nseg) break;
-    *elo = *ehi;
-    *ehi *= 1.25;
+    if ((st = count_at(t, b->hi, NULL, NULL, NULL, &m, err))) return st;
+    if (m <= t->nseg) break;
+    b->lo = b->hi;
+    b->hi *= 1.25;
   }
   /* the greedy level is usually within the bisection's precision of the
    * optimum: one probe just below it settles that case, where bisection
    * would spend a dozen reachable-set passes all finding no model */
-  if (tries < 200 && *ehi * (1 - 0.9e-4) > *elo) {
-    double probe = *ehi * (1 - 0.9e-4); /* an infeasible probe ends the bisection */
-    if ((st = count_at(d, probe, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err)))
-      return st;
-    if (m <= nseg) *ehi = probe; else *elo = probe;
+  if (tries < 200 && b->hi * (1 - 0.9e-4) > b->lo) {
+    double probe = b->hi * (1 - 0.9e-4); /* an infeasible probe ends the bisection */
+    if ((st = count_at(t, probe, NULL, NULL, NULL, &m, err))) return st;
+    if (m <= t->nseg) b->hi = probe; else b->lo = probe;
   }
-  for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && *ehi - *elo > 1e-4 * *ehi; it++) {
-    double mid = fit_mid_level(*elo, *ehi);
-    if ((st = count_at(d, mid, 1, continuous, cons, nseg, w, NULL, NULL, NULL, &m, err))) return st;
-    if (m <= nseg) *ehi = mid; else *elo = mid;
+  for (it = 0; tries < 200 && it < FIT_BISECT_STEPS && b->hi - b->lo > 1e-4 * b->hi; it++) {
+    double mid = fit_mid_level(b->lo, b->hi);
+    if ((st = count_at(t, mid, NULL, NULL, NULL, &m, err))) return st;
+    if (m <= t->nseg) b->hi = mid; else b->lo = mid;
   }
   *iters += it;
   *found = tries < 200;
@@ -702,38 +738,31 @@ static int count_knots(const fit_data *d, size_t nseg, int continuous, const fit
 {
   tube_ws w;
   rec_list R;
-  double elo = 0, ehi = fit_start_level(d), *kx = NULL, *ky = NULL, lower = 0;
+  count_task t;
+  level_bracket b = { 0, 0, 0 };
+  double *kx = NULL, *ky = NULL, lower = 0;
   size_t m, it = 0;
-  int st, reach, found;
+  int st, found;
   memset(&R, 0, sizeof R);
   memset(&w, 0, sizeof w);
+  b.hi = fit_start_level(d);
   kx = sw_alloc(d->n + 1, sizeof *kx, err);
   ky = sw_alloc(d->n + 1, sizeof *ky, err);
   if (!kx || !ky) { st = SW_ENOMEM; goto done; }
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
-  reach = continuous && (!convex_data(d) || (cons && cons->has_last));
-  if (reach) {
-    if ((st = reach_levels(d, nseg, continuous, cons, &w, &elo, &ehi, &lower, &found, iters, err)))
-      goto done;
-  } else {
-    double g;
-    int known = 0;
-    if ((st = level_guess(d, nseg, continuous, cons, &w, 1e-8, &g, err))) goto done;
-    if (g > 0 && (st = bracket_guess(d, nseg, continuous, cons, &w, g, &elo, &ehi, &known, err)))
-      goto done;
-    if ((st = greedy_level(d, nseg, continuous, cons, &w, 1e-7, known, &elo, &ehi, &found, &it,
-                           err)))
-      goto done;
-    *iters += it;
-  }
+  t.d = d; t.nseg = nseg; t.continuous = continuous; t.cons = cons; t.w = &w;
+  t.reach = continuous && (!convex_data(d) || (cons && cons->has_last));
+  if (t.reach) st = reach_levels(&t, &b, &lower, &found, iters, err);
+  else if (!(st = greedy_search(&t, 1e-8, 1e-7, &b, &found, &it, err))) *iters += it;
+  if (st) goto done;
   if (!found) {
     st = sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
                     "be met with %zu segments", nseg);
     goto done;
   }
-  *e_lo = reach ? lower : elo; /* the greedy counts are exact: elo is infeasible for any knots */
-  *e_hi = ehi;
-  if ((st = count_at(d, ehi, reach, continuous, cons, nseg, &w, &R, kx, ky, &m, err))) goto done;
+  *e_lo = t.reach ? lower : b.lo; /* the greedy counts are exact: lo is infeasible for any knots */
+  *e_hi = b.hi;
+  if ((st = count_at(&t, b.hi, &R, kx, ky, &m, err))) goto done;
   if (m > nseg) {
     st = sw_err_set(err, SW_ENUMERIC, "segment count search did not settle");
     goto done;
