@@ -14,6 +14,14 @@
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 
+
+/* Names the point of a loop an error happened at, as a user counts it:
+ * "point 3 of 10 (I = 1): ". */
+static void name_point(sw_err *err, const char *name, const double *values, size_t k, size_t n)
+{
+  sw_err_prefix(err, "point %zu of %zu (%s = %g): ", k + 1, n, name, values[k]);
+}
+
 int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
                  const int *start, double max_states, sw_net_op *ops,
                  sw_err *err)
@@ -30,13 +38,13 @@ int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
     if (sw_net_assumed(net, state, 0, state, &it, NULL, NULL, err) != SW_OK) {
       if (err->code == SW_ENOMEM) { rc = SW_ENOMEM; break; }
       if ((rc = sw_net_auto(net, state, max_states, state, &it, &nf, &used, err))) {
-        sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
+        name_point(err, name, values, k, n);
         break;
       }
     }
     have = 1;
     if ((rc = sw_net_op_from_state(net, state, &ops[k], err))) {
-      sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
+      name_point(err, name, values, k, n);
       break;
     }
     ops[k].iterations = it;
@@ -48,6 +56,7 @@ int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
   free(state);
   return rc;
 }
+
 
 /* ---- sweeps into arrays ------------------------------------------------ */
 
@@ -238,7 +247,7 @@ int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
     if (source) {  /* only the particular solution moves */
       double val = values[k];
       if (!sw_isfinite(val)) {
-        rc = sw_err_set(err, SW_EINVAL, "value %zu is not finite", k + 1);
+        rc = sw_err_set(err, SW_EINVAL, "point %zu of %zu is not finite", k + 1, n);
         break;
       }
       for (r = 0; r < N; r++) net->yp[r] = w.yp0[r] + val * w.dyp[r];
@@ -248,13 +257,13 @@ int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
       }
     } else {       /* a resistor or gain: a new reduction */
       if ((rc = sw_net_set(net, name, values[k], err)) || (rc = sw_net_prepare(net, err))) {
-        sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
+        name_point(err, name, values, k, n);
         break;
       }
       w.lr.valid = 0;
     }
     if ((rc = solve_point(net, &w, k, &have, max_states, q, nq, info, err))) {
-      if (rc != SW_ENOMEM) sw_err_prefix(err, "at %s = %g (value %zu): ", name, values[k], k + 1);
+      if (rc != SW_ENOMEM) name_point(err, name, values, k, n);
       break;
     }
   }
