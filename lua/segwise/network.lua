@@ -407,6 +407,66 @@ local SOLVE_OPTS = { method = { "auto", "assumed", "enumerate", "lcp" }, start =
                      trace = "boolean", exact = "boolean", max_states = "number",
                      max_iter = "number", lowrank = "boolean" }
 
+---------------------------------------------------------------- continua
+-- One device whose load line lies along one of its segments: every point
+-- of that segment between the two ends found is an operating point.  Two
+-- points on the same straight load line and on the same segment line make
+-- the lines one, so two found points at a segment's two ends prove it.
+local function on_segment(s, x, y)
+  local span = math.max(math.abs(s.lo), math.abs(s.hi), math.abs(s.hi - s.lo), 1e-300)
+  local yy = s.slope * x + s.intercept
+  return math.abs(y - yy) <= 1e-9 * math.max(math.abs(y), math.abs(yy), 1e-300) + 1e-15,
+    math.abs(x - s.lo) <= 1e-9 * span, math.abs(x - s.hi) <= 1e-9 * span
+end
+
+local function continua(self, ops)
+  if #self._devices ~= 1 or #ops < 2 then return {} end
+  local name = self._devices[1]
+  local e
+  for _, el in ipairs(self:info().elements) do if el.name == name then e = el end end
+  local function xy(op)
+    if e.x == "i" then return op.i[name], op.vd[name] end
+    return op.vd[name], op.i[name]
+  end
+  local found = {}
+  for _, s in ipairs(self._c:segments(name)) do
+    local a, b
+    for k, op in ipairs(ops) do
+      local x, y = xy(op)
+      local on, at_lo, at_hi = on_segment(s, x, y)
+      if on and at_lo then a = k elseif on and at_hi then b = k end
+    end
+    if a and b then
+      found[#found + 1] = { first = a, last = b, lo = s.lo, hi = s.hi, segment = s.label,
+        x = e.x, device = name }
+    end
+  end
+  return found
+end
+
+local function continuum_caution(op, c)
+  local unit = c.x == "i" and "A" or "V"
+  op.continuum = { lo = c.lo, hi = c.hi, segment = c.segment, x = c.x }
+  op.unique = false
+  op.unique_reason = ("a continuum of operating points: %s anywhere from %s = %s to %s %s (the "
+    .. "load line lies along its segment %d)"):format(c.device, c.x, fmt(c.lo), fmt(c.hi), unit,
+    c.segment)
+  caution(op, ("%s has a continuum of operating points, %s from %s to %s %s: the load line lies "
+    .. "along its segment %d, so the circuit does not fix the point; this one is an end of it")
+    :format(c.device, c.x, fmt(c.lo), fmt(c.hi), unit, c.segment),
+    { kind = "continuum", element = c.device, group = "devices with a continuum of points",
+      worst = 1, detail = ("(%s in [%s, %s])"):format(c.x, fmt(c.lo), fmt(c.hi)) })
+end
+
+-- Drops the cautions of one kind (a continuum is not "several points").
+local function drop_cautions(op, kind)
+  local w, wi = {}, {}
+  for k, text in ipairs(op.warnings) do
+    if op.warning_info[k].kind ~= kind then w[#w + 1], wi[#w + 1] = text, op.warning_info[k] end
+  end
+  op.warnings, op.warning_info = w, wi
+end
+
 function Network:solve(opts)
   opts = check_opts("network:solve", opts, SOLVE_OPTS)
   local method = opts.method or "auto"
@@ -426,6 +486,20 @@ function Network:solve(opts)
     error(op, 2)
   end
   op = finish_op(self, op, info)
+  if #self._devices == 1 and (info.nfound or 0) > 1 and not opts.exact then
+    local name = self._devices[1]
+    for _, other in ipairs(self:solve_all { max_states = opts.max_states }) do
+      local c = other.continuum
+      local x = c and (c.x == "i" and op.i[name] or op.vd[name])
+      local span = c and 1e-9 * math.max(math.abs(c.lo), math.abs(c.hi), c.hi - c.lo, 1e-300)
+      if c and x >= c.lo - span and x <= c.hi + span then
+        drop_cautions(op, "several")
+        continuum_caution(op, { lo = c.lo, hi = c.hi, segment = c.segment, x = c.x,
+          device = name })
+        info.nfound = other.nfound -- the continuum counts once
+      end
+    end
+  end
   exact_caution(op, missing)
   stability_caution(op)
   -- a count from the methods that count (load line, enumeration); 0 from
@@ -441,11 +515,17 @@ function Network:solve_all(opts)
   opts = check_opts("network:solve_all", opts, { max_states = "number" })
   local list = call("network:solve_all", self._c.solve_all, self._c, opts.max_states)
   local elements = self:info().elements
-  for k, op in ipairs(list) do
-    list[k] = finish_op(self, op, { method = "enumerate" }, elements)
-    list[k].nfound = #list
+  for k, op in ipairs(list) do list[k] = finish_op(self, op, { method = "enumerate" }, elements) end
+  -- a continuum is one result: its first end stands for it
+  local drop = {}
+  for _, c in ipairs(continua(self, list)) do
+    continuum_caution(list[c.first], c)
+    drop[c.last] = true
   end
-  return list
+  local out = {}
+  for k, op in ipairs(list) do if not drop[k] then out[#out + 1] = op end end
+  for _, op in ipairs(out) do op.nfound = #out end
+  return out
 end
 
 -- Warnings of an array loop (sweep or Monte Carlo): one per device and
