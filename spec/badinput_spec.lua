@@ -37,7 +37,8 @@ local function bounded()
   local net = sw.network()
   net:vsource("VIN", "in", "0", -50)
   net:resistor("RSER", "in", "a", 1000)
-  net:element("DIODE", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 }, extend = "error" })
+  net:element("DIODE", "a", "0",
+    sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 }, extend = "error" })
   return net
 end
 
@@ -69,15 +70,23 @@ describe("segwise bad input", function()
       { "NaN in xs", function() sw.curve.samples({ 0, NAN, 2 }, { 1, 2, 3 }) end, "xs%[2%]" },
       { "Inf in ys", function() sw.curve.samples({ 0, 1, 2 }, { 1, 2, INF }) end, "ys%[3%]" },
       { "-Inf in xs", function() sw.curve.samples({ -INF, 1, 2 }, { 1, 2, 3 }) end, "xs%[1%]" },
-      { "a text element", function() sw.curve.samples({ 0, 1, "two" }, { 1, 2, 3 }) end, "xs%[3%]" },
+      { "a text element",
+        function() sw.curve.samples({ 0, 1, "two" }, { 1, 2, 3 }) end, "xs%[3%]" },
       { "mismatched lengths", function() sw.curve.samples({ 0, 1, 2 }, { 1, 2 }) end, "3.*2" },
       { "one element", function() sw.curve.samples({ 1 }, { 1 }) end, "at least 2" },
       { "empty tables", function() sw.curve.samples({}, {}) end, "at least 2" },
-      { "unsorted without sort", function() sw.curve.samples({ 0, 2, 1 }, { 0, 1, 2 }) end, "x%[3%]" },
-      { "repeated x", function() sw.curve.samples({ 0, 1, 1, 2 }, { 0, 1, 2, 3 }) end, "x%[2%] and x%[3%]" },
-      { "options not a table", function() sw.curve.samples({ 0, 1 }, { 0, 1 }, "sort") end, "options must be a table" },
-      { "unknown option", function() sw.curve.samples({ 0, 1 }, { 0, 1 }, { sorted = true }) end, "unknown option 'sorted'" },
-      { "duplicates not a choice", function() sw.curve.samples({ 0, 1 }, { 0, 1 }, { duplicates = "max" }) end, "option duplicates" },
+      { "unsorted without sort",
+        function() sw.curve.samples({ 0, 2, 1 }, { 0, 1, 2 }) end, "x%[3%]" },
+      { "repeated x",
+        function() sw.curve.samples({ 0, 1, 1, 2 }, { 0, 1, 2, 3 }) end, "x%[2%] and x%[3%]" },
+      { "options not a table",
+        function() sw.curve.samples({ 0, 1 }, { 0, 1 }, "sort") end, "options must be a table" },
+      { "unknown option",
+        function() sw.curve.samples({ 0, 1 }, { 0, 1 }, { sorted = true }) end,
+        "unknown option 'sorted'" },
+      { "duplicates not a choice",
+        function() sw.curve.samples({ 0, 1 }, { 0, 1 }, { duplicates = "max" }) end,
+        "option duplicates" },
     }
   end)
 
@@ -87,13 +96,15 @@ describe("segwise bad input", function()
       { "diode negative is", function() sw.curve.diode { is = -1e-14 } end, "is must be" },
       { "diode NaN ideality", function() sw.curve.diode { is = 1e-14, n = NAN } end, "n" },
       { "diode negative rs", function() sw.curve.diode { is = 1e-14, rs = -1 } end, "rs" },
-      { "diode vt and temp", function() sw.curve.diode { is = 1e-14, vt = 0.025, temp = 300 } end, "vt or temp" },
+      { "diode vt and temp",
+        function() sw.curve.diode { is = 1e-14, vt = 0.025, temp = 300 } end, "vt or temp" },
       { "diode x not v or i", function() sw.curve.diode { is = 1e-14, x = "q" } end, "option x" },
       { "diode opts not a table", function() sw.curve.diode(1e-14) end, "options must be a table" },
       { "power k = 0", function() sw.curve.power { k = 0, n = 2 } end, "k" },
       { "power negative n", function() sw.curve.power { k = 1, n = -1 } end, "n must be" },
       { "power n a string", function() sw.curve.power { k = 1, n = "2" } end, "option n" },
-      { "fn f not a function", function() sw.curve.fn(42, { lo = 0, hi = 1 }) end, "f must be a function" },
+      { "fn f not a function",
+        function() sw.curve.fn(42, { lo = 0, hi = 1 }) end, "f must be a function" },
       { "fn lo >= hi", function() sw.curve.fn(math.sin, { lo = 1, hi = 1 }) end, "lo" },
       { "fn missing hi", function() sw.curve.fn(math.sin, { lo = 0 }) end, "hi" },
       { "fn lo = -Inf", function() sw.curve.fn(math.sin, { lo = -INF, hi = 1 }) end, "lo" },
@@ -107,7 +118,8 @@ describe("segwise bad input", function()
       { "x a string", function() samples():eval("one") end, "x must be" },
       { "x NaN", function() samples():eval(NAN) end, "x" },
       { "deriv outside the domain", function() samples():deriv(-1) end, "%-1" },
-      { "v(i) diode below -is", function() sw.curve.diode { is = 1e-12, x = "i" }:eval(-1) end, "%-1" },
+      { "v(i) diode below -is",
+        function() sw.curve.diode { is = 1e-12, x = "i" }:eval(-1) end, "%-1" },
       { "callback raises", function()
         sw.curve.fn(function() error("meter offline") end, { lo = 0, hi = 1 }):eval(0.5)
       end, "meter offline", raw = true },
@@ -162,13 +174,18 @@ describe("segwise bad input", function()
       { "unsorted knots", function() sw.pwl { x = { 0, 2, 1 }, y = { 0, 1, 2 } } end, "x%[3%]" },
       { "NaN ordinate", function() sw.pwl { x = { 0, 1 }, y = { NAN, 1 } } end, "y%[1%]" },
       { "-Inf knot", function() sw.pwl { x = { -INF, 1 }, y = { 0, 1 } } end, "x%[1%]" },
-      { "extend not a choice", function() sw.pwl { x = { 0, 1 }, y = { 0, 1 }, extend = "wrap" } end, "option extend" },
+      { "extend not a choice",
+        function() sw.pwl { x = { 0, 1 }, y = { 0, 1 }, extend = "wrap" } end, "option extend" },
       { "segments: empty list", function() sw.pwl.segments {} end, "at least 1" },
       { "segments: not joined", function()
-        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 }, { lo = 2, hi = 3, slope = 1, intercept = 0 } }
+        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 },
+                          { lo = 2, hi = 3, slope = 1, intercept = 0 } }
       end, "join" },
-      { "segments: lo >= hi", function() sw.pwl.segments { { lo = 1, hi = 1, slope = 1, intercept = 0 } } end, "1" },
-      { "segments: NaN slope", function() sw.pwl.segments { { lo = 0, hi = 1, slope = NAN, intercept = 0 } } end, "slope" },
+      { "segments: lo >= hi",
+        function() sw.pwl.segments { { lo = 1, hi = 1, slope = 1, intercept = 0 } } end, "1" },
+      { "segments: NaN slope",
+        function() sw.pwl.segments { { lo = 0, hi = 1, slope = NAN, intercept = 0 } } end,
+        "slope" },
       { "segments: entry not a table", function() sw.pwl.segments { 5 } end, "segment 1" },
     }
   end)
@@ -183,21 +200,30 @@ describe("segwise bad input", function()
       { "seg(0)", function() model():seg(0) end, "index 0" },
       { "seg(99)", function() model():seg(99) end, "index 99" },
       { "thevenin(3) of a 2-segment model", function() model():thevenin(3) end, "index 3" },
-      { "norton of a flat segment", function() sw.pwl { x = { 0, 1 }, y = { 1, 1 } }:norton(1) end, "1" },
-      { "inverse of a non-monotone model", function() sw.pwl { x = { 0, 1, 2 }, y = { 0, 1, 0 } }:inverse() end, "monoton" },
+      { "norton of a flat segment",
+        function() sw.pwl { x = { 0, 1 }, y = { 1, 1 } }:norton(1) end, "1" },
+      { "inverse of a non-monotone model",
+        function() sw.pwl { x = { 0, 1, 2 }, y = { 0, 1, 0 } }:inverse() end, "monoton" },
       { "inverse of a discontinuous model", function()
-        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 }, { lo = 1, hi = 2, slope = 1, intercept = 5 } }:inverse()
+        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 },
+                          { lo = 1, hi = 2, slope = 1, intercept = 5 } }:inverse()
       end, "continuous" },
       { "canonical of a discontinuous model", function()
-        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 }, { lo = 1, hi = 2, slope = 1, intercept = 5 } }:canonical()
+        sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 },
+                          { lo = 1, hi = 2, slope = 1, intercept = 5 } }:canonical()
       end, "continuous" },
       { "compare with a non-curve", function() model():compare(5) end, "#2.*curve" },
       { "compare lo >= hi", function() model():compare(samples(), { lo = 2, hi = 1 }) end, "lo" },
-      { "compare outside the curve's domain", function() model():compare(samples(), { lo = -5, hi = 1 }) end, "domain" },
-      { "compare n = 0", function() model():compare(diode(), { lo = 0, hi = 0.7, n = 0 }) end, "n" },
-      { "compare n = -5", function() model():compare(diode(), { lo = 0, hi = 0.7, n = -5 }) end, "n" },
-      { "compare n = 1e12 fails fast", function() model():compare(diode(), { lo = 0, hi = 0.7, n = 1e12 }) end, "n" },
-      { "compare unknown option", function() model():compare(samples(), { points = 5 }) end, "unknown option 'points'" },
+      { "compare outside the curve's domain",
+        function() model():compare(samples(), { lo = -5, hi = 1 }) end, "domain" },
+      { "compare n = 0",
+        function() model():compare(diode(), { lo = 0, hi = 0.7, n = 0 }) end, "n" },
+      { "compare n = -5",
+        function() model():compare(diode(), { lo = 0, hi = 0.7, n = -5 }) end, "n" },
+      { "compare n = 1e12 fails fast",
+        function() model():compare(diode(), { lo = 0, hi = 0.7, n = 1e12 }) end, "n" },
+      { "compare unknown option",
+        function() model():compare(samples(), { points = 5 }) end, "unknown option 'points'" },
       { "compare with a freed curve", function() model():compare(freed(samples())) end, "free" },
       { "model used after free", function() freed(model())(1) end, "free" },
       { "nseg after free", function() freed(model()):nseg() end, "free" },
@@ -221,30 +247,46 @@ describe("segwise bad input", function()
         { "segments = 0", function() sw.fit(samples(), { segments = 0 }) end, "segments" },
         { "segments negative", function() sw.fit(samples(), { segments = -3 }) end, "segments" },
         { "segments fractional", function() sw.fit(samples(), { segments = 2.5 }) end, "segments" },
-        { "segments = 1e12 fails fast", function() sw.fit(diode(), { lo = 0, hi = 0.7, segments = 1e12 }) end, "segments" },
-        { "segments more than samples", function() sw.fit(samples(), { segments = 10 }) end, "segments" },
+        { "segments = 1e12 fails fast",
+          function() sw.fit(diode(), { lo = 0, hi = 0.7, segments = 1e12 }) end, "segments" },
+        { "segments more than samples",
+          function() sw.fit(samples(), { segments = 10 }) end, "segments" },
         { "tol = 0", function() sw.fit(samples(), { tol = 0 }) end, "tol" },
         { "tol NaN", function() sw.fit(samples(), { tol = NAN }) end, "tol" },
-        { "segments and tol", function() sw.fit(samples(), { segments = 2, tol = 0.1 }) end, "segments or tol" },
+        { "segments and tol",
+          function() sw.fit(samples(), { segments = 2, tol = 0.1 }) end, "segments or tol" },
         { "lo >= hi", function() sw.fit(samples(), { lo = 2, hi = 2 }) end, "lo" },
         { "lo = -Inf", function() sw.fit(samples(), { lo = -INF }) end, "lo" },
-        { "range outside the domain", function() sw.fit(samples(), { lo = -1, hi = 2 }) end, "domain" },
-        { "unbounded law without a range", function() sw.fit(diode(), { segments = 3 }) end, "lo and hi" },
-        { "criterion not a choice", function() sw.fit(samples(), { criterion = "best" }) end, "option criterion" },
+        { "range outside the domain",
+          function() sw.fit(samples(), { lo = -1, hi = 2 }) end, "domain" },
+        { "unbounded law without a range",
+          function() sw.fit(diode(), { segments = 3 }) end, "lo and hi" },
+        { "criterion not a choice",
+          function() sw.fit(samples(), { criterion = "best" }) end, "option criterion" },
         { "knots scheme unknown", function() sw.fit(samples(), { knots = "random" }) end, "knots" },
-        { "knot list unsorted", function() sw.fit(samples(), { knots = { 0, 2, 1, 3 } }) end, "knots%[3%]" },
-        { "knot outside the range", function() sw.fit(samples(), { knots = { 0, 5 } }) end, "knots%[2%]" },
+        { "knot list unsorted",
+          function() sw.fit(samples(), { knots = { 0, 2, 1, 3 } }) end, "knots%[3%]" },
+        { "knot outside the range",
+          function() sw.fit(samples(), { knots = { 0, 5 } }) end, "knots%[2%]" },
         { "knot NaN", function() sw.fit(samples(), { knots = { 0, NAN, 3 } }) end, "knots%[2%]" },
         { "grid = 1", function() sw.fit(diode(), { lo = 0, hi = 0.7, grid = 1 }) end, "grid" },
-        { "unknown option", function() sw.fit(samples(), { segs = 2 }) end, "unknown option 'segs'" },
+        { "unknown option",
+          function() sw.fit(samples(), { segs = 2 }) end, "unknown option 'segs'" },
         { "freed curve", function() sw.fit(freed(samples()), { segments = 2 }) end, "free" },
-        { "callback raises", function() sw.fit(fn_curve(function() error("probe lost") end), { segments = 2 }) end, "probe lost", raw = true },
-        { "callback returns nil", function() sw.fit(fn_curve(function() end), { segments = 2 }) end, "nil" },
-        { "callback returns NaN", function() sw.fit(fn_curve(function() return NAN end), { segments = 2 }) end, "NaN" },
+        { "callback raises",
+          function() sw.fit(fn_curve(function() error("probe lost") end), { segments = 2 }) end,
+          "probe lost", raw = true },
+        { "callback returns nil",
+          function() sw.fit(fn_curve(function() end), { segments = 2 }) end, "nil" },
+        { "callback returns NaN",
+          function() sw.fit(fn_curve(function() return NAN end), { segments = 2 }) end, "NaN" },
         -- fuzzer find: a denormal rel_floor made the error level overflow and
         -- the fit return an empty model as a success
         { "rel_floor so small the error level overflows",
-          function() sw.fit(sw.curve.power { k = 1, n = 0.25 }, { lo = 0, hi = 5e-12, error = "rel", rel_floor = 1e-315, tol = 0.5 }) end,
+          function()
+            sw.fit(sw.curve.power { k = 1, n = 0.25 },
+              { lo = 0, hi = 5e-12, error = "rel", rel_floor = 1e-315, tol = 0.5 })
+          end,
           "error scale.*rel_floor" },
       }
 
@@ -269,20 +311,33 @@ describe("segwise bad input", function()
         { "missing file", function() sw.curve.read(tmpdir .. "/nope.csv") end, "nope%.csv" },
         { "a directory", function() sw.curve.read(tmpdir) end, tmpdir:gsub("%p", "%%%0") },
         { "a path through a plain file", function() sw.curve.read(good .. "/x.csv") end, "x%.csv" },
-        { "array.read of a missing file", function() sw.array.read(tmpdir .. "/gone.csv", 1) end, "gone%.csv" },
+        { "array.read of a missing file",
+          function() sw.array.read(tmpdir .. "/gone.csv", 1) end, "gone%.csv" },
         { "empty file", function() sw.curve.read(file("empty.csv", "")) end, "empty%.csv" },
-        { "ragged row", function() sw.curve.read(file("ragged.csv", "x,y\n1,2\n3\n4,5\n"), { x = 1, y = 2 }) end, "ragged%.csv:3" },
-        { "text in a number column", function() sw.curve.read(file("text.csv", "x,y\n1,2\n3,abc\n")) end, "text%.csv:3" },
-        { "missing header name", function() sw.curve.read(good, { x = "I_A", y = "V_mV" }) end, "V_mV" },
-        { "binary junk", function() sw.curve.read(file("junk.bin", "\0\1\2\255\254,\128\n\0\0")) end, "junk%.bin" },
+        { "ragged row",
+          function() sw.curve.read(file("ragged.csv", "x,y\n1,2\n3\n4,5\n"), { x = 1, y = 2 }) end,
+          "ragged%.csv:3" },
+        { "text in a number column",
+          function() sw.curve.read(file("text.csv", "x,y\n1,2\n3,abc\n")) end, "text%.csv:3" },
+        { "missing header name",
+          function() sw.curve.read(good, { x = "I_A", y = "V_mV" }) end, "V_mV" },
+        { "binary junk",
+          function() sw.curve.read(file("junk.bin", "\0\1\2\255\254,\128\n\0\0")) end,
+          "junk%.bin" },
         { "column 0", function() sw.curve.read(good, { x = 0, y = 2 }) end, "0" },
         { "column 9 of 2", function() sw.curve.read(good, { x = 1, y = 9 }) end, "9" },
         { "column a float", function() sw.curve.read(good, { x = 1.5 }) end, "x must be" },
-        { "unknown option", function() sw.curve.read(good, { column = 1 }) end, "unknown option 'column'" },
-        { "scale not a number", function() sw.curve.read(good, { scale = { x = "milli" } }) end, "option x" },
-        { "repeated x in a file", function() sw.curve.read(file("rep.csv", "1,2\n1,3\n2,4\n")) end, "rep%.csv" },
-        { "model file missing", function() sw.pwl.load(tmpdir .. "/none.model") end, "none%.model" },
-        { "model file malformed", function() sw.pwl.load(file("bad.model", "# segwise model\n0,1\nzz,2,3\n")) end, "bad%.model" },
+        { "unknown option",
+          function() sw.curve.read(good, { column = 1 }) end, "unknown option 'column'" },
+        { "scale not a number",
+          function() sw.curve.read(good, { scale = { x = "milli" } }) end, "option x" },
+        { "repeated x in a file",
+          function() sw.curve.read(file("rep.csv", "1,2\n1,3\n2,4\n")) end, "rep%.csv" },
+        { "model file missing",
+          function() sw.pwl.load(tmpdir .. "/none.model") end, "none%.model" },
+        { "model file malformed",
+          function() sw.pwl.load(file("bad.model", "# segwise model\n0,1\nzz,2,3\n")) end,
+          "bad%.model" },
       }
     end)
   end
@@ -290,7 +345,8 @@ describe("segwise bad input", function()
   if sw.network then
     describe("sw.network", function()
       run_cases {
-        { "negative resistance", function() sw.network():resistor("RSER", "a", "0", -5) end, "RSER" },
+        { "negative resistance",
+          function() sw.network():resistor("RSER", "a", "0", -5) end, "RSER" },
         { "zero resistance", function() sw.network():resistor("RSER", "a", "0", 0) end, "RSER" },
         { "NaN source", function() sw.network():vsource("VIN", "a", "0", NAN) end, "volts" },
         { "name not a string", function() sw.network():resistor({}, "a", "0", 1) end, "name" },
@@ -320,20 +376,30 @@ describe("segwise bad input", function()
           net:cccs("MIRROR", "a", "0", "Vx", 2)
           net:solve()
         end, "Vx" },
-        { "element with a non-model", function() circuit():element("DIODE2", "a", "0", 5) end, "model" },
-        { "element with a freed model", function() circuit():element("DIODE2", "a", "0", freed(model())) end, "free" },
-        { "solve with an unknown method", function() circuit():solve { method = "newton" } end, "option method" },
-        { "start names an unknown device", function() circuit():solve { start = { DGHOST = 1 } } end, "DGHOST" },
-        { "start segment out of range", function() circuit():solve { start = { DIODE = 99 } } end, "99" },
-        { "sweep of an unknown name", function() circuit():sweep("VGHOST", { 1, 2 }) end, "VGHOST" },
+        { "element with a non-model",
+          function() circuit():element("DIODE2", "a", "0", 5) end, "model" },
+        { "element with a freed model",
+          function() circuit():element("DIODE2", "a", "0", freed(model())) end, "free" },
+        { "solve with an unknown method",
+          function() circuit():solve { method = "newton" } end, "option method" },
+        { "start names an unknown device",
+          function() circuit():solve { start = { DGHOST = 1 } } end, "DGHOST" },
+        { "start segment out of range",
+          function() circuit():solve { start = { DIODE = 99 } } end, "99" },
+        { "sweep of an unknown name",
+          function() circuit():sweep("VGHOST", { 1, 2 }) end, "VGHOST" },
         { "sweep values with NaN", function() circuit():sweep("VIN", { 1, NAN }) end, "%[2%]" },
         -- regression (fuzzer, net harness): the assumed-state iteration once
         -- stepped a device past the last segment of a bounded model
-        { "assumed state beyond a bounded model", function() bounded():solve { method = "assumed" } end, "DIODE needs v = %-50" },
+        { "assumed state beyond a bounded model",
+          function() bounded():solve { method = "assumed" } end, "DIODE needs v = %-50" },
         { "load line beyond a bounded model", function() bounded():solve() end, "DIODE" },
-        { "lcp beyond a bounded model", function() bounded():solve { method = "lcp" } end, "DIODE" },
-        { "enumerate beyond a bounded model", function() bounded():solve { method = "enumerate" } end, "no consistent state" },
-        { "network used after free", function() local n = circuit(); n:free(); n:solve() end, "free" },
+        { "lcp beyond a bounded model",
+          function() bounded():solve { method = "lcp" } end, "DIODE" },
+        { "enumerate beyond a bounded model",
+          function() bounded():solve { method = "enumerate" } end, "no consistent state" },
+        { "network used after free",
+          function() local n = circuit(); n:free(); n:solve() end, "free" },
       }
 
       it("a network that failed to solve is fixed with set and solved again", function()
@@ -386,14 +452,16 @@ describe("segwise bad input", function()
         net:vsource("VIN", "in", "0", 5)
         net:resistor("RSER", "in", "a", 1000)
         local ex = sw.curve.fn(function(v) net:free(); return 1e-3 * v end, { lo = -1, hi = 1 })
-        net:element("DIODE", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } }, { exact = ex })
+        net:element("DIODE", "a", "0", sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.1 } }, ]]
+        .. [[{ exact = ex })
         print(pcall(net.solve, net, { exact = true }))]], "free" }
       -- regression (fuzzer, net harness): a segment line whose intercept
       -- overflows was reported after its storage was freed
       cases[#cases + 1] = { "a device whose segment line overflows", [[
         local net = sw.network()
         net:vsource("VIN", "a", "0", 1)
-        print(pcall(net.element, net, "DIODE", "a", "0", sw.pwl { x = { 1e300, 1.5e300 }, y = { 0, 1e308 } }))]], "DIODE" }
+        print(pcall(net.element, net, "DIODE", "a", "0", ]]
+        .. [[sw.pwl { x = { 1e300, 1.5e300 }, y = { 0, 1e308 } }))]], "DIODE" }
     end
     for _, case in ipairs(cases) do
       it(case[1], function()

@@ -53,7 +53,8 @@ describe("segwise.fit", function()
         assert.is_true(s.x >= s.lo and s.x <= s.hi, "segment " .. k)
         -- each segment's own worst point (tolerance 1e-9 relative)
         local seg = m:seg(k)
-        assert.is.near(s.max_abs, math.abs(seg.slope * s.x + seg.intercept - c(s.x)), 1e-9 * s.max_abs + 1e-18)
+        assert.is.near(s.max_abs, math.abs(seg.slope * s.x + seg.intercept - c(s.x)),
+          1e-9 * s.max_abs + 1e-18)
       end
       assert.is.near(info.max_abs, worst, 1e-6 * worst)
     end)
@@ -73,12 +74,14 @@ describe("segwise.fit", function()
         for _, scheme in ipairs(schemes) do
           for _, measure in ipairs { "abs", "rel" } do
            for _, cont in ipairs { true, false } do
-            it(("%s, %s, knots %s, error %s, continuous = %s"):format(cv.name, crit, scheme, measure,
-              tostring(cont)), function()
+            it(("%s, %s, knots %s, error %s, continuous = %s"):format(cv.name, crit, scheme,
+              measure, tostring(cont)), function()
               local c = cv.make()
-              local opts = { lo = cv.lo, hi = cv.hi, criterion = crit, error = measure, continuous = cont }
+              local opts = { lo = cv.lo, hi = cv.hi, criterion = crit, error = measure,
+                             continuous = cont }
               if scheme == "list" then
-                opts.knots = { cv.lo, cv.lo + 0.6 * (cv.hi - cv.lo), cv.lo + 0.9 * (cv.hi - cv.lo), cv.hi }
+                opts.knots = { cv.lo, cv.lo + 0.6 * (cv.hi - cv.lo), cv.lo + 0.9 * (cv.hi - cv.lo),
+                               cv.hi }
               else
                 opts.knots = scheme
                 opts.segments = crit == "tangent" and 1 or 3
@@ -116,13 +119,18 @@ describe("segwise.fit", function()
       -- chord error = twice the shifted-chord error on each convex segment
       -- (Chebyshev equioscillation, common practice); tolerance 1 %
       local mm = sw.fit(diode(), { lo = 0.3, hi = 0.8, segments = 5 }):fit_info().max_abs
-      local ip = sw.fit(diode(), { lo = 0.3, hi = 0.8, segments = 5, criterion = "interp", knots = "optimal" })
+      local ip = sw.fit(diode(),
+        { lo = 0.3, hi = 0.8, segments = 5, criterion = "interp", knots = "optimal" })
       assert.is.near(2, ip:fit_info().max_abs / mm, 0.02)
-      for _, x in ipairs(ip:knots()) do assert.is.near(diode()(x), ip(x), 1e-12 + 1e-9 * diode()(x)) end
+      for _, x in ipairs(ip:knots()) do
+        assert.is.near(diode()(x), ip(x), 1e-12 + 1e-9 * diode()(x))
+      end
     end)
 
     it("lets discontinuous minimax do no worse than continuous on fixed knots", function()
-      for _, c in ipairs { diode(), sampled(), sw.curve.fn(function(x) return math.sin(8 * x) end, { lo = 0, hi = 1 }) } do
+      for _, c in ipairs {
+        diode(), sampled(), sw.curve.fn(function(x) return math.sin(8 * x) end, { lo = 0, hi = 1 })
+      } do
         local lo, hi = c:domain()
         if lo < 0.3 then lo, hi = 0, 1 else lo, hi = 0.3, 0.8 end
         local opts = { lo = lo, hi = hi, knots = "uniform", segments = 4 }
@@ -133,7 +141,8 @@ describe("segwise.fit", function()
       end
     end)
 
-    it("keeps the chord's ends on the curve and the tangent's slope at the operating point", function()
+    it("keeps the chord's ends on the curve and the tangent's slope at the operating "
+      .. "point", function()
       local c = diode()
       local ch = sw.fit(c, { lo = 0.5, hi = 0.7, criterion = "chord" })
       assert.are.equal(1, ch:nseg())
@@ -149,20 +158,23 @@ describe("segwise.fit", function()
     for _, cv in ipairs(CURVES) do
       for _, measure in ipairs { "abs", "rel" } do
         for _, cont in ipairs { true, false } do
-          it(("meets tol on the %s (%s, continuous = %s)"):format(cv.name, measure, tostring(cont)), function()
+          it(("meets tol on the %s (%s, continuous = %s)"):format(cv.name, measure,
+            tostring(cont)), function()
             local c = cv.make()
             -- the best single line under the same measure (a relative tol is below 100 %)
-            local ref = sw.fit(c, { lo = cv.lo, hi = cv.hi, segments = 1, error = measure }):fit_info()
+            local ref = sw.fit(c, { lo = cv.lo, hi = cv.hi, segments = 1, error = measure })
+              :fit_info()
             local tol = (measure == "abs" and ref.max_abs or ref.max_rel) / 50
-            local m = sw.fit(c, { lo = cv.lo, hi = cv.hi, tol = tol, error = measure, continuous = cont })
+            local m = sw.fit(c, { lo = cv.lo, hi = cv.hi, tol = tol, error = measure,
+                                  continuous = cont })
             local info = m:fit_info()
             local got = measure == "abs" and info.max_abs or info.max_rel
             assert.is_true(got <= tol * (1 + 1e-9))
             assert.are.equal(tol, info.tol)
             -- one segment fewer, at its best (optimal knots), misses tol
             if m:nseg() > 1 then
-              local fewer = sw.fit(c, { lo = cv.lo, hi = cv.hi, segments = m:nseg() - 1, error = measure,
-                continuous = cont }):fit_info()
+              local fewer = sw.fit(c, { lo = cv.lo, hi = cv.hi, segments = m:nseg() - 1,
+                error = measure, continuous = cont }):fit_info()
               assert.is_true((measure == "abs" and fewer.max_abs or fewer.max_rel) > tol)
             end
           end)
@@ -216,7 +228,8 @@ describe("segwise.fit", function()
     it("relative fits converge whatever the rel_floor", function()
       local c = sw.curve.diode { is = 1e-12, n = 1.5, vt = 0.025 }
       local function rel(floor)
-        return sw.fit(c, { lo = 0, hi = 0.7, segments = 4, knots = "uniform", error = "rel", rel_floor = floor })
+        return sw.fit(c, { lo = 0, hi = 0.7, segments = 4, knots = "uniform", error = "rel",
+                           rel_floor = floor })
           :fit_info().max_rel
       end
       -- both floors sit far below every |i| but the one at 0 V, where the
@@ -227,10 +240,13 @@ describe("segwise.fit", function()
     end)
 
     it("max_segments needs tol and a positive integer", function()
-      assert.has_error(function() sw.fit(diode(), { lo = 0.3, hi = 0.8, segments = 3, max_segments = 5 }) end,
+      assert.has_error(function()
+        sw.fit(diode(), { lo = 0.3, hi = 0.8, segments = 3, max_segments = 5 })
+      end,
         "segwise.fit: max_segments goes with tol (a cap on the fewest-segment search)")
       for _, bad in ipairs { 0, 2.5, -1, 0 / 0, 1e12 } do
-        local ok, msg = pcall(sw.fit, diode(), { lo = 0.3, hi = 0.8, tol = 1e-3, max_segments = bad })
+        local ok, msg = pcall(sw.fit, diode(),
+          { lo = 0.3, hi = 0.8, tol = 1e-3, max_segments = bad })
         assert.is_false(ok)
         assert.matches("max_segments", msg)
       end
@@ -258,21 +274,25 @@ describe("segwise.fit", function()
         end)
 
         it(("holds the end slopes (%s, %s knots)"):format(crit, scheme), function()
-          local m = sw.fit(bumpy(), { criterion = crit, knots = scheme, segments = 4, slope_first = 0 })
+          local m = sw.fit(bumpy(),
+            { criterion = crit, knots = scheme, segments = 4, slope_first = 0 })
           assert.is.near(0, m:seg(1).slope, 1e-9)
-          local m2 = sw.fit(bumpy(), { criterion = crit, knots = scheme, segments = 4, slope_last = 2 })
+          local m2 = sw.fit(bumpy(),
+            { criterion = crit, knots = scheme, segments = 4, slope_last = 2 })
           assert.is.near(2, m2:seg(4).slope, 1e-9)
         end)
 
         it(("keeps the model monotone (%s, %s knots)"):format(crit, scheme), function()
-          local m = sw.fit(bumpy(), { criterion = crit, knots = scheme, segments = 8, monotone = true })
+          local m = sw.fit(bumpy(),
+            { criterion = crit, knots = scheme, segments = 8, monotone = true })
           for k = 1, m:nseg() do assert.is_true(m:seg(k).slope >= -1e-9, "segment " .. k) end
         end)
       end
     end
 
     it("holds slope_first and slope_last together on fixed knots", function()
-      local m = sw.fit(bumpy(), { knots = "uniform", segments = 3, slope_first = 0.5, slope_last = 1.5 })
+      local m = sw.fit(bumpy(),
+        { knots = "uniform", segments = 3, slope_first = 0.5, slope_last = 1.5 })
       assert.is.near(0.5, m:seg(1).slope, 1e-9)
       assert.is.near(1.5, m:seg(3).slope, 1e-9)
     end)
@@ -283,9 +303,10 @@ describe("segwise.fit", function()
       local m2 = sw.fit(bumpy(), { continuous = false, segments = 4, slope_first = 0 })
       assert.is.near(0, m2:seg(1).slope, 1e-9)
       assert.matches("slope_first and slope_last together are not supported yet",
-        errmsg(sw.fit, bumpy(), { continuous = false, segments = 4, slope_first = 0, slope_last = 2 }))
-      local m3 = sw.fit(bumpy(), { continuous = false, knots = "uniform", segments = 4, slope_first = 0,
-        slope_last = 2 })
+        errmsg(sw.fit, bumpy(),
+          { continuous = false, segments = 4, slope_first = 0, slope_last = 2 }))
+      local m3 = sw.fit(bumpy(), { continuous = false, knots = "uniform", segments = 4,
+        slope_first = 0, slope_last = 2 })
       assert.is.near(0, m3:seg(1).slope, 1e-9)
       assert.is.near(2, m3:seg(4).slope, 1e-9)
     end)
@@ -374,7 +395,8 @@ describe("segwise.fit", function()
     end
 
     it("needs rel_floor for relative error on a curve that reaches 0", function()
-      assert.matches("relative error is undefined where the curve is 0 %(near x = 0%); give rel_floor",
+      assert.matches("relative error is undefined where the curve is 0 %(near x = 0%); "
+        .. "give rel_floor",
         errmsg(sw.fit, diode(), { lo = 0, hi = 0.7, error = "rel" }))
       local m = sw.fit(diode(), { lo = 0, hi = 0.7, error = "rel", rel_floor = 1e-6 })
       assert.is_number(m:fit_info().max_rel)
@@ -387,7 +409,8 @@ describe("segwise.fit", function()
     it("rejects geometric knots on a range that holds 0 unless an offset moves it", function()
       assert.matches("geometric knots need a range that does not contain the offset 0",
         errmsg(sw.fit, power(), { lo = -1, hi = 1, knots = "geometric" }))
-      local m = sw.fit(power(), { lo = -1, hi = 1, knots = "geometric", offset = -1.5, segments = 3 })
+      local m = sw.fit(power(),
+        { lo = -1, hi = 1, knots = "geometric", offset = -1.5, segments = 3 })
       local kx = m:knots()
       -- spacing grows by a constant ratio from the offset: (x - offset) geometric
       local r1, r2 = (kx[2] + 1.5) / (kx[1] + 1.5), (kx[3] + 1.5) / (kx[2] + 1.5)
@@ -407,7 +430,8 @@ describe("segwise.fit knots as an array", function()
   it("takes a segwise array of knots like a table", function()
     local sw = require "segwise"
     -- interpolation of x^2 at 0, 0.5, 1: the chord at 0.25 is 0.125 by hand
-    local m = sw.fit(sw.curve.power { k = 1, n = 2 }, { lo = 0, hi = 1, knots = sw.array { 0, 0.5, 1 }, criterion = "interp" })
+    local m = sw.fit(sw.curve.power { k = 1, n = 2 },
+      { lo = 0, hi = 1, knots = sw.array { 0, 0.5, 1 }, criterion = "interp" })
     assert.are.equal(2, m:nseg())
     assert.is.near(0.125, m(0.25), 1e-15)
   end)

@@ -41,7 +41,8 @@ describe("segwise.network", function()
 
     it("rejects duplicate names, bad values and unknown options", function()
       local net = one_device(5, 1000)
-      assert.has_error(function() net:resistor("R", "a", "0", 10) end, "segwise.network:add: duplicate element name 'R'")
+      assert.has_error(function() net:resistor("R", "a", "0", 10) end,
+        "segwise.network:add: duplicate element name 'R'")
       assert.has_error(function() net:resistor("RBAD", "a", "0", 0 / 0) end)
       assert.has_error(function() net:resistor("RBAD", "a", "0", -5) end)
       assert.has_error(function() net:resistor("RBAD", "a", "0", math.huge) end)
@@ -51,7 +52,8 @@ describe("segwise.network", function()
       assert.has_error(function() net:solve { method = "magic" } end)
     end)
 
-    it("keeps working after the model is freed or collected (it holds a copy and a reference)", function()
+    it("keeps working after the model is freed or collected (it holds a copy and a "
+      .. "reference)", function()
       local m = knee()
       local net = one_device(5, 1000, m)
       m:free()
@@ -104,8 +106,10 @@ describe("segwise.network", function()
 
     it("names unknown elements in set and sweep", function()
       local net = one_device(5, 1000)
-      assert.has_error(function() net:set("RX", 3) end, "segwise.network:set: no element named 'RX'")
-      assert.has_error(function() net:sweep("RX", { 1, 2 }) end, "segwise.network:sweep: no element named 'RX'")
+      assert.has_error(function() net:set("RX", 3) end,
+        "segwise.network:set: no element named 'RX'")
+      assert.has_error(function() net:sweep("RX", { 1, 2 }) end,
+        "segwise.network:sweep: no element named 'RX'")
       assert.has_error(function() net:set("DIODE", 3) end)
       assert.has_error(function() net:set("R", 0 / 0) end)
     end)
@@ -124,7 +128,8 @@ describe("segwise.network", function()
     local function impossible()
       local net = sw.network()
       net:vsource("E", "a", "0", 5)
-      net:element("DIODE", "a", "0", sw.pwl { x = { 0, 0.5, 1 }, y = { 0, 0.001, 0.01 }, extend = "error" })
+      net:element("DIODE", "a", "0",
+        sw.pwl { x = { 0, 0.5, 1 }, y = { 0, 0.001, 0.01 }, extend = "error" })
       return net
     end
     it("solve raises an error saying so and what was tried", function()
@@ -188,14 +193,16 @@ describe("segwise.network", function()
   end)
 
   describe("low-rank updates", function()
-    it("assumed-state attempts after the first reuse the factorisation (Sherman-Morrison-Woodbury) and agree with Lemke", function()
+    it("assumed-state attempts after the first reuse the factorisation "
+      .. "(Sherman-Morrison-Woodbury) and agree with Lemke", function()
       local net = sw.network()
       net:vsource("E", "s", "0", 5)
       net:resistor("RS", "s", "n1", 100)
       for k = 1, 16 do
         net:resistor("RG" .. k, "n" .. k, "0", 2000)
         net:resistor("RC" .. k, "n" .. k, "n" .. (k + 1), 150)
-        net:element("DIODE" .. k, "n" .. (k + 1), "0", sw.pwl { x = { 0, 0.3, 0.6, 0.9 }, y = { 0, 3e-4, 1.5e-3, 4.2e-3 } })
+        net:element("DIODE" .. k, "n" .. (k + 1), "0",
+          sw.pwl { x = { 0, 0.3, 0.6, 0.9 }, y = { 0, 3e-4, 1.5e-3, 4.2e-3 } })
       end
       local op = net:solve { method = "assumed" }
       assert.is_true(op.iterations >= 2)
@@ -257,14 +264,17 @@ describe("segwise.network", function()
       local net = sw.network()
       net:vsource("E", "in", "0", e)
       net:resistor("R", "in", "a", 50)
-      net:element("DIODE", "a", "0", sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } })
+      net:element("DIODE", "a", "0",
+        sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } })
       return net
     end
     it("the start states choose which point the assumed method lands on", function()
       local net = tunnel(0.5)
       -- crossings at E/6, 0.7 - E, (E + 1.25)/5.5 (hand algebra, see the reference spec)
-      assert.is.near(0.5 / 6, net:solve { method = "assumed", start = { DIODE = 1 } }.vd.DIODE, 1e-14)
-      assert.is.near(1.75 / 5.5, net:solve { method = "assumed", start = { DIODE = 3 } }.vd.DIODE, 1e-14)
+      assert.is.near(0.5 / 6,
+        net:solve { method = "assumed", start = { DIODE = 1 } }.vd.DIODE, 1e-14)
+      assert.is.near(1.75 / 5.5,
+        net:solve { method = "assumed", start = { DIODE = 3 } }.vd.DIODE, 1e-14)
     end)
     it("a warm-started sweep shows hysteresis on a bistable circuit", function()
       local net = tunnel(0)
@@ -415,7 +425,9 @@ describe("segwise.network", function()
         -- hand algebra: off (i = 0) while e <= 0.6, else v = (e + 60)/101
         local v = e <= 0.6 and e or (e + 60) / 101
         assert.is.near(v, res["vd.DIODE"][k], 1e-12)
-        if math.abs(e - 0.6) > 1e-9 then assert.are.equal(e < 0.6 and 1 or 2, res["state.DIODE"][k]) end
+        if math.abs(e - 0.6) > 1e-9 then
+          assert.are.equal(e < 0.6 and 1 or 2, res["state.DIODE"][k])
+        end
       end
       -- (conducting points: at rest the currents are rounding noise of the
       -- sweep's scale, which a relative KCL check cannot judge)
@@ -434,14 +446,16 @@ describe("segwise.network", function()
       assert.are.same(below, res.warnings[1].indices:totable())
     end)
 
-    it("equals the row sweep on several devices changing state, with and without low-rank updates", function()
+    it("equals the row sweep on several devices changing state, with and without low-rank "
+      .. "updates", function()
       -- a ladder: E -> RSEG1 -> n1 -> RSEG2 -> n2 ..., a three-segment device from
       -- every node to ground; raising E turns the devices on one by one
       local net = sw.network()
       net:vsource("E", "n0", "0", 0)
       for j = 1, 6 do
         net:resistor("RSEG" .. j, "n" .. (j - 1), "n" .. j, 200)
-        net:element("DIODE" .. j, "n" .. j, "0", sw.pwl { x = { 0, 0.5, 0.7, 0.9 }, y = { 0, 1e-4, 2e-3, 1e-2 } })
+        net:element("DIODE" .. j, "n" .. j, "0",
+          sw.pwl { x = { 0, 0.5, 0.7, 0.9 }, y = { 0, 1e-4, 2e-3, 1e-2 } })
       end
       local values = {}
       for k = 1, 150 do values[k] = 0.1 * k end
@@ -463,7 +477,8 @@ describe("segwise.network", function()
 
     it("rebuilds the reduction per point when a resistor is swept", function()
       local net = one_device(5, 1000)
-      local res = same_as_rows(net, "R", { 10, 100, 1000, 4400, 1e4, 1e5 }, { "i.DIODE", "vd.DIODE", "state.DIODE", "v.in" })
+      local res = same_as_rows(net, "R", { 10, 100, 1000, 4400, 1e4, 1e5 },
+        { "i.DIODE", "vd.DIODE", "state.DIODE", "v.in" })
       -- i = (5 - 0.6) / (R + 10): on at every R since E > 0.6 V (hand algebra)
       for k, r in ipairs { 10, 100, 1000, 4400, 1e4, 1e5 } do
         -- (1e-15 A: the segment line i = 0.1 v - 0.06 cancels near the knee)
@@ -477,7 +492,8 @@ describe("segwise.network", function()
       local net = sw.network()
       net:vsource("E", "in", "0", 0)
       net:resistor("R", "in", "a", 50)
-      net:element("DIODE", "a", "0", sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } })
+      net:element("DIODE", "a", "0",
+        sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } })
       local up, down = {}, {}
       for k = 0, 10 do up[#up + 1] = 0.1 * k end
       for k = 10, 0, -1 do down[#down + 1] = 0.1 * k end
@@ -550,7 +566,8 @@ describe("segwise.network", function()
           assert.are.equal(set[k] == true, warned)
         end
       end
-      assert.truthy(tostring(by.pmax):find("DIODE dissipates more than its pmax rating of 0.001 W at " .. #want.pmax .. " of 7 points"))
+      assert.truthy(tostring(by.pmax):find("DIODE dissipates more than its pmax rating of "
+        .. "0.001 W at " .. #want.pmax .. " of 7 points"))
       assert.truthy(tostring(by.range):find("outside its model's knots %[0, 0.8%]"))
     end)
 
@@ -566,7 +583,8 @@ describe("segwise.network", function()
       net:vsource("E", "n0", "0", 6)
       for j = 1, 8 do
         net:resistor("RSEG" .. j, "n" .. (j - 1), "n" .. j, 200)
-        net:element("DIODE" .. j, "n" .. j, "0", sw.pwl { x = { 0, 0.5, 0.7, 0.9 }, y = { 0, 1e-4, 2e-3, 1e-2 } })
+        net:element("DIODE" .. j, "n" .. j, "0",
+          sw.pwl { x = { 0, 0.5, 0.7, 0.9 }, y = { 0, 1e-4, 2e-3, 1e-2 } })
       end
       local a = net:solve { method = "assumed" }
       local b = net:solve { method = "assumed", lowrank = false }
@@ -603,7 +621,8 @@ describe("segwise.network", function()
         assert.is_true(op.values.E >= 4.5 and op.values.E <= 5.5)
         -- i = (E - 0.6)/(R + 10) for the drawn values (hand algebra)
         assert.is.near((op.values.E - 0.6) / (op.values.R + 10), op.i.DIODE, 1e-15)
-        assert.is_true(op.i.DIODE >= box.min.i.DIODE - 1e-15 and op.i.DIODE <= box.max.i.DIODE + 1e-15)
+        assert.is_true(op.i.DIODE >= box.min.i.DIODE - 1e-15
+          and op.i.DIODE <= box.max.i.DIODE + 1e-15)
       end
       assert.is_true(mc.sd.i.DIODE > 0)
       assert.is_true(mc.mean.i.DIODE > box.min.i.DIODE and mc.mean.i.DIODE < box.max.i.DIODE)
@@ -622,7 +641,8 @@ describe("segwise.network", function()
       local net = one_device(5, 1000)
       local vary = { E = 0.1, R = { sd = 0.05 } }
       local mc = net:montecarlo(vary, { runs = 300, seed = 11 })
-      local a = net:montecarlo(vary, { runs = 300, seed = 11, out = { "i.DIODE", "vd.DIODE", "p.DIODE", "state.DIODE" } })
+      local a = net:montecarlo(vary,
+        { runs = 300, seed = 11, out = { "i.DIODE", "vd.DIODE", "p.DIODE", "state.DIODE" } })
       assert.are.equal(300, a.n)
       assert.are.equal(300, #a["i.DIODE"])
       assert.are.equal(a[1], a["i.DIODE"])
@@ -687,14 +707,16 @@ describe("segwise.network", function()
       -- exact law i = 0.01 + v^2 against the load line i = -v/100: v^2 + v/100
       -- + 0.01 = 0 has discriminant 1e-4 - 0.04 < 0, so no real root
       local f = sw.curve.fn(function(v) return 0.01 + v * v end, { lo = -100, hi = 100 })
-      local net = one_device(0, 100, sw.pwl { x = { -1, 0, 1 }, y = { -0.01, 0, 0.01 } }, { exact = f })
+      local net = one_device(0, 100, sw.pwl { x = { -1, 0, 1 }, y = { -0.01, 0, 0.01 } },
+        { exact = f })
       local ok, err = pcall(net.solve, net, { exact = true })
       assert.is_false(ok)
       assert.truthy(err:find("exact: Newton's method"))
       assert.is.near(0, net:solve().vd.DIODE, 1e-15) -- the PWL circuit itself is fine
     end)
     it("uses Lua function curves and reports their errors", function()
-      local f = sw.curve.fn(function(v) return 0.1 * (v - 0.6) + 0.001 * v * v end, { lo = -10, hi = 10 })
+      local f = sw.curve.fn(function(v) return 0.1 * (v - 0.6) + 0.001 * v * v end,
+        { lo = -10, hi = 10 })
       local net = one_device(5, 1000, knee(), { exact = f })
       local ex = net:solve { exact = true }
       -- 5 = 1000 i + v with i = 0.1 (v - 0.6) + 0.001 v^2: check the residual

@@ -43,7 +43,8 @@ describe("segwise.curve.read", function()
     end)
 
     it("skips '#' comment lines and blank lines anywhere", function()
-      local path = write("comments.csv", "# made by hand\n\n  # indented comment\nx,y\n1,10\n\n# middle\n2,20\n   \n")
+      local path = write("comments.csv",
+        "# made by hand\n\n  # indented comment\nx,y\n1,10\n\n# middle\n2,20\n   \n")
       local xs, ys = columns(path, "x", "y")
       assert.are.same({ 1, 2 }, xs)
       assert.are.same({ 10, 20 }, ys)
@@ -94,7 +95,8 @@ describe("segwise.curve.read", function()
       local path = write("forced.csv", "1 2\n3 4\n")
       local xs = columns(path, 1, 2, { header = true, delimiter = " " })
       assert.are.same({ 3 }, xs) -- the first row was taken as names
-      raises("no header row (the first row is numbers)", columns, path, "x", "y", { header = false })
+      raises("no header row (the first row is numbers)", columns, path, "x", "y",
+        { header = false })
     end)
 
     it("applies a scale factor per column", function()
@@ -111,8 +113,9 @@ describe("segwise.curve.read", function()
       -- digit mantissas, the extremes of the double range, subnormals
       local texts = { "0.30000000000000004", "9007199254740993", "9007199254740992.5",
         "1e-27", "1e27", "1e23", "8.589973e9", "4.9406564584124654e-324", "2.2250738585072011e-308",
-        "1.7976931348623157e308", "123456789012345678", "1234567890123456789", "12345678901234567890",
-        "0.1", "-0", "+7", ".5", "5.", "1E5", "2.5e+3", "0001.2500", "7.0e-10", "3.4028236692093846e38" }
+        "1.7976931348623157e308", "123456789012345678", "1234567890123456789",
+        "12345678901234567890", "0.1", "-0", "+7", ".5", "5.", "1E5", "2.5e+3", "0001.2500",
+        "7.0e-10", "3.4028236692093846e38" }
       math.randomseed(99)
       for _ = 1, 2000 do -- random doubles printed with 15, 16 and 17 digits
         local v = (math.random() - 0.5) * 10 ^ math.random(-30, 30)
@@ -149,7 +152,8 @@ describe("segwise.curve.read", function()
       raises("unsorted2.csv:4: x = 0.5 comes after x = 0.69999999999999996 on line 2",
         sw.curve.read, path, { x = "v", y = "i", sort = false })
       local dup = write("unsorted3.csv", "v,i\n0.5,3\n0.5,1\n")
-      raises("unsorted3.csv:3: x = 0.5 repeats line 2", sw.curve.read, dup, { x = "v", y = "i", sort = false })
+      raises("unsorted3.csv:3: x = 0.5 repeats line 2", sw.curve.read, dup,
+        { x = "v", y = "i", sort = false })
     end)
 
     it("repeated x is an error naming both lines unless duplicates = 'mean'", function()
@@ -170,10 +174,13 @@ describe("segwise.curve.read", function()
 
   describe("bad files name file:line:column and the text", function()
     local cases = {
-      { "ragged, too few", "x,y\n1,2\n3\n", "ragged1.csv:3:2: row has 1 field but the header (line 1) has 2" },
+      { "ragged, too few", "x,y\n1,2\n3\n",
+        "ragged1.csv:3:2: row has 1 field but the header (line 1) has 2" },
       { "ragged, too many", "x,y\n1,2\n3,4,5\n", "ragged2.csv:3:5: row has 3 fields" },
-      { "text in a number column", "x,y\n1,2\n3,4.5V\n", 'text.csv:3:3: column 2 ("y"): expected a number, found "4.5V"' },
-      { "text in the first column", "x,y\n1,2\nabc,4\n", 'text1.csv:3:1: column 1 ("x"): expected a number, found "abc"' },
+      { "text in a number column", "x,y\n1,2\n3,4.5V\n",
+        'text.csv:3:3: column 2 ("y"): expected a number, found "4.5V"' },
+      { "text in the first column", "x,y\n1,2\nabc,4\n",
+        'text1.csv:3:1: column 1 ("x"): expected a number, found "abc"' },
       { "empty field", "x,y\n1,\n", 'emptyfield.csv:2:3: column 2 ("y"): empty field' },
       { "NaN in the data", "x,y\n1,nan\n", '"nan" is not a finite number' },
       { "infinity in the data", "x,y\ninf,1\n", '"inf" is not a finite number' },
@@ -182,12 +189,14 @@ describe("segwise.curve.read", function()
       { "header only", "x,y\n", "no data rows after the header on line 1" },
       { "binary junk", "x,y\n1,2\n\0\1\2\255", "junk.csv:3:1: binary data (byte 0x00)" },
       { "control byte mid-row", "x,y\n1,\0272\n", "ctrl.csv:2:3: binary data (byte 0x1b)" },
-      { "unterminated quote", 'x,y\n1,"2\n', "unterminated.csv:2:3: quoted field has no closing quote" },
-      { "text after a quote", 'x,y\n1,"2"V\n', 'afterquote.csv:2:6: text "V" after the closing quote' },
+      { "unterminated quote", 'x,y\n1,"2\n',
+        "unterminated.csv:2:3: quoted field has no closing quote" },
+      { "text after a quote", 'x,y\n1,"2"V\n',
+        'afterquote.csv:2:6: text "V" after the closing quote' },
     }
-    local names = { "ragged1.csv", "ragged2.csv", "text.csv", "text1.csv", "emptyfield.csv", "nan.csv",
-      "inf.csv", "empty.csv", "comments_only.csv", "header_only.csv", "junk.csv", "ctrl.csv",
-      "unterminated.csv", "afterquote.csv" }
+    local names = { "ragged1.csv", "ragged2.csv", "text.csv", "text1.csv", "emptyfield.csv",
+      "nan.csv", "inf.csv", "empty.csv", "comments_only.csv", "header_only.csv", "junk.csv",
+      "ctrl.csv", "unterminated.csv", "afterquote.csv" }
     for i, case in ipairs(cases) do
       it(case[1], function()
         local path = write(names[i], case[2])
@@ -198,12 +207,14 @@ describe("segwise.curve.read", function()
 
     it("an unknown column name lists the names there are", function()
       local path = write("names.csv", "I_A,V_V\n1,2\n")
-      raises('names.csv:1: no column named "I" (columns: "I_A", "V_V")', sw.curve.read, path, { x = "I", y = "V_V" })
+      raises('names.csv:1: no column named "I" (columns: "I_A", "V_V")', sw.curve.read, path,
+        { x = "I", y = "V_V" })
     end)
 
     it("a column number past the last column says how many there are", function()
       local path = write("narrow.csv", "a,b\n1,2\n")
-      raises("narrow.csv:1: no column 3 (the header has 2 columns)", sw.curve.read, path, { x = 1, y = 3 })
+      raises("narrow.csv:1: no column 3 (the header has 2 columns)", sw.curve.read, path,
+        { x = 1, y = 3 })
     end)
 
     it("a name on a file without a header asks for numbers", function()
@@ -212,7 +223,8 @@ describe("segwise.curve.read", function()
     end)
 
     it("a missing path names the path", function()
-      raises('cannot open "' .. dir .. '/no/such/file.csv"', sw.curve.read, dir .. "/no/such/file.csv")
+      raises('cannot open "' .. dir .. '/no/such/file.csv"', sw.curve.read,
+        dir .. "/no/such/file.csv")
     end)
 
     it("a directory names the path", function()
@@ -237,19 +249,38 @@ describe("segwise.curve.read", function()
     setup(function() path = write("ok.csv", "x,y\n1,2\n2,3\n") end)
     local cases = {
       { "path not a string", function() return sw.curve.read(42) end, "path must be a string" },
-      { "options not a table", function() return sw.curve.read(path, "x") end, "options must be a table" },
-      { "unknown option", function() return sw.curve.read(path, { colum = 1 }) end, "unknown option 'colum'" },
-      { "x a table", function() return sw.curve.read(path, { x = {} }) end, "option x must be a string or number" },
-      { "x fractional", function() return sw.curve.read(path, { x = 1.5 }) end, "x must be a header name or a column number" },
-      { "x zero", function() return sw.curve.read(path, { x = 0 }) end, "x column 0 must be a header name or a number from 1" },
-      { "scale not a table", function() return sw.curve.read(path, { scale = 2 }) end, "option scale must be a table" },
-      { "scale.x zero", function() return sw.curve.read(path, { scale = { x = 0 } }) end, "scale.x must be finite and non-zero" },
-      { "scale.y NaN", function() return sw.curve.read(path, { scale = { y = 0 / 0 } }) end, "option y is NaN" },
-      { "scale.y inf", function() return sw.curve.read(path, { scale = { y = math.huge } }) end, "scale.y must be finite and non-zero" },
-      { "unknown scale key", function() return sw.curve.read(path, { scale = { z = 1 } }) end, "unknown option 'z'" },
-      { "bad delimiter", function() return sw.curve.read(path, { delimiter = "|" }) end, "delimiter must be" },
-      { "bad duplicates", function() return sw.curve.read(path, { duplicates = "max" }) end, "option duplicates must be one of" },
-      { "one row only", function() return sw.curve.read(write("one.csv", "x,y\n1,2\n")) end, "one.csv: " },
+      { "options not a table",
+        function() return sw.curve.read(path, "x") end, "options must be a table" },
+      { "unknown option",
+        function() return sw.curve.read(path, { colum = 1 }) end, "unknown option 'colum'" },
+      { "x a table",
+        function() return sw.curve.read(path, { x = {} }) end,
+        "option x must be a string or number" },
+      { "x fractional",
+        function() return sw.curve.read(path, { x = 1.5 }) end,
+        "x must be a header name or a column number" },
+      { "x zero",
+        function() return sw.curve.read(path, { x = 0 }) end,
+        "x column 0 must be a header name or a number from 1" },
+      { "scale not a table",
+        function() return sw.curve.read(path, { scale = 2 }) end, "option scale must be a table" },
+      { "scale.x zero",
+        function() return sw.curve.read(path, { scale = { x = 0 } }) end,
+        "scale.x must be finite and non-zero" },
+      { "scale.y NaN",
+        function() return sw.curve.read(path, { scale = { y = 0 / 0 } }) end, "option y is NaN" },
+      { "scale.y inf",
+        function() return sw.curve.read(path, { scale = { y = math.huge } }) end,
+        "scale.y must be finite and non-zero" },
+      { "unknown scale key",
+        function() return sw.curve.read(path, { scale = { z = 1 } }) end, "unknown option 'z'" },
+      { "bad delimiter",
+        function() return sw.curve.read(path, { delimiter = "|" }) end, "delimiter must be" },
+      { "bad duplicates",
+        function() return sw.curve.read(path, { duplicates = "max" }) end,
+        "option duplicates must be one of" },
+      { "one row only",
+        function() return sw.curve.read(write("one.csv", "x,y\n1,2\n")) end, "one.csv: " },
     }
     for _, case in ipairs(cases) do
       it(case[1], function() raises(case[3], case[2]) end)
