@@ -116,7 +116,8 @@ describe("segwise examples", function()
   describe("led_string", function()
     local r = run("led_string")
     local IS, N, VT, RS = 2e-18, 3.0, 0.02585, 6
-    local function v_law(i) return N * VT * math.log(i / IS + 1) + i * RS end  -- closed form, as above
+    -- closed form, as above
+    local function v_law(i) return N * VT * math.log(i / IS + 1) + i * RS end
 
     it("chooses the E24 ballast at or above (VB - 3 v(20 mA)) / 20 mA", function()
       -- Ohm's law on the resistor at the nominal point (hand algebra)
@@ -125,7 +126,8 @@ describe("segwise examples", function()
       assert.is_true(r.r / r.r_calc < 1.1)           -- E24 steps are under 10 % (common practice)
       -- the same sum with the exact law: the model is within 1 %
       near_rel((12 - 3 * v_law(0.02)) / 0.02, r.r_calc, 0.01, "r_calc vs law")
-      assert.are.equal(160, r.r)                     -- E24 value: 160 ohm (table of E24, common practice)
+      -- E24 value: 160 ohm (table of E24, common practice)
+      assert.are.equal(160, r.r)
     end)
 
     it("each row obeys KVL and the model: VB = R i + 3 v(i)", function()
@@ -176,7 +178,8 @@ describe("segwise examples", function()
     local xs, ys = read_csv("examples/data/schottky_iv.csv")
     for k = 1, #ys do ys[k] = ys[k] * 1e-3 end
 
-    it("fits five schemes, the tolerance fit within its tolerance (recomputed from the file)", function()
+    it("fits five schemes, the tolerance fit within its tolerance (recomputed from the "
+      .. "file)", function()
       assert.are.equal(5, #r.fits)
       for _, f in ipairs(r.fits) do
         local gap = max_gap(f.model, xs, ys)
@@ -209,7 +212,8 @@ describe("segwise examples", function()
         f:close()
         assert.truthy(s:find("^<%?xml") or s:find("^<svg"))
         assert.truthy(s:find("</svg>%s*$"))
-        for _, name in ipairs { "uniform knots", "geometric knots", "curvature knots", "optimal knots" } do
+        for _, name in ipairs { "uniform knots", "geometric knots", "curvature knots",
+                                "optimal knots" } do
           assert.truthy(s:find(name, 1, true), name .. " in " .. p)
         end
       end
@@ -248,7 +252,8 @@ describe("segwise examples", function()
         assert.are.equal(want and 1 or 0, row.over_rating)
         if want then over = over + 1 end
       end
-      assert.are.equal(2, over)                        -- 24 V and 36 V (hand estimate: ~1.4 W, ~2.6 W)
+      -- 24 V and 36 V (hand estimate: ~1.4 W, ~2.6 W)
+      assert.are.equal(2, over)
     end)
 
     it("the 24 V trace ends consistent, on the point the sweep found", function()
@@ -302,7 +307,8 @@ describe("segwise examples", function()
       assert.are.equal(8, charging)
     end)
 
-    it("blocked rows: the battery sees only leakage, and the module stays below the battery", function()
+    it("blocked rows: the battery sees only leakage, and the module stays below the "
+      .. "battery", function()
       local blocked = 0
       for _, row in ipairs(r.rows) do
         if row.state == "blocked" then
@@ -439,8 +445,11 @@ describe("segwise examples", function()
       assert.is_true(elapsed <= 10)
       assert.truthy(out:find("written to " .. dir .. "/demo/", 1, true))
       assert.truthy(out:find("local electrical codes and licensed practice", 1, true))
-      assert.truthy(out:find("a model is an approximation", 1, true) or out:find("A PWL model is an approximation", 1, true))
-      for _, t in ipairs { "max abs", "node voltages", "supply (V)" } do assert.truthy(out:find(t, 1, true), t) end
+      assert.truthy(out:find("a model is an approximation", 1, true)
+        or out:find("A PWL model is an approximation", 1, true))
+      for _, t in ipairs { "max abs", "node voltages", "supply (V)" } do
+        assert.truthy(out:find(t, 1, true), t)
+      end
     end)
 
     it("writes five SVG files, each complete", function()
@@ -461,12 +470,14 @@ describe("segwise examples", function()
       assert.is_true(max_gap(abs_fit, xs, ys) <= r.tol * (1 + 1e-9))
       for k = 1, #xs do
         -- relative to at least 1 mA, within 5 %
-        assert.is_true(math.abs(rel_fit(xs[k]) - ys[k]) <= 0.05 * math.max(math.abs(ys[k]), 1e-3) * (1 + 1e-9))
+        assert.is_true(math.abs(rel_fit(xs[k]) - ys[k])
+          <= 0.05 * math.max(math.abs(ys[k]), 1e-3) * (1 + 1e-9))
       end
       assert.are.equal(rel_fit, r.chosen)
     end)
 
-    it("every sweep row obeys KVL and Ohm's law, and the measured column lies on the data", function()
+    it("every sweep row obeys KVL and Ohm's law, and the measured column lies on the "
+      .. "data", function()
       local xs, ys = read_csv("examples/data/rectifier_iv.csv")
       for k = 1, #ys do ys[k] = ys[k] * 1e-3 end
       assert.are.equal(18, #r.rows)
@@ -476,7 +487,8 @@ describe("segwise examples", function()
         near_rel(row.v_d * row.i, row.p_d, 1e-10, "P = v i")
         near_rel(r.chosen(row.v_d), row.i, 1e-10, "on the model")
         -- the Newton column: the load line meets the straight-line-joined data
-        local v = bisect(function(x) return (row.vs - x) / r.rl - interp(xs, ys, x) end, 0, math.min(row.vs, 1))
+        local v = bisect(function(x) return (row.vs - x) / r.rl - interp(xs, ys, x) end, 0,
+          math.min(row.vs, 1))
         assert.is.near(interp(xs, ys, v), row.i_data, 1e-9 + 1e-7 * row.i_data)
         -- model within its 5 % (1 mA floor) of the data: so is the current
         assert.is_true(math.abs(row.i - row.i_data) <= 0.05 * math.max(row.i_data, 1e-3))

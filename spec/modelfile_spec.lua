@@ -94,7 +94,8 @@ describe("segwise.pwl.load and model:save", function()
       local _, xu, yu = sw.pwl.load(path)
       assert.are.equal("m A", xu)
       assert.are.equal("k\tV", yu)
-      local m2, xu2 = sw.pwl.load(write("cr.csv", "# x unit: a\rb\nx,y_left,y_right\n0,0,0\n1,1,1\n"))
+      local m2, xu2 = sw.pwl.load(write("cr.csv",
+        "# x unit: a\rb\nx,y_left,y_right\n0,0,0\n1,1,1\n"))
       assert.are.equal("a b", xu2)
       m2:save(path, { x_unit = xu2 })
     end)
@@ -102,7 +103,8 @@ describe("segwise.pwl.load and model:save", function()
     -- fuzzer find: a CR right after "x unit:" loaded as a leading blank,
     -- which the next save and load dropped, so the units changed
     it("load what a save writes back when control bytes edge a unit", function()
-      local _, xu = sw.pwl.load(write("edge.csv", "# x unit:\r(V\t)\t\tby\r\nx,y_left,y_right\n0,0,0\n1,1,1\n"))
+      local _, xu = sw.pwl.load(write("edge.csv",
+        "# x unit:\r(V\t)\t\tby\r\nx,y_left,y_right\n0,0,0\n1,1,1\n"))
       assert.are.equal("(V\t)\t\tby", xu)
       local m = sw.pwl { x = { 0, 1 }, y = { 0, 1 } }
       m:save(dir .. "/edge2.csv", { x_unit = xu })
@@ -135,22 +137,30 @@ describe("segwise.pwl.load and model:save", function()
       local m = sw.pwl { x = { 0, 0.1 }, y = { 1 / 3, 0.2 } }
       local path = dir .. "/digits.csv"
       m:save(path)
-      assert.is_truthy(slurp(path):find(("0.10000000000000001,%.17g,%.17g"):format(0.2, 0.2), 1, true))
+      assert.is_truthy(slurp(path):find(("0.10000000000000001,%.17g,%.17g"):format(0.2, 0.2),
+        1, true))
     end)
   end)
 
   describe("load validates and names file:line", function()
     local head = "# segwise model\n# extend: line\nx,y_left,y_right\n"
     local cases = {
-      { "x not increasing", head .. "0,0,0\n2,1,1\n1,2,2\n", "bad1.csv:6: x must increase (1 here after 2 on line 5)" },
+      { "x not increasing", head .. "0,0,0\n2,1,1\n1,2,2\n",
+        "bad1.csv:6: x must increase (1 here after 2 on line 5)" },
       { "repeated x", head .. "0,0,0\n0,1,1\n", "bad2.csv:5: x must increase" },
-      { "first knot values differ", head .. "0,0,1\n1,1,1\n", "bad3.csv:4: at the first knot y_left (0) must equal y_right (1)" },
-      { "last knot values differ", head .. "0,0,0\n1,1,2\n", "bad4.csv:5: at the last knot y_left (1) must equal y_right (2)" },
+      { "first knot values differ", head .. "0,0,1\n1,1,1\n",
+        "bad3.csv:4: at the first knot y_left (0) must equal y_right (1)" },
+      { "last knot values differ", head .. "0,0,0\n1,1,2\n",
+        "bad4.csv:5: at the last knot y_left (1) must equal y_right (2)" },
       { "one knot", head .. "0,0,0\n", "bad5.csv:4: a model needs at least 2 knots (found 1)" },
-      { "unknown extension rule", "# extend: wrap\nx,y_left,y_right\n0,0,0\n1,1,1\n", 'bad6.csv:1: extend must be line, hold or error (found "wrap")' },
-      { "segment count disagrees", "# segments: 3\nx,y_left,y_right\n0,0,0\n1,1,1\n", "bad7.csv:1: the header says 3 segments but the file has 2 knots" },
-      { "missing column", "x,y\n0,0\n1,1\n", 'bad8.csv:1: no column named "y_left" (columns: "x", "y")' },
-      { "text in a number", head .. "0,0,0\n1,one,1\n", 'bad9.csv:5:3: column 2 ("y_left"): expected a number, found "one"' },
+      { "unknown extension rule", "# extend: wrap\nx,y_left,y_right\n0,0,0\n1,1,1\n",
+        'bad6.csv:1: extend must be line, hold or error (found "wrap")' },
+      { "segment count disagrees", "# segments: 3\nx,y_left,y_right\n0,0,0\n1,1,1\n",
+        "bad7.csv:1: the header says 3 segments but the file has 2 knots" },
+      { "missing column", "x,y\n0,0\n1,1\n",
+        'bad8.csv:1: no column named "y_left" (columns: "x", "y")' },
+      { "text in a number", head .. "0,0,0\n1,one,1\n",
+        'bad9.csv:5:3: column 2 ("y_left"): expected a number, found "one"' },
       { "ragged row", head .. "0,0,0\n1,1\n", "bad10.csv:5:4: row has 2 fields" },
       { "empty file", "", "bad11.csv:1:1: the file is empty" },
       { "binary junk", "\0\0\0\0", "bad12.csv:1:1: binary data (byte 0x00)" },
@@ -175,7 +185,8 @@ describe("segwise.pwl.load and model:save", function()
     end)
 
     it("a missing file names the path", function()
-      raises('segwise.pwl.load: cannot open "' .. dir .. '/none.csv"', sw.pwl.load, dir .. "/none.csv")
+      raises('segwise.pwl.load: cannot open "' .. dir .. '/none.csv"', sw.pwl.load,
+        dir .. "/none.csv")
     end)
     it("a path that is not a string is refused", function()
       raises("segwise.pwl.load: path must be a string", sw.pwl.load, {})
@@ -186,9 +197,11 @@ describe("segwise.pwl.load and model:save", function()
     local m = sw.pwl { x = { 0, 1 }, y = { 0, 1 } }
     it("refuses bad arguments", function()
       raises("bad argument", m.save, m, nil)
-      raises("segwise.model:save: unknown option 'unit'", m.save, m, dir .. "/u.csv", { unit = "A" })
+      raises("segwise.model:save: unknown option 'unit'", m.save, m, dir .. "/u.csv",
+        { unit = "A" })
       raises("x_unit must be a string", m.save, m, dir .. "/u.csv", { x_unit = 5 })
-      raises("y unit contains a control character", m.save, m, dir .. "/u.csv", { y_unit = "V\nx,1,2" })
+      raises("y unit contains a control character", m.save, m, dir .. "/u.csv",
+        { y_unit = "V\nx,1,2" })
       raises("argument #1 must be a segwise model", m.save, {}, dir .. "/u.csv")
     end)
 

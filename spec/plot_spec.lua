@@ -47,7 +47,9 @@ local function check_xml(s)
     elseif s:sub(i, i + 1) == "</" then
       local name, e = s:match("^</([%w_:%-%.]+)%s*>()", i)
       if not name then fail("bad end tag") end
-      if stack[#stack] ~= name then fail("</" .. name .. "> closes <" .. tostring(stack[#stack]) .. ">") end
+      if stack[#stack] ~= name then
+        fail("</" .. name .. "> closes <" .. tostring(stack[#stack]) .. ">")
+      end
       stack[#stack] = nil
       i = e
     else
@@ -83,12 +85,14 @@ end
 ----------------------------------------------------------------------------
 -- Minimal inflate (RFC 1951) for zlib streams (RFC 1950), after Mark
 -- Adler's puff: canonical Huffman codes decoded bit by bit.
-local LBASE = { 3, 4, 5, 6, 7, 8, 9, 10, 11, 13, 15, 17, 19, 23, 27, 31, 35, 43, 51, 59, 67, 83, 99, 115,
-  131, 163, 195, 227, 258 }
-local LEXT = { 0, 0, 0, 0, 0, 0, 0, 0, 1, 1, 1, 1, 2, 2, 2, 2, 3, 3, 3, 3, 4, 4, 4, 4, 5, 5, 5, 5, 0 }
-local DBASE = { 1, 2, 3, 4, 5, 7, 9, 13, 17, 25, 33, 49, 65, 97, 129, 193, 257, 385, 513, 769, 1025, 1537,
-  2049, 3073, 4097, 6145, 8193, 12289, 16385, 24577 }
-local DEXT = { 0, 0, 0, 0, 1, 1, 2, 2, 3, 3, 4, 4, 5, 5, 6, 6, 7, 7, 8, 8, 9, 9, 10, 10, 11, 11, 12, 12, 13, 13 }
+local LBASE = { 3, 4, 5, 6, 7, 8, 9, 10, 11, 13, 15, 17, 19, 23, 27, 31, 35, 43, 51, 59, 67, 83,
+  99, 115, 131, 163, 195, 227, 258 }
+local LEXT = { 0, 0, 0, 0, 0, 0, 0, 0, 1, 1, 1, 1, 2, 2, 2, 2, 3, 3, 3, 3, 4, 4, 4, 4, 5, 5,
+  5, 5, 0 }
+local DBASE = { 1, 2, 3, 4, 5, 7, 9, 13, 17, 25, 33, 49, 65, 97, 129, 193, 257, 385, 513, 769,
+  1025, 1537, 2049, 3073, 4097, 6145, 8193, 12289, 16385, 24577 }
+local DEXT = { 0, 0, 0, 0, 1, 1, 2, 2, 3, 3, 4, 4, 5, 5, 6, 6, 7, 7, 8, 8, 9, 9, 10, 10, 11, 11,
+  12, 12, 13, 13 }
 local CLORDER = { 16, 17, 18, 0, 8, 7, 9, 6, 10, 5, 11, 4, 12, 3, 13, 2, 14, 1, 15 }
 
 local function inflate_zlib(data)
@@ -216,7 +220,8 @@ local function decode_png(png)
     pos = pos + 12 + len
   end
   assert(depth == 8 and (ctype == 6 or ctype == 2) and interlace == 0,
-    "PNG type not handled by this check: depth " .. tostring(depth) .. ", colour type " .. tostring(ctype))
+    "PNG type not handled by this check: depth " .. tostring(depth) .. ", colour type "
+      .. tostring(ctype))
   local bpp = ctype == 6 and 4 or 3
   local raw = inflate_zlib(table.concat(idat))
   local stride = w * bpp
@@ -346,7 +351,8 @@ describe("segwise.plot", function()
 
   describe("svg", function()
     it("escapes XML special characters and drops forbidden controls", function()
-      assert.are.equal("a &amp; b &lt;c&gt; &quot;d&quot; &apos;e&apos;", plot.escape("a & b <c> \"d\" 'e'"))
+      assert.are.equal("a &amp; b &lt;c&gt; &quot;d&quot; &apos;e&apos;",
+        plot.escape("a & b <c> \"d\" 'e'"))
       assert.are.equal("ab", plot.escape("a\1b"))
     end)
 
@@ -411,8 +417,12 @@ describe("segwise.plot", function()
           if not colours[key] then colours[key] = true; ncol = ncol + 1 end
           if r == 255 and g == 255 and b == 255 then white = white + 1 end
           -- within 12 of the palette entries: lines really drawn in colour
-          if math.abs(r - 0) < 12 and math.abs(g - 114) < 12 and math.abs(b - 178) < 12 then blue = blue + 1 end
-          if math.abs(r - 213) < 12 and math.abs(g - 94) < 12 and math.abs(b - 0) < 12 then vermillion = vermillion + 1 end
+          if math.abs(r - 0) < 12 and math.abs(g - 114) < 12 and math.abs(b - 178) < 12 then
+            blue = blue + 1
+          end
+          if math.abs(r - 213) < 12 and math.abs(g - 94) < 12 and math.abs(b - 0) < 12 then
+            vermillion = vermillion + 1
+          end
         end
       end
       local total = (w // 2) * (h // 2)
@@ -456,7 +466,8 @@ describe("segwise.plot", function()
     end)
 
     it("takes y as a function of x (a callable model)", function()
-      local t = plot.svg_string { series = { { x = { 0, 1, 2 }, y = function(x) return x * x end } } }
+      local t = plot.svg_string {
+        series = { { x = { 0, 1, 2 }, y = function(x) return x * x end } } }
       assert.is_true(check_xml(t))
       assert.is_truthy(t:find(">4</text>", 1, true))
     end)
@@ -464,9 +475,13 @@ describe("segwise.plot", function()
     it("rejects bad specs, naming the series and element", function()
       assert.has_error(function() plot.svg_string { series = { { x = { 1, 2 }, y = { 1 } } } } end,
         "segwise.plot.svg: series 1: x has 2 values but y has 1")
-      assert.has_error(function() plot.svg_string { series = { { x = { 1, "a" }, y = { 1, 2 }, label = "d" } } } end,
+      assert.has_error(function()
+        plot.svg_string { series = { { x = { 1, "a" }, y = { 1, 2 }, label = "d" } } }
+      end,
         "segwise.plot.svg: series 1 ('d') x[2] must be a number (got string)")
-      assert.has_error(function() plot.svg_string { series = { { x = { 1 }, y = { 1 }, style = "bars" } } } end,
+      assert.has_error(function()
+        plot.svg_string { series = { { x = { 1 }, y = { 1 }, style = "bars" } } }
+      end,
         "segwise.plot.svg: series 1: style must be 'line', 'points' or 'step' (got bars)")
       assert.has_error(function() plot.svg_string { series = 3 } end,
         "segwise.plot.svg: spec.series must be a list of series")
@@ -582,7 +597,8 @@ describe("segwise.plot", function()
     end)
 
     it("takes the width from COLUMNS-style options and defaults sensibly", function()
-      local s = plot.term({ series = { { x = { 0, 1 }, y = { 0, 1 } } } }, { width = 40, height = 6, print = false })
+      local s = plot.term({ series = { { x = { 0, 1 }, y = { 0, 1 } } } },
+        { width = 40, height = 6, print = false })
       for line in s:gmatch("[^\n]+") do assert.is_true(utf8.len(line) <= 40) end
       local term = require "segwise.plot.term"
       local c = term.columns()
@@ -590,7 +606,8 @@ describe("segwise.plot", function()
     end)
 
     it("a rising line climbs from bottom left to top right", function()
-      local s = plot.term({ series = { { x = { 0, 1 }, y = { 0, 1 } } } }, { width = 40, height = 8, print = false })
+      local s = plot.term({ series = { { x = { 0, 1 }, y = { 0, 1 } } } },
+        { width = 40, height = 8, print = false })
       local rows = {}
       for line in s:gmatch("[^\n]+") do
         if #rows < 8 then rows[#rows + 1] = line end       -- the 8 plot rows come first
@@ -617,7 +634,8 @@ describe("segwise.plot", function()
       local written = {}
       local real = io.write
       io.write = function(...) for _, v in ipairs { ... } do written[#written + 1] = v end end
-      local ok, s = pcall(plot.term, { series = { { x = { 0, 1 }, y = { 1, 0 } } } }, { width = 40, height = 5 })
+      local ok, s = pcall(plot.term, { series = { { x = { 0, 1 }, y = { 1, 0 } } } },
+        { width = 40, height = 5 })
       io.write = real
       assert.is_true(ok, s)
       assert.are.equal(s, table.concat(written))
@@ -651,7 +669,8 @@ describe("segwise.plot", function()
     { __call = function(_, x) return x * x end })
 
   describe("fit_spec", function()
-    it("samples the curve over the first model's knots and draws models through their knots", function()
+    it("samples the curve over the first model's knots and draws models through their "
+      .. "knots", function()
       local s = plot.fit_spec(curve, { { name = "abs", model = model } }, { n = 31 })
       assert.are.equal(2, #s.series)
       local c = s.series[1]

@@ -97,7 +97,8 @@ describe("issue 11, Lua side", function()
 
     it("warns which devices kept their PWL model when only some have a curve", function()
       local net = sw.network():vsource("VS", "in", "0", 5):resistor("RA", "in", "a", 1000)
-      net:element("DIODE", "a", "b", sw.fit(law, { lo = 0.5, hi = 1.2, segments = 8 }), { exact = law })
+      net:element("DIODE", "a", "b", sw.fit(law, { lo = 0.5, hi = 1.2, segments = 8 }),
+        { exact = law })
       net:element("DIODE2", "b", "0", sw.fit(law, { lo = 0.5, hi = 1.2, segments = 8 }))
       local op = net:solve { exact = true }
       local found
@@ -113,20 +114,21 @@ describe("issue 11, Lua side", function()
     local rows = { { v = 0.7, i = 0.0021 } }
 
     it("rejects a misspelt report.table option, listing the known ones", function()
-      local err = raises("segwise.report.table: unknown option 'formt'", sw.report.table, rows, { "v" },
-        { formt = "csv" })
+      local err = raises("segwise.report.table: unknown option 'formt'", sw.report.table, rows,
+        { "v" }, { formt = "csv" })
       assert.is_truthy(err:find("format", 1, true) and err:find("digits", 1, true), err)
     end)
 
     it("rejects a column naming a key no row has, listing the row keys", function()
-      local err = raises("segwise.report.table: column 2 ('I')", sw.report.table, rows, { "v", "I" })
+      local err = raises("segwise.report.table: column 2 ('I')", sw.report.table, rows,
+        { "v", "I" })
       assert.is_truthy(err:find("i, v", 1, true), err)
       raises("column 1 ('i.DIODE')", sw.report.table, { { i = { RA = 1 } } }, { "i.DIODE" })
     end)
 
     it("rejects a misspelt column field, naming the column", function()
-      local err = raises("segwise.report.table: column 2: unknown field 'units'", sw.report.table, rows,
-        { "v", { name = "i", units = "A" } })
+      local err = raises("segwise.report.table: column 2: unknown field 'units'",
+        sw.report.table, rows, { "v", { name = "i", units = "A" } })
       assert.is_truthy(err:find("si, unit)", 1, true), err)
     end)
 
@@ -138,11 +140,14 @@ describe("issue 11, Lua side", function()
 
     it("checks the ready-made reports and json too", function()
       local m = sw.pwl { x = { 0, 1, 2 }, y = { 0, 1, 4 } }
-      raises("segwise.report.fit_table: unknown option 'formt'", sw.report.fit_table, m, { formt = "csv" })
+      raises("segwise.report.fit_table: unknown option 'formt'", sw.report.fit_table, m,
+        { formt = "csv" })
       local op = supply_circuit():solve()
-      raises("segwise.report.op_table: unknown option 'grond'", sw.report.op_table, op, { grond = true })
+      raises("segwise.report.op_table: unknown option 'grond'", sw.report.op_table, op,
+        { grond = true })
       raises("segwise.report.compare_fits: unknown option 'sortby'", sw.report.compare_fits,
-        { { name = "a", model = m } }, sw.curve.samples({ 0, 1, 2 }, { 0, 1, 4 }), { sortby = "rms" })
+        { { name = "a", model = m } }, sw.curve.samples({ 0, 1, 2 }, { 0, 1, 4 }),
+        { sortby = "rms" })
       raises("segwise.report.json: unknown option 'ful'", sw.report.json, { 1 }, { ful = true })
     end)
 
@@ -156,7 +161,8 @@ describe("issue 11, Lua side", function()
   describe("Monte Carlo statistics", function()
     -- spreads so small that sum-of-squares formulas cancel
     for _, spread in ipairs { 1e-6, 1e-8 } do
-      it(("agrees with a two-pass sd at a relative spread of %g (table form)"):format(spread), function()
+      it(("agrees with a two-pass sd at a relative spread of %g "
+        .. "(table form)"):format(spread), function()
         local net = supply_circuit(5, 1000)
         local mc = net:montecarlo({ RA = spread }, { runs = 400, seed = 11 })
         for _, key in ipairs { "i", "v", "p" } do
@@ -187,7 +193,8 @@ describe("issue 11, Lua side", function()
   describe("Monte Carlo tolerances that would make a resistor non-positive", function()
     it("refuses a uniform tolerance of 1 or more before the first run, naming it", function()
       local net = supply_circuit()
-      local err = raises("segwise.network:montecarlo: RA", net.montecarlo, net, { RA = 1 }, { runs = 10 })
+      local err = raises("segwise.network:montecarlo: RA", net.montecarlo, net, { RA = 1 },
+        { runs = 10 })
       assert.is_falsy(err:find("run %d"), err)
       raises("tolerance 1.5", net.montecarlo, net, { RA = { tol = 1.5 } }, { runs = 10 })
     end)
@@ -224,7 +231,8 @@ describe("issue 11, Lua side", function()
 
     it("labels an i(v) model's Thevenin columns in volts and ohms", function()
       local m = diode_model() -- i(v): segment 2 is i = 1e-4 + 0.0995 (v - 0.6)
-      local rows = csv_rows(sw.report.fit_table(m, { x = "V", y = "A", format = "csv", full = true }))
+      local rows = csv_rows(sw.report.fit_table(m,
+        { x = "V", y = "A", format = "csv", full = true }))
       local s = m:seg(2)
       -- v = -a/b + i/b for i = a + b v (algebra)
       assert.is.near(-s.intercept / s.slope, rows[2]["e (V)"], 1e-12)
@@ -238,7 +246,8 @@ describe("issue 11, Lua side", function()
 
     it("labels a v(i) model's Thevenin columns as its own slope and intercept", function()
       local m = sw.pwl { x = { 0, 0.01, 0.1 }, y = { 0.5, 0.7, 0.9 } } -- v(i)
-      local rows = csv_rows(sw.report.fit_table(m, { x = "A", y = "V", format = "csv", full = true }))
+      local rows = csv_rows(sw.report.fit_table(m,
+        { x = "A", y = "V", format = "csv", full = true }))
       local s = m:seg(2)
       assert.is.near(s.intercept, rows[2]["e (V)"], 1e-15)
       assert.is.near(s.slope, rows[2]["r (Ω)"], 1e-12)
@@ -255,7 +264,8 @@ describe("issue 11, Lua side", function()
       assert.is_truthy(tostring(t):find("re-assign: DIODE -> segment 2", 1, true), tostring(t))
     end)
 
-    -- an NDR model (invented): the load line of 0.38 V / 1 ohm crosses it at 0.095, 0.18 and 0.312 V
+    -- an NDR model (invented): the load line of 0.38 V / 1 ohm crosses it at 0.095, 0.18
+    -- and 0.312 V
     local function ndr_circuit()
       local m = sw.pwl { x = { 0, 0.1, 0.3, 0.6 }, y = { 0, 0.3, 0.05, 0.5 } }
       return sw.network():vsource("VS", "in", "0", 0.38):resistor("RA", "in", "a", 1)
@@ -286,7 +296,8 @@ describe("issue 11, Lua side", function()
       for line in block:gmatch("[^\n]+") do
         for cell in line:gmatch("%S+") do
           -- a unit-free number or a dash: the unit is in the header
-          assert.is_truthy(tonumber(cell) or cell == "\u{2014}", ("cell %q in %q"):format(cell, line))
+          assert.is_truthy(tonumber(cell) or cell == "\u{2014}",
+            ("cell %q in %q"):format(cell, line))
         end
       end
     end)
@@ -308,7 +319,9 @@ describe("issue 11, Lua side", function()
       local net = string_of_cells(8)
       local op = net:solve()
       local n = 0
-      for _, w in ipairs(op.warnings) do if w:find("outside its model's knots", 1, true) then n = n + 1 end end
+      for _, w in ipairs(op.warnings) do
+        if w:find("outside its model's knots", 1, true) then n = n + 1 end
+      end
       assert.are.equal(8, n)
       -- the worst: the largest distance beyond the 0.6 V knot
       local worst, far = nil, -1
@@ -318,7 +331,9 @@ describe("issue 11, Lua side", function()
       end
       local text = sw.report.op_table(op)
       local lines = {}
-      for l in text:gmatch("[^\n]+") do if l:find("knots", 1, true) then lines[#lines + 1] = l end end
+      for l in text:gmatch("[^\n]+") do
+        if l:find("knots", 1, true) then lines[#lines + 1] = l end
+      end
       assert.are.equal(1, #lines, text)
       assert.is_truthy(lines[1]:find("8 devices", 1, true), lines[1])
       assert.is_truthy(lines[1]:find("worst " .. worst, 1, true), lines[1])
