@@ -38,7 +38,8 @@ describe("segwise.array", function()
       { "a negative size", -1, "size -1 is negative" },
       { "a fractional size", 2.5, "size 2.5 is not a whole number" },
       { "an absurd size (fails at once, allocating nothing)", 1e12, "is more than the limit" },
-      { "a string", "abc", "bad argument #1 (a size, a table of numbers or an array expected, got string)" },
+      { "a string", "abc",
+        "bad argument #1 (a size, a table of numbers or an array expected, got string)" },
       { "nil", nil, "got nil" },
       { "a table with a string", { 1, "x", 3 }, "element [2] must be a number (got string)" },
       { "a table with NaN", { 1, 2, 0 / 0 }, "element [3] is not finite" },
@@ -64,14 +65,17 @@ describe("segwise.array", function()
     local bad = {
       { "get index 0", function(a) return a[0] end, "index 0 out of range 1..3" },
       { "get past the end", function(a) return a[4] end, "index 4 out of range 1..3" },
-      { "get a fractional index", function(a) return a[1.5] end, "index 1.5 is not a whole number" },
+      { "get a fractional index",
+        function(a) return a[1.5] end, "index 1.5 is not a whole number" },
       { "set index 0", function(a) a[0] = 1 end, "index 0 out of range 1..3" },
       { "set past the end", function(a) a[4] = 1 end, "index 4 out of range 1..3" },
       { "set a string key", function(a) a.x = 1 end, "index must be a whole number (got string)" },
-      { "get a boolean key", function(a) return a[true] end, "index must be a whole number (got boolean)" },
+      { "get a boolean key",
+        function(a) return a[true] end, "index must be a whole number (got boolean)" },
       { "set NaN", function(a) a[2] = 0 / 0 end, "value for [2] is not finite" },
       { "set infinity", function(a) a[3] = math.huge end, "value for [3] is not finite" },
-      { "set a string", function(a) a[1] = "1x" end, "value for [1] must be a number (got string)" },
+      { "set a string",
+        function(a) a[1] = "1x" end, "value for [1] must be a number (got string)" },
       { "set nil", function(a) a[1] = nil end, "value for [1] must be a number (got nil)" },
     }
     for _, case in ipairs(bad) do
@@ -161,7 +165,8 @@ describe("segwise.array", function()
     it("elides long arrays", function()
       local a = sw.array(100)
       for i = 1, 100 do a[i] = i end
-      assert.are.equal("segwise.array(100): {1.0, 2.0, 3.0, 4.0, 5.0, 6.0, ..., 100.0}", tostring(a))
+      assert.are.equal("segwise.array(100): {1.0, 2.0, 3.0, 4.0, 5.0, 6.0, ..., 100.0}",
+        tostring(a))
     end)
   end)
 
@@ -185,7 +190,8 @@ describe("segwise.array", function()
     end)
     it("names the file line and column on errors", function()
       raises('col.csv:1: no column named "V" (columns: "t_s", "V_mV")', sw.array.read, path, "V")
-      raises("segwise.array.read: scale must be finite and non-zero", sw.array.read, path, 1, { scale = 0 })
+      raises("segwise.array.read: scale must be finite and non-zero", sw.array.read, path, 1,
+        { scale = 0 })
       raises("unknown option 'scal'", sw.array.read, path, 1, { scal = 2 })
       raises("path must be a string", sw.array.read, nil)
       raises('cannot open "' .. dir .. '/none.csv"', sw.array.read, dir .. "/none.csv")

@@ -27,7 +27,8 @@ local function runnable_blocks(text)
     elseif line:match("^```%s*$") then
       inside = false
       local lang, rest = info:match("^(%S*)%s*(.*)$")
-      local marked = lang == "lua" and (rest:match("^run%f[%W]") ~= nil or (buf[1] or ""):match("^%-%-%s*run%s*$") ~= nil)
+      local marked = lang == "lua" and (rest:match("^run%f[%W]") ~= nil
+        or (buf[1] or ""):match("^%-%-%s*run%s*$") ~= nil)
       if marked then blocks[#blocks + 1] = { code = table.concat(buf, "\n"), line = start } end
     else
       buf[#buf + 1] = line
@@ -64,7 +65,9 @@ local function public_names()
   local function methods(tbl, obj, what)
     local keys = {}
     for k, v in pairs(tbl) do
-      if type(k) == "string" and type(v) == "function" and not k:match("^__") then keys[#keys + 1] = k end
+      if type(k) == "string" and type(v) == "function" and not k:match("^__") then
+        keys[#keys + 1] = k
+      end
     end
     table.sort(keys)
     for _, k in ipairs(keys) do add(what .. ":" .. k, obj .. ":" .. k) end
@@ -150,7 +153,8 @@ describe("docs/API.md", function()
     end)
 
     it("notices a name that is missing", function()
-      local probe = { { label = "sw.fit", forms = { "sw.fit" } }, { label = "m:seg", forms = { "m:seg" } } }
+      local probe = { { label = "sw.fit", forms = { "sw.fit" } },
+                      { label = "m:seg", forms = { "m:seg" } } }
       assert.are.same({ "sw.fit", "m:seg" }, missing_names("sw.fitting and m:segment only", probe))
       assert.are.same({}, missing_names("sw.fit(c) and m:seg(k)", probe))
     end)

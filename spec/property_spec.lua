@@ -337,7 +337,11 @@ describe("segwise properties", function()
           end
           local opts = { lo = lo, hi = hi, criterion = criteria[math.random(#criteria)],
                          knots = schemes[math.random(#schemes)] }
-          if math.random() < 0.3 then opts.tol = r(0.01, 0.5) else opts.segments = math.random(1, 6) end
+          if math.random() < 0.3 then
+            opts.tol = r(0.01, 0.5)
+          else
+            opts.segments = math.random(1, 6)
+          end
           local ok, m = pcall(sw.fit, curve, opts)
           if ok then
             local claimed = m:fit_info().max_abs
@@ -374,7 +378,8 @@ describe("segwise properties", function()
           local E = sw.fit(c, { segments = segs, continuous = cont }):fit_info().max_abs
           local below = sw.fit(c, { tol = E * (1 - 1e-3), continuous = cont }):nseg()
           local above = sw.fit(c, { tol = E * (1 + 1e-3), continuous = cont }):nseg()
-          assert.are.equal(segs + 1, below, ("continuous %s, %d segments"):format(tostring(cont), segs))
+          assert.are.equal(segs + 1, below,
+            ("continuous %s, %d segments"):format(tostring(cont), segs))
           assert.are.equal(segs, above, ("continuous %s, %d segments"):format(tostring(cont), segs))
         end
       end)

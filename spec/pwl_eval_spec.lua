@@ -52,7 +52,8 @@ end
 local function jumping_model(x, extend)
   local segs = {}
   for k = 1, #x - 1 do
-    segs[k] = { lo = x[k], hi = x[k + 1], slope = math.random() * 6 - 3, intercept = math.random() * 4 - 2 }
+    segs[k] = { lo = x[k], hi = x[k + 1], slope = math.random() * 6 - 3,
+                intercept = math.random() * 4 - 2 }
   end
   return sw.pwl.segments(segs, { extend = extend })
 end
@@ -90,7 +91,8 @@ describe("segwise.pwl", function()
     local kinds = { "uniform", "uneven", "wild" }
     local sizes = { 1, 3, 4, 5, 8, 17, 64, 300, 3000 }
 
-    it("agrees bit for bit with scalar evaluation (continuous, every rule, random and sorted)", function()
+    it("agrees bit for bit with scalar evaluation (continuous, every rule, random and "
+      .. "sorted)", function()
       local cases = 0
       for _, kind in ipairs(kinds) do
         for _, nseg in ipairs(sizes) do
@@ -101,8 +103,9 @@ describe("segwise.pwl", function()
               local pts = make_points(x, 400, extend ~= "error", sorted, true)
               local ys = m:eval(pts)
               local i, want, got = first_mismatch(m, pts, ys)
-              assert.is_nil(i, ("%s knots, %d segments, extend %s, sorted %s: point %s (x = %.17g) gave %.17g, scalar %.17g")
-                :format(kind, nseg, extend, tostring(sorted), tostring(i), i and pts[i] or 0, got or 0, want or 0))
+              assert.is_nil(i, ("%s knots, %d segments, extend %s, sorted %s: point %s "
+                .. "(x = %.17g) gave %.17g, scalar %.17g"):format(kind, nseg, extend,
+                tostring(sorted), tostring(i), i and pts[i] or 0, got or 0, want or 0))
               cases = cases + 1
             end
           end
@@ -177,7 +180,8 @@ describe("segwise.pwl", function()
           local yt = m:eval(pts)
           for i = 1, #pts do
             if not same(ya[i], yt[i]) then
-              error(("%s sorted=%s: array and table differ at %d"):format(kind, tostring(sorted), i))
+              error(("%s sorted=%s: array and table differ at %d"):format(kind,
+                tostring(sorted), i))
             end
           end
           assert.is_nil(first_mismatch(m, pts, yt))
@@ -198,7 +202,8 @@ describe("segwise.pwl", function()
           assert.are.equal(a, m:eval(a, a)) -- in place: each x[i] is read before y[i] is written
           for i = 1, #pts do
             if not (same(want[i], out[i]) and same(want[i], a[i])) then
-              error(("%s sorted=%s: into an array or in place differs at %d"):format(kind, tostring(sorted), i))
+              error(("%s sorted=%s: into an array or in place differs at %d"):format(kind,
+                tostring(sorted), i))
             end
           end
           assert.are.equal(0, out[#pts + 1]) -- beyond the input: untouched
@@ -215,7 +220,8 @@ describe("segwise.pwl", function()
       assert.is_nil(first_mismatch(m, pts, m:eval(pts)))
     end)
 
-    it("gives the knot values exactly at the knots (linear interpolation, common practice)", function()
+    it("gives the knot values exactly at the knots (linear interpolation, common "
+      .. "practice)", function()
       for _, kind in ipairs(kinds) do
         local x = make_knots(64, kind)
         local m, y = continuous_model(x, "error")

@@ -146,7 +146,8 @@ describe("segwise.pwl", function()
       assert.are.same({ 1, 2 }, beta)
     end)
     it("needs a continuous model", function()
-      local d = sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 }, { lo = 1, hi = 2, slope = 0, intercept = 3 } }
+      local d = sw.pwl.segments { { lo = 0, hi = 1, slope = 1, intercept = 0 },
+                                  { lo = 1, hi = 2, slope = 0, intercept = 3 } }
       assert.has_error(function() d:canonical() end)
     end)
   end)
@@ -183,7 +184,8 @@ describe("segwise.pwl", function()
     end)
 
     it("passes a curve function's error through", function()
-      local c = sw.curve.fn(function(x) if x > 0.5 then error("probe fault") end return x end, { lo = 0, hi = 1 })
+      local c = sw.curve.fn(function(x) if x > 0.5 then error("probe fault") end return x end,
+        { lo = 0, hi = 1 })
       local ok, msg = pcall(m.compare, m, c)
       assert.is_false(ok); assert.matches("probe fault", msg)
     end)

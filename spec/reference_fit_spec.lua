@@ -72,7 +72,8 @@ describe("segwise.fit reference values", function()
     end)
 
     it("is x + 1/8 for a Lua function with numeric derivatives", function()
-      local m = sw.fit(sw.curve.fn(math.sqrt, { lo = 0, hi = 1 }), { segments = 1, knots = "uniform" })
+      local m = sw.fit(sw.curve.fn(math.sqrt, { lo = 0, hi = 1 }),
+        { segments = 1, knots = "uniform" })
       assert.is.near(1, m:seg(1).slope, 1e-6)
       assert.is.near(0.125, m:seg(1).intercept, 1e-6)
     end)
@@ -100,7 +101,8 @@ describe("segwise.fit reference values", function()
         local info = m:fit_info()
         assert.is.near(E, info.max_abs, 5e-3 * E)  -- grid-placed knots: within 0.5 %
         assert.is_true(info.max_abs >= E * (1 - 1e-9)) -- nothing beats the optimum
-        assert.are.equal(2 * n + 1, alternations(m, function(v) return IS * (math.exp(v / VT) - 1) end,
+        assert.are.equal(2 * n + 1, alternations(m,
+          function(v) return IS * (math.exp(v / VT) - 1) end,
           0.3, 0.7, info.max_abs, 0.02))
       end)
     end
@@ -156,7 +158,9 @@ describe("segwise.fit reference values", function()
       for k, range in ipairs { { xs[1], 0.5 }, { 0.5, xs[#xs] + 1 } } do
         local n, sx, sy = 0, 0, 0
         for i = 1, #xs do
-          if xs[i] >= range[1] and xs[i] < range[2] then n = n + 1; sx = sx + xs[i]; sy = sy + ys[i] end
+          if xs[i] >= range[1] and xs[i] < range[2] then
+            n = n + 1; sx = sx + xs[i]; sy = sy + ys[i]
+          end
         end
         local mx, my, sxx, sxy = sx / n, sy / n, 0, 0
         for i = 1, #xs do
@@ -207,7 +211,8 @@ describe("segwise.fit reference values", function()
     -- The L2-best line to x^2 on [0, 1] is x - 1/6 (orthogonal projection
     -- onto {1, x}; Legendre polynomials shifted to [0, 1], common practice).
     it("projects a law in L2: x^2 on [0, 1] gives x - 1/6", function()
-      local m = sw.fit(sw.curve.power { k = 1, n = 2 }, { lo = 0, hi = 1, criterion = "lsq", segments = 1 })
+      local m = sw.fit(sw.curve.power { k = 1, n = 2 },
+        { lo = 0, hi = 1, criterion = "lsq", segments = 1 })
       assert.is.near(1, m:seg(1).slope, 1e-5)
       assert.is.near(-1 / 6, m:seg(1).intercept, 1e-5)
     end)
@@ -278,7 +283,8 @@ describe("segwise.fit reference values", function()
     end
 
     for seed = 1, 6 do
-      it(("no discontinuous model with one segment fewer meets tol (seed %d)"):format(seed), function()
+      it(("no discontinuous model with one segment fewer meets tol "
+        .. "(seed %d)"):format(seed), function()
         local xs, ys, s = {}, {}, seed
         for i = 1, 11 do
           s = (1103515245 * s + 12345) % 2147483648
@@ -498,7 +504,9 @@ describe("segwise.fit reference values: wide range with a steep knee", function(
 
   describe("with a series resistance (the knee turns into a line)", function()
     local is, rs = 2e-6, 0.02
-    local function knee() return sw.curve.diode { is = is, n = 1.1, vt = 0.02585, rs = rs, x = "v" } end
+    local function knee()
+      return sw.curve.diode { is = is, n = 1.1, vt = 0.02585, rs = rs, x = "v" }
+    end
     -- i = is (exp((v - i rs)/nvt) - 1) solved here by bisection (the residual
     -- falls with i; the root lies between -is and max(v, 0)/rs).
     local function current(v)

@@ -223,7 +223,9 @@ describe("segwise.network reference", function()
       net:element("DIODE", "a", "0", sw.pwl { x = xs, y = ys }, { exact = law })
       local pw = net:solve()
       local ex = net:solve { exact = true }
-      local iref = H.bisect(function(i) return is * (math.exp((E - i * R) / (n * vt)) - 1) - i end, 0, E / R)
+      local iref = H.bisect(function(i)
+        return is * (math.exp((E - i * R) / (n * vt)) - 1) - i
+      end, 0, E / R)
       assert.is.near(iref, ex.i.DIODE, 1e-12 * iref)
       assert.is.near(E - iref * R, ex.vd.DIODE, 1e-11)
       -- the PWL point is close but not equal: the chord model errs by a few percent
@@ -232,7 +234,8 @@ describe("segwise.network reference", function()
       H.check_kirchhoff(net, pw)
     end)
 
-    it("a device given as v(i) with its own series resistance (Newton on v = n Vt ln(1 + i/Is) + Rs i)", function()
+    it("a device given as v(i) with its own series resistance (Newton on v = n Vt ln(1 + i/Is) "
+      .. "+ Rs i)", function()
       local is, n, vt, rs, E, R = 1e-14, 1, 0.025852, 2, 3, 100
       local law = sw.curve.diode { is = is, n = n, vt = vt, rs = rs, x = "i" }
       local xs, ys = {}, {}
@@ -246,7 +249,9 @@ describe("segwise.network reference", function()
       net:element("DIODE", "a", "0", sw.pwl { x = xs, y = ys }, { x = "i", exact = law })
       local ex = net:solve { exact = true }
       -- independent: bisection on E = R i + n Vt ln(1 + i/Is) + Rs i
-      local iref = H.bisect(function(i) return R * i + n * vt * math.log(1 + i / is) + rs * i - E end, 0, E / R)
+      local iref = H.bisect(function(i)
+        return R * i + n * vt * math.log(1 + i / is) + rs * i - E
+      end, 0, E / R)
       assert.is.near(iref, ex.i.DIODE, 1e-12 * iref)
       H.check_kirchhoff(net, net:solve())
     end)

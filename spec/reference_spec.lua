@@ -89,7 +89,9 @@ describe("segwise reference checks", function()
     -- 65 (1977): y = a + b x + sum c_i |x - beta_i| with c_i half the slope
     -- change at beta_i and b the mean of the end slopes.
     local seed = 12345
-    local function rand() seed = (seed * 1103515245 + 12345) % 2147483648; return seed / 2147483648 end
+    local function rand()
+      seed = (seed * 1103515245 + 12345) % 2147483648; return seed / 2147483648
+    end
     for _ = 1, 20 do
       local xs, ys, x = {}, {}, -3
       for k = 1, 2 + math.floor(rand() * 8) do

@@ -19,7 +19,8 @@ if not ok_n then
   os.exit(1)
 end
 if not closed_ok and fail_n + err_n == 0 then
-  io.stderr:write(("spec/run.lua: the run exited with status %s although every spec passed (a sanitizer or valgrind report above?)\n"):format(tostring(code)))
+  io.stderr:write(("spec/run.lua: the run exited with status %s although every spec passed "
+    .. "(a sanitizer or valgrind report above?)\n"):format(tostring(code)))
 end
 print(string.format("%d passed, %d failed", ok_n, fail_n + err_n))
 os.exit((fail_n + err_n == 0 and closed_ok) and 0 or 1)

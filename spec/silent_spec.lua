@@ -13,19 +13,23 @@ describe("segwise: nothing silently ignored", function()
   end)
 
   it("a list of pairs still works, in any order", function()
-    local m = sw.fit(law, { lo = 0.2, hi = 0.8, through = { { 0.7, law(0.7) }, { 0.5, law(0.5) } } })
+    local m = sw.fit(law,
+      { lo = 0.2, hi = 0.8, through = { { 0.7, law(0.7) }, { 0.5, law(0.5) } } })
     assert.is.near(law(0.5), m(0.5), 1e-12)  -- the model passes through both points
     assert.is.near(law(0.7), m(0.7), 1e-12)
   end)
 
   it("a bad knot scheme name is quoted in the message", function()
-    assert.matches('or a list %(got "bogus"%)', errmsg(sw.fit, law, { lo = 0.2, hi = 0.8, knots = "bogus" }))
+    assert.matches('or a list %(got "bogus"%)',
+      errmsg(sw.fit, law, { lo = 0.2, hi = 0.8, knots = "bogus" }))
   end)
 
   it("one owner for the defaults: minimax and lsq default to optimal knots", function()
     assert.are.equal("optimal", sw.fit(law, { lo = 0.2, hi = 0.8 }):fit_info().knots)
-    assert.are.equal("optimal", sw.fit(law, { lo = 0.2, hi = 0.8, criterion = "lsq" }):fit_info().knots)
-    assert.are.equal("uniform", sw.fit(law, { lo = 0.2, hi = 0.8, criterion = "interp" }):fit_info().knots)
+    assert.are.equal("optimal",
+      sw.fit(law, { lo = 0.2, hi = 0.8, criterion = "lsq" }):fit_info().knots)
+    assert.are.equal("uniform",
+      sw.fit(law, { lo = 0.2, hi = 0.8, criterion = "interp" }):fit_info().knots)
   end)
 
   it("a knot list without the range ends gets them", function()

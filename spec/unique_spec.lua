@@ -94,7 +94,8 @@ describe("segwise.network uniqueness", function()
       assert.truthy(op.unique_reason:find("enumeration of all 4 segment combinations", 1, true))
     end)
 
-    it("refuses the theorem for a controlled source; a diagonally dominant LCP matrix proves it", function()
+    it("refuses the theorem for a controlled source; a diagonally dominant LCP matrix proves "
+      .. "it", function()
       -- a gain-4 buffer (a controlled source) drives a 12-device ladder:
       -- 3^12 states are too many to enumerate in the verdict, so the proof is
       -- the LCP matrix's (n = 24 > 12: the diagonal dominance test)
@@ -111,12 +112,14 @@ describe("segwise.network uniqueness", function()
       for _, method in ipairs { "auto", "assumed", "lcp" } do
         local op = net:solve { method = method }
         assert.is_true(op.unique, method)
-        assert.truthy(op.unique_reason:find("P-matrix (strictly diagonally dominant", 1, true), method)
+        assert.truthy(op.unique_reason:find("P-matrix (strictly diagonally dominant", 1, true),
+          method)
         assert.are.equal("stable", op.stability)
       end
     end)
 
-    it("counts a vccs across its own terminals as a conductance, and no other controlled source", function()
+    it("counts a vccs across its own terminals as a conductance, and no other controlled "
+      .. "source", function()
       local model = sw.pwl { x = { 0, 0.6, 0.8 }, y = { 0, 1e-4, 0.02 } }
       local function circuit(gm, cp, cm)
         local net = sw.network()
@@ -130,7 +133,8 @@ describe("segwise.network uniqueness", function()
       end
       -- 1 mS across its own terminals, either way round
       assert.truthy(circuit(1e-3, "a", "0").unique_reason:find("monotone network theorem", 1, true))
-      assert.truthy(circuit(-1e-3, "0", "a").unique_reason:find("monotone network theorem", 1, true))
+      assert.truthy(circuit(-1e-3, "0", "a").unique_reason:find("monotone network theorem",
+        1, true))
       -- a negative conductance, or a control taken elsewhere: outside the theorem
       -- (these small circuits are then settled by enumeration)
       for _, op in ipairs { circuit(-1e-3, "a", "0"), circuit(1e-3, "b", "0") } do

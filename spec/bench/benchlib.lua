@@ -29,11 +29,13 @@ function B.setup()
   local fh = io.open("/usr/bin/python3")
   local py = fh and "/usr/bin/python3" or "python3"
   if fh then fh:close() end
-  local okp, ver = sh(py .. " -c 'import numpy, scipy; print(numpy.__version__, scipy.__version__)'")
+  local okp, ver = sh(py .. " -c 'import numpy, scipy; "
+    .. "print(numpy.__version__, scipy.__version__)'")
   if okp then
     B.python, B.numpy_version = py, ver:gsub("%s+$", "")
   else
-    B.note("python3-numpy/scipy not importable: numpy and scipy peers skipped (" .. ver:gsub("%s+$", "") .. ")")
+    B.note("python3-numpy/scipy not importable: numpy and scipy peers skipped ("
+      .. ver:gsub("%s+$", "") .. ")")
   end
 end
 
@@ -139,7 +141,8 @@ end
 
 -- A table row: section, case, size, side, seconds, extra.
 function B.row(section, case, size, side, seconds, extra)
-  B.rows[#B.rows + 1] = { section = section, case = case, size = size, side = side, seconds = seconds, extra = extra or "" }
+  B.rows[#B.rows + 1] = { section = section, case = case, size = size, side = side,
+                          seconds = seconds, extra = extra or "" }
 end
 
 function B.machine()
@@ -154,7 +157,8 @@ function B.machine()
   local _, mem = sh("awk '/MemTotal/ {printf \"%.1f GiB\", $2/1048576}' /proc/meminfo")
   local _, kernel = sh("uname -sr")
   return {
-    cpu = cpu, nproc = np:gsub("%s+$", ""), mem = mem:gsub("%s+$", ""), kernel = kernel:gsub("%s+$", ""),
+    cpu = cpu, nproc = np:gsub("%s+$", ""), mem = mem:gsub("%s+$", ""),
+    kernel = kernel:gsub("%s+$", ""),
   }
 end
 
@@ -178,7 +182,8 @@ function B.markdown(date, machine)
   local function add(s) out[#out + 1] = s end
   add("# segwise benchmark results")
   add("")
-  add(("Run %s on %s, %s CPUs (nproc), %s RAM, %s; %s; median of %d rounds, A B A B; times are process CPU time.")
+  add(("Run %s on %s, %s CPUs (nproc), %s RAM, %s; %s; median of %d rounds, A B A B; "
+    .. "times are process CPU time.")
     :format(date, machine.cpu, machine.nproc, machine.mem, machine.kernel, _VERSION, B.rounds))
   if B.numpy_version then add(("Peers: numpy/scipy %s (Debian python3), GSL %s.")
     :format(B.numpy_version:gsub(" ", "/"), machine.gsl or "?")) end

@@ -49,6 +49,7 @@ return function(B)
     B.row("capacity", ("ladder of %s devices, one solve"):format(case[3]), n,
       ("segwise net:solve{method = \"%s\"}"):format(case[1]), t,
       ("largest ladder solved within %.0f s"):format(LIMIT))
-    B.note(("capacity: method = \"%s\" solves a ladder of %d %s devices in %.2f s"):format(case[1], n, case[3], t))
+    B.note(("capacity: method = \"%s\" solves a ladder of %d %s devices in %.2f s"):format(
+      case[1], n, case[3], t))
   end
 end

@@ -56,7 +56,8 @@ local function run_case(B, cs)
   local seed = 12345 + n + (order == "sorted" and 1 or 0)
   local pts = B.points(n, seed, order, LO, HI)
   local file = B.path("points.bin")
-  local ok, msg = B.sh(("%s gen %d %d %s %.17g %.17g %s"):format(B.gsl, n, seed, order, LO, HI, file))
+  local ok, msg = B.sh(("%s gen %d %d %s %.17g %.17g %s"):format(B.gsl, n, seed, order, LO, HI,
+    file))
   local check = tonumber(msg:match("check (%S+)"))
   assert(ok and check == B.fingerprint(pts), "peer data differ from the Lua data: " .. msg)
   local want -- the segwise result's fingerprint, which every peer must match
@@ -84,7 +85,8 @@ local function run_case(B, cs)
   }
   if B.python then
     sides[#sides + 1] = { label = "numpy", run = function()
-      local t, c = B.peer(("%s spec/bench/peer_numpy.py interp %s %s"):format(B.python, knots, file))
+      local t, c = B.peer(("%s spec/bench/peer_numpy.py interp %s %s"):format(B.python, knots,
+        file))
       assert(agree(c, want), ("numpy.interp result differs: %.17g vs %.17g"):format(c, want))
       return t
     end }

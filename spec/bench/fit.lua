@@ -22,15 +22,21 @@ end
 
 local KINDS = {
   { tag = "tol", name = "tolerance 1e-6, fewest segments", opts = { tol = 1e-6 } },
-  { tag = "minimax_optimal", name = "minimax, 16 segments, optimal knots", opts = { segments = 16, criterion = "minimax", knots = "optimal" } },
-  { tag = "lsq_optimal", name = "least squares, 16 segments, optimal knots", opts = { segments = 16, criterion = "lsq", knots = "optimal" } },
-  { tag = "minimax_uniform", name = "minimax, 16 segments, uniform knots", opts = { segments = 16, criterion = "minimax", knots = "uniform" } },
-  { tag = "lsq_uniform", name = "least squares, 16 segments, uniform knots", opts = { segments = 16, criterion = "lsq", knots = "uniform" } },
+  { tag = "minimax_optimal", name = "minimax, 16 segments, optimal knots",
+    opts = { segments = 16, criterion = "minimax", knots = "optimal" } },
+  { tag = "lsq_optimal", name = "least squares, 16 segments, optimal knots",
+    opts = { segments = 16, criterion = "lsq", knots = "optimal" } },
+  { tag = "minimax_uniform", name = "minimax, 16 segments, uniform knots",
+    opts = { segments = 16, criterion = "minimax", knots = "uniform" } },
+  { tag = "lsq_uniform", name = "least squares, 16 segments, uniform knots",
+    opts = { segments = 16, criterion = "lsq", knots = "uniform" } },
 }
 
 return function(B)
   local curves = {}
-  for _, n in ipairs { 10000, 100000, 1000000 } do curves[#curves + 1] = { n = n, c = samples(n) } end
+  for _, n in ipairs { 10000, 100000, 1000000 } do
+    curves[#curves + 1] = { n = n, c = samples(n) }
+  end
   for _, kind in ipairs(KINDS) do
     local last
     for _, s in ipairs(curves) do
@@ -38,7 +44,8 @@ return function(B)
         B.row("fit", kind.name, s.n, "segwise sw.fit", nil,
           ("skipped: about %.0f s a fit predicted from the smaller size"):format(last * 10))
         if kind.tag == "tol" and s.n == 1000000 then
-          B.note(("tolerance fit of 1e6 samples: skipped (predicted %.0f s; target < %.1f s)"):format(last * 10, TOL_TARGET))
+          B.note(("tolerance fit of 1e6 samples: skipped (predicted %.0f s; target < %.1f s)")
+            :format(last * 10, TOL_TARGET))
         end
       else
         local m

@@ -46,7 +46,9 @@ return function(B)
         info_full = res
         return t
       end },
-      { label = "gsl", run = function() return (B.peer(("%s ladder %s %s"):format(B.gsl, pfile, out))) end },
+      { label = "gsl", run = function()
+        return (B.peer(("%s ladder %s %s"):format(B.gsl, pfile, out)))
+      end },
     }
     for k = 1, N do
       assert(math.abs(info_full[1][k] - currents[k]) <= 1e-10 * math.abs(currents[k]) + 1e-15,
@@ -57,9 +59,11 @@ return function(B)
     assert(w <= 1e-5, ("ladder %d: segwise and Newton differ by %.3g A in D1"):format(size, w))
     local case = ("ladder of %d diodes, E 0.5..10 V"):format(size)
     B.row("ladder", case, N, "segwise net:sweep (assumed state, low-rank updates)", med.segwise,
-      ("%.3g points/s; %.2f attempts a point; %d updates, %d factorisations; max abs(i_D1 - exact) %.2g A")
+      ("%.3g points/s; %.2f attempts a point; %d updates, %d factorisations; "
+        .. "max abs(i_D1 - exact) %.2g A")
         :format(N / med.segwise, info.iterations / N, info.lowrank_updates, info.refactors, w))
-    B.row("ladder", case, N, "segwise net:sweep, refactorising every change (lowrank = false)", med.refactor,
+    B.row("ladder", case, N,
+      "segwise net:sweep, refactorising every change (lowrank = false)", med.refactor,
       ("%d factorisations"):format(info_full.refactors))
     B.row("ladder", case, N, "GSL multiroot Newton (exact)", med.gsl)
     B.ratio(("ladder_%d_vs_gsl_newton"):format(size), med.gsl, med.segwise)

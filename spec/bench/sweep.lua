@@ -24,7 +24,8 @@ return function(B)
   local values_array = sw.array(values) -- sweeps take arrays: no table on the way in
   local params = { R, IS, NVT, XTOL }
   for k = 1, N do params[4 + k] = values[k] end
-  local pfile, gout, pout = B.path("sweep_params.bin"), B.path("sweep_gsl.bin"), B.path("sweep_py.bin")
+  local pfile, gout, pout = B.path("sweep_params.bin"), B.path("sweep_gsl.bin"),
+    B.path("sweep_py.bin")
   B.write_doubles(pfile, params)
   local currents
   local sides = {
@@ -38,7 +39,9 @@ return function(B)
       end
       return t
     end },
-    { label = "gsl", run = function() return (B.peer(("%s brent %s %s"):format(B.gsl, pfile, gout))) end },
+    { label = "gsl", run = function()
+      return (B.peer(("%s brent %s %s"):format(B.gsl, pfile, gout)))
+    end },
   }
   if B.python then
     sides[#sides + 1] = { label = "scipy", run = function()
@@ -57,7 +60,8 @@ return function(B)
   assert(wg <= 1e-6, ("segwise and GSL Brent currents differ by %.3g A (> 1e-6 A)"):format(wg))
   local case = ("E 0.5..10 V, 1 kOhm + diode, model %d segments"):format(m:nseg())
   B.row("sweep", case, N, "segwise net:sweep into an array", med.segwise,
-    ("%.3g operating points/s; fit %s; max abs(i - exact) %.2g A"):format(N / med.segwise, B.fmt_time(t_fit), wg))
+    ("%.3g operating points/s; fit %s; max abs(i - exact) %.2g A"):format(N / med.segwise,
+      B.fmt_time(t_fit), wg))
   B.row("sweep", case, N, "GSL Brent per point (exact)", med.gsl)
   B.ratio("sweep_1dev_1e5_vs_gsl_brent", med.gsl, med.segwise)
   if med.scipy then
@@ -66,7 +70,8 @@ return function(B)
     B.row("sweep", case, N, "scipy.optimize.brentq per point (exact)", med.scipy)
     B.ratio("sweep_1dev_1e5_vs_scipy_brentq", med.scipy, med.segwise)
   end
-  B.note(("sweep of one device: %.3g operating points/s (target >= 2e6: %s); %.2fx GSL Brent on the exact circuit (target >= 10x: %s)")
+  B.note(("sweep of one device: %.3g operating points/s (target >= 2e6: %s); %.2fx GSL Brent "
+    .. "on the exact circuit (target >= 10x: %s)")
     :format(N / med.segwise, N / med.segwise >= 2e6 and "met" or "missed",
       med.gsl / med.segwise, med.gsl / med.segwise >= 10 and "met" or "missed"))
 end

@@ -36,7 +36,8 @@ function H.check_kirchhoff(net, op, rel)
       for _, q in ipairs(seg) do if q.label == op.state[e.name] then s = q end end
       local x, y = v, i
       if e.x == "i" then x, y = i, v end
-      assert.is.near(s.slope * x + s.intercept, y, 1e-10 * (math.abs(y) + math.abs(s.intercept) + math.abs(s.slope * x)) + 1e-300)
+      assert.is.near(s.slope * x + s.intercept, y,
+        1e-10 * (math.abs(y) + math.abs(s.intercept) + math.abs(s.slope * x)) + 1e-300)
     end
   end
   for _, n in ipairs(info.nodes) do
