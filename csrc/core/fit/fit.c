@@ -20,9 +20,12 @@
 #define COMPARE_GRID 2001
 #define TOL_RETRIES 8
 #define TOL_POINTS_PER_SEG 64
-#define POLISH_RTOL 1e-4 /* the best lines on the greedy knots, to 0.01 % of their level */
+#define POLISH_RTOL 1e-2 /* the polish only centres the lines: a coarse level will do */
+#define POLISH_FINE_RTOL 1e-4 /* a generous level: the best lines, found from 0 */
+#define POLISH_FEW 8          /* ... for models of this many segments or fewer */
 #define TOL_MAX_GRID 2000001
 #define FEWER_MARGIN 0.02 /* see fewer_possible */
+#define FEWER_MARGIN_MIN 4e-3 /* dense samples (1000 a segment): no off-grid search */
 #define FEWER_MAX 64       /* above this count a spare segment is left (see fewer_segments) */
 
 /* How many samples a fit of c works on: the curve's own inside (lo, hi)
@@ -590,6 +593,39 @@ static int within_cap(const sw_fit_opts *o, sw_pwl *out, sw_err *err)
                     "max_segments = %zu", o->tol, n, o->max_segments);
 }
 
+/* Polish: the best lines on the greedy knots.  The greedy stops at the
+ * first lines within the level (a polygon's centroid when discontinuous),
+ * near the level when it is tight; a bracket of its upper half centres
+ * them.  A generous level leaves them far from the best (x^2 on [-1, 1]
+ * with tol = 10: 4.7 where the best line is 0.5 off): when the model sits
+ * at the bracket's foot, a second pass searches from 0, finer (a few
+ * segments only: a generous level needs few).  A polished
+ * model replaces out only when lower; on failure out is freed. */
+static int polish(fit_job *J, sw_pwl *out, double e_int, sw_err *err)
+{
+  double lo = 0.5 * e_int, hi = e_int, rtol = POLISH_RTOL, now = fit_data_maxerr(&J->d, out);
+  int pass, st;
+  for (pass = 0; pass < 2; pass++) {
+    sw_pwl p;
+    double ep;
+    memset(&p, 0, sizeof p);
+    st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, J->o->continuous, &J->cons, lo, hi,
+                                rtol, 0, &p, &ep, &J->iters, err);
+    if (st) {
+      if (absorbable(st)) return SW_OK; /* the model so far stands */
+      sw_pwl_free(out);
+      return st;
+    }
+    if (ep < now) { sw_pwl_free(out); *out = p; now = ep; }
+    else sw_pwl_free(&p);
+    if (!(now <= lo * (1 + 4 * rtol)) || out->nseg > POLISH_FEW) break;
+    lo = 0;
+    hi = now;
+    rtol = POLISH_FINE_RTOL;
+  }
+  return SW_OK;
+}
+
 /* Fewest segments within tol for optimal minimax or interpolation: the
  * greedy tube on the samples, rechecked against the curve. */
 
@@ -601,26 +637,7 @@ static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
   for (tries = 0; tries < TOL_RETRIES; tries++) {
     if (o->criterion == SW_FIT_MINIMAX) {
       st = fit_minimax_tol(&J->d, e_int, o->continuous, &J->cons, out, err);
-      /* polish: the best lines on the greedy knots.  The greedy stops at
-       * the first lines within the level (a polygon's centroid when
-       * discontinuous), which a generous tol leaves far from the best
-       * (x^2 on [-1, 1] with tol = 10: 4.7 where the best line is 0.5
-       * off), so the bracket reaches down to 0. */
-      if (!st) {
-        sw_pwl p;
-        double ep;
-        memset(&p, 0, sizeof p);
-        st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, o->continuous, &J->cons, 0,
-                                    e_int, POLISH_RTOL, 0, &p, &ep, &J->iters, err);
-        if (!st) {
-          if (ep <= e_int) { sw_pwl_free(out); *out = p; }
-          else sw_pwl_free(&p);
-        } else if (absorbable(st)) {
-          st = SW_OK; /* the greedy model stands */
-        } else {
-          sw_pwl_free(out);
-        }
-      }
+      if (!st) st = polish(J, out, e_int, err);
     } else {
       st = fit_interp_tol(&J->d, e_int, out, err);
     }
@@ -649,15 +666,19 @@ static int tol_greedy(fit_job *J, sw_pwl *out, sw_err *err)
 
 /* 1 when the greedy tube on the samples needs fewer than n segments at a
  * level a little above tol: only then can knots off the sample grid save
- * a segment (moving a knot by part of a grid step changes a segment's
- * error by about that part: a few per cent at TOL_POINTS_PER_SEG). */
+ * a segment.  Moving a knot by part of a sample step changes a segment's
+ * error by about that part of the step over the segment's width, so the
+ * margin is a few steps' worth (4 n / samples), at most FEWER_MARGIN. */
 static int fewer_possible(fit_job *J, size_t n, int *st, sw_err *err)
 {
   sw_pwl q;
+  double margin = 4.0 * (double)n / (double)J->d.n;
   int fewer;
+  *st = SW_OK;
+  if (margin > FEWER_MARGIN) margin = FEWER_MARGIN;
+  if (margin < FEWER_MARGIN_MIN) return 0; /* the count is optimal within this part of tol */
   memset(&q, 0, sizeof q);
-  *st = fit_minimax_tol(&J->d, J->o->tol * (1 + FEWER_MARGIN), J->o->continuous, &J->cons, &q,
-                        err);
+  *st = fit_minimax_tol(&J->d, J->o->tol * (1 + margin), J->o->continuous, &J->cons, &q, err);
   fewer = !*st && q.nseg < n;
   sw_pwl_free(&q);
   if (absorbable(*st)) *st = SW_OK;
