@@ -359,8 +359,9 @@ static int run_method(sw_net *net, const int *start, double max_states, int refa
   case 2:
     rc = sw_net_enumerate(net, max_states, &all, &count, &r->it, err);
     if (rc == SW_OK && count == 0)
-      rc = sw_err_set(err, SW_ENOSOL,
-                      "no consistent state exists: enumeration of all %zu states found none", r->it);
+      rc =
+          sw_err_set(err, SW_ENOSOL,
+                     "no consistent state exists: enumeration of all %zu states found none", r->it);
     if (rc == SW_OK) memcpy(state, all, m * sizeof *state);
     free(all);
     r->nfound = count;

@@ -35,8 +35,10 @@ int sw_curve_samples(sw_curve *c, const double *x, const double *y, size_t n,
   size_t i, m;
   if (n < 2) return sw_err_set(err, SW_EINVAL, "need at least 2 samples (got %zu)", n);
   for (i = 0; i < n; i++) {
-    if (!sw_isfinite(x[i])) return sw_err_set(err, SW_EINVAL, "x[%zu] is not finite (%g)", i + 1, x[i]);
-    if (!sw_isfinite(y[i])) return sw_err_set(err, SW_EINVAL, "y[%zu] is not finite (%g)", i + 1, y[i]);
+    if (!sw_isfinite(x[i]))
+      return sw_err_set(err, SW_EINVAL, "x[%zu] is not finite (%g)", i + 1, x[i]);
+    if (!sw_isfinite(y[i]))
+      return sw_err_set(err, SW_EINVAL, "y[%zu] is not finite (%g)", i + 1, y[i]);
   }
   rows = sw_alloc(n, sizeof *rows, err);
   if (!rows) return SW_ENOMEM;
@@ -49,9 +51,10 @@ int sw_curve_samples(sw_curve *c, const double *x, const double *y, size_t n,
     for (i = 1; i < n; i++)
       if (rows[i].x < rows[i - 1].x) {
         free(rows);
-        return sw_err_set(err, SW_EINVAL,
-                          "x must be increasing (x[%zu] = %g after x[%zu] = %g); pass sort = true to sort",
-                          i + 1, x[i], i, x[i - 1]);
+        return sw_err_set(
+            err, SW_EINVAL,
+            "x must be increasing (x[%zu] = %g after x[%zu] = %g); pass sort = true to sort", i + 1,
+            x[i], i, x[i - 1]);
       }
   }
   /* Merge or reject repeated x; rows is sorted so repeats are adjacent. */
@@ -64,9 +67,10 @@ int sw_curve_samples(sw_curve *c, const double *x, const double *y, size_t n,
         size_t a = rows[i].idx + 1, b = rows[j].idx + 1;
         double xv = rows[i].x;
         free(rows);
-        return sw_err_set(err, SW_EINVAL,
-                          "x[%zu] and x[%zu] repeat the value %g; pass duplicates = \"mean\" to average them",
-                          a < b ? a : b, a < b ? b : a, xv);
+        return sw_err_set(
+            err, SW_EINVAL,
+            "x[%zu] and x[%zu] repeat the value %g; pass duplicates = \"mean\" to average them",
+            a < b ? a : b, a < b ? b : a, xv);
       }
       sum += rows[j].y;
       j++;
@@ -99,10 +103,14 @@ int sw_curve_samples(sw_curve *c, const double *x, const double *y, size_t n,
 int sw_curve_diode(sw_curve *c, double is, double ideality, double vt,
                    double rs, int x_is_i, sw_err *err)
 {
-  if (!(sw_isfinite(is) && is > 0)) return sw_err_set(err, SW_EINVAL, "is must be a positive saturation current (got %g)", is);
-  if (!(sw_isfinite(ideality) && ideality > 0)) return sw_err_set(err, SW_EINVAL, "n must be a positive ideality factor (got %g)", ideality);
-  if (!(sw_isfinite(vt) && vt > 0)) return sw_err_set(err, SW_EINVAL, "vt must be a positive thermal voltage (got %g)", vt);
-  if (!(sw_isfinite(rs) && rs >= 0)) return sw_err_set(err, SW_EINVAL, "rs must be a finite resistance >= 0 (got %g)", rs);
+  if (!(sw_isfinite(is) && is > 0))
+    return sw_err_set(err, SW_EINVAL, "is must be a positive saturation current (got %g)", is);
+  if (!(sw_isfinite(ideality) && ideality > 0))
+    return sw_err_set(err, SW_EINVAL, "n must be a positive ideality factor (got %g)", ideality);
+  if (!(sw_isfinite(vt) && vt > 0))
+    return sw_err_set(err, SW_EINVAL, "vt must be a positive thermal voltage (got %g)", vt);
+  if (!(sw_isfinite(rs) && rs >= 0))
+    return sw_err_set(err, SW_EINVAL, "rs must be a finite resistance >= 0 (got %g)", rs);
   c->kind = SW_CURVE_DIODE;
   c->is = is;
   c->ideality = ideality;
@@ -116,8 +124,10 @@ int sw_curve_diode(sw_curve *c, double is, double ideality, double vt,
 
 int sw_curve_power(sw_curve *c, double k, double p, sw_err *err)
 {
-  if (!sw_isfinite(k) || k == 0) return sw_err_set(err, SW_EINVAL, "k must be finite and non-zero (got %g)", k);
-  if (!(sw_isfinite(p) && p > 0)) return sw_err_set(err, SW_EINVAL, "n must be a positive exponent (got %g)", p);
+  if (!sw_isfinite(k) || k == 0)
+    return sw_err_set(err, SW_EINVAL, "k must be finite and non-zero (got %g)", k);
+  if (!(sw_isfinite(p) && p > 0))
+    return sw_err_set(err, SW_EINVAL, "n must be a positive exponent (got %g)", p);
   c->kind = SW_CURVE_POWER;
   c->k = k;
   c->p = p;
@@ -128,7 +138,8 @@ int sw_curve_power(sw_curve *c, double k, double p, sw_err *err)
 
 int sw_curve_fn(sw_curve *c, double lo, double hi, sw_err *err)
 {
-  if (!sw_isfinite(lo) || !sw_isfinite(hi)) return sw_err_set(err, SW_EINVAL, "lo and hi must be finite (got %g, %g)", lo, hi);
+  if (!sw_isfinite(lo) || !sw_isfinite(hi))
+    return sw_err_set(err, SW_EINVAL, "lo and hi must be finite (got %g, %g)", lo, hi);
   if (!(lo < hi)) return sw_err_set(err, SW_EINVAL, "lo (%g) must be below hi (%g)", lo, hi);
   c->kind = SW_CURVE_FN;
   c->lo = lo;
@@ -152,7 +163,8 @@ int sw_curve_restrict(sw_curve *c, double lo, double hi, sw_err *err)
   if (isnan(lo) || isnan(hi)) return sw_err_set(err, SW_EINVAL, "lo and hi must be numbers");
   if (!(lo < hi)) return sw_err_set(err, SW_EINVAL, "lo (%g) must be below hi (%g)", lo, hi);
   if (lo < c->lo || hi > c->hi || (c->kind == SW_CURVE_DIODE && c->x_is_i && lo <= c->lo))
-    return sw_err_set(err, SW_ERANGE, "range [%g, %g] is outside the curve's domain [%g, %g]", lo, hi, c->lo, c->hi);
+    return sw_err_set(err, SW_ERANGE, "range [%g, %g] is outside the curve's domain [%g, %g]", lo,
+                      hi, c->lo, c->hi);
   c->lo = lo;
   c->hi = hi;
   return SW_OK;
@@ -175,7 +187,8 @@ static int lambert_w0_exp(double L, double *w, sw_err *err)
   if (L < 700.0) {
     gsl_sf_result r;
     int st = gsl_sf_lambert_W0_e(exp(L), &r);
-    if (st != GSL_SUCCESS) return sw_err_set(err, SW_ENUMERIC, "Lambert W failed: %s", gsl_strerror(st));
+    if (st != GSL_SUCCESS)
+      return sw_err_set(err, SW_ENUMERIC, "Lambert W failed: %s", gsl_strerror(st));
     *w = r.val;
     return SW_OK;
   } else {
@@ -224,7 +237,8 @@ static int diode_eval(const sw_curve *c, double x, double *y, sw_err *err)
 {
   double nvt = c->ideality * c->vt;
   if (!c->x_is_i) return diode_i_of_v(c, x, y, err);
-  if (!(x > -c->is)) return sw_err_set(err, SW_ERANGE, "diode v(i) needs i > -is (i = %g, is = %g)", x, c->is);
+  if (!(x > -c->is))
+    return sw_err_set(err, SW_ERANGE, "diode v(i) needs i > -is (i = %g, is = %g)", x, c->is);
   *y = nvt * log1p(x / c->is) + x * c->rs;
   return SW_OK;
 }
@@ -355,8 +369,10 @@ double sw_curve_slope_floor(const sw_curve *c)
 static int call_fn(const sw_curve *c, double x, double *y, sw_err *err)
 {
   if (!c->fn) return sw_err_set(err, SW_EINVAL, "function curve has no callback bound");
-  if (c->fn(c->ctx, x, y)) return sw_err_set(err, SW_ECALLBACK, "curve function failed at x = %g", x);
-  if (!sw_isfinite(*y)) return sw_err_set(err, SW_ECALLBACK, "curve function returned %g at x = %g", *y, x);
+  if (c->fn(c->ctx, x, y))
+    return sw_err_set(err, SW_ECALLBACK, "curve function failed at x = %g", x);
+  if (!sw_isfinite(*y))
+    return sw_err_set(err, SW_ECALLBACK, "curve function returned %g at x = %g", *y, x);
   return SW_OK;
 }
 
@@ -364,7 +380,8 @@ static int check_domain(const sw_curve *c, double x, sw_err *err)
 {
   if (isnan(x)) return sw_err_set(err, SW_EINVAL, "x is NaN");
   if (x < c->lo || x > c->hi)
-    return sw_err_set(err, SW_ERANGE, "x = %g is outside the curve's domain [%g, %g]", x, c->lo, c->hi);
+    return sw_err_set(err, SW_ERANGE, "x = %g is outside the curve's domain [%g, %g]", x, c->lo,
+                      c->hi);
   return SW_OK;
 }
 
@@ -424,7 +441,8 @@ static int numeric_deriv(const sw_curve *c, double x, double *d, sw_err *err)
   else st = gsl_deriv_central(&F, x, h, d, &abserr);
   if (a.failed) return err ? err->code : SW_ECALLBACK;
   if (st != GSL_SUCCESS || !sw_isfinite(*d))
-    return sw_err_set(err, SW_ENUMERIC, "numerical derivative failed at x = %g (%s)", x, gsl_strerror(st));
+    return sw_err_set(err, SW_ENUMERIC, "numerical derivative failed at x = %g (%s)", x,
+                      gsl_strerror(st));
   return SW_OK;
 }
 
@@ -442,13 +460,15 @@ int sw_curve_deriv(const sw_curve *c, double x, double *dy, sw_err *err)
   case SW_CURVE_SAMPLES: {
     size_t k = sample_interval(c, x);
     if (x == c->x[k] && k > 0) *dy = 0.5 * (sample_slope(c, k - 1) + sample_slope(c, k));
-    else if (x == c->x[k + 1] && k + 2 < c->n) *dy = 0.5 * (sample_slope(c, k) + sample_slope(c, k + 1));
+    else if (x == c->x[k + 1] && k + 2 < c->n)
+      *dy = 0.5 * (sample_slope(c, k) + sample_slope(c, k + 1));
     else *dy = sample_slope(c, k);
     return SW_OK;
   }
   case SW_CURVE_DIODE: return diode_deriv(c, x, 1, dy, err);
   case SW_CURVE_POWER:
-    if (x == 0 && c->p < 1) return sw_err_set(err, SW_ERANGE, "power law slope is unbounded at x = 0 (n = %g < 1)", c->p);
+    if (x == 0 && c->p < 1)
+      return sw_err_set(err, SW_ERANGE, "power law slope is unbounded at x = 0 (n = %g < 1)", c->p);
     *dy = c->k * c->p * pow(fabs(x), c->p - 1);
     return SW_OK;
   case SW_CURVE_FN: return numeric_deriv(c, x, dy, err);
@@ -479,7 +499,9 @@ int sw_curve_deriv2(const sw_curve *c, double x, double *d2y, sw_err *err)
   }
   case SW_CURVE_DIODE: return diode_deriv(c, x, 2, d2y, err);
   case SW_CURVE_POWER:
-    if (x == 0 && c->p < 2) return sw_err_set(err, SW_ERANGE, "power law curvature is unbounded at x = 0 (n = %g < 2)", c->p);
+    if (x == 0 && c->p < 2)
+      return sw_err_set(err, SW_ERANGE, "power law curvature is unbounded at x = 0 (n = %g < 2)",
+                        c->p);
     *d2y = c->k * c->p * (c->p - 1) * copysign(pow(fabs(x), c->p - 2), x);
     return SW_OK;
   case SW_CURVE_FN: {
@@ -490,7 +512,9 @@ int sw_curve_deriv2(const sw_curve *c, double x, double *d2y, sw_err *err)
     b = x + h > c->hi ? c->hi : x + h;
     if (a == x) { a = x + h; b = x + 2 * h; }
     else if (b == x) { b = x - h; a = x - 2 * h; }
-    if ((st = call_fn(c, x, &y0, err)) || (st = call_fn(c, a, &ya, err)) || (st = call_fn(c, b, &yb, err))) return st;
+    if ((st = call_fn(c, x, &y0, err)) || (st = call_fn(c, a, &ya, err)) ||
+        (st = call_fn(c, b, &yb, err)))
+      return st;
     if (a < x && x < b) *d2y = second_difference(a, ya, x, y0, b, yb);
     else if (a > x) *d2y = second_difference(x, y0, a, ya, b, yb);
     else *d2y = second_difference(a, ya, b, yb, x, y0);
