@@ -7,16 +7,7 @@ local sw = require "segwise"
 local NAN, INF = 0 / 0, math.huge
 
 -- Scratch files for the reader cases, removed at the end.
-local tmpdir = os.tmpname()
-os.remove(tmpdir)
-assert(os.execute("mkdir -p '" .. tmpdir .. "'"))
-local function file(name, text)
-  local path = tmpdir .. "/" .. name
-  local f = assert(io.open(path, "wb"))
-  f:write(text)
-  f:close()
-  return path
-end
+local tmpdir, file = require("helpers.files").tmpdir()
 
 local function model() return sw.pwl { x = { 0, 1, 2 }, y = { 0, 1, 3 } } end
 local function diode() return sw.curve.diode { is = 1e-14, n = 1, rs = 0.5 } end
@@ -488,12 +479,7 @@ describe("segwise bad input", function()
       assert(os.execute("mkdir -p '" .. path .. ".tmp'"))
       return path
     end
-    local function content(path)
-      local f = assert(io.open(path, "rb"))
-      local s = f:read("a")
-      f:close()
-      return s
-    end
+    local content = require("helpers.files").read_all
 
     it("a failed model save keeps the old model file", function()
       local path = blocked("keep.model", "old model\n")

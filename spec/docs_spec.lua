@@ -9,12 +9,7 @@ local core = require "segwise.core"
 
 local DOC = "docs/API.md"
 
-local function read_doc()
-  local f = assert(io.open(DOC, "rb"))
-  local text = f:read("a")
-  f:close()
-  return text
-end
+local function read_doc() return require("helpers.files").read_all(DOC) end
 
 -- Runnable blocks with the line each starts on.
 local function runnable_blocks(text)

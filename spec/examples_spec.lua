@@ -30,15 +30,8 @@ end
 
 -- Bisection on f over [a, b] (f(a), f(b) of opposite signs) to the last bit.
 local function bisect(f, a, b)
-  local fa = f(a)
-  assert(fa * f(b) <= 0, "bisect: no sign change")
-  for _ = 1, 300 do
-    local m = 0.5 * (a + b)
-    if m == a or m == b then break end
-    local fm = f(m)
-    if (fm < 0) == (fa < 0) then a, fa = m, fm else b = m end
-  end
-  return 0.5 * (a + b)
+  assert(f(a) * f(b) <= 0, "bisect: no sign change")
+  return require("helpers.net").bisect(f, a, b)
 end
 
 -- A data file read line by line: '#' comments, one header, then x,y rows.

@@ -1,20 +1,9 @@
 -- The house rules a reader cannot see from one file: which code may include
 -- Lua's headers, and the one way the binding raises errors.  The core and
 -- binding files are read as text.
-local function files(pattern)
-  local out = {}
-  local p = assert(io.popen("ls " .. pattern .. " 2>/dev/null"))
-  for f in p:lines() do out[#out + 1] = f end
-  p:close()
-  return out
-end
-
-local function read(path)
-  local f = assert(io.open(path, "r"))
-  local s = f:read("a")
-  f:close()
-  return s
-end
+local helpers = require "helpers.files"
+local read = helpers.read_all
+local function files(pattern) return helpers.lines_of("ls " .. pattern .. " 2>/dev/null") end
 
 -- Lines of text that raise a binding error some other way than lsw_fail.
 local function stray_raises(text)

@@ -8,11 +8,8 @@ local sw = require "segwise"
 local H = require "helpers.net"
 H.assert = assert
 
--- An N-shaped (tunnel-diode-like) i(v): slopes 0.1, -0.04, 0.09 S with
--- knots at 0.1 V and 0.3 V; eventually passive (positive end slopes).
-local function ndevice()
-  return sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } }
-end
+-- An N-shaped (tunnel-diode-like) i(v), invented (helpers.net).
+local function ndevice() return H.ndevice(sw) end
 
 describe("segwise.network reference", function()
   describe("Thevenin's theorem", function()

@@ -6,11 +6,8 @@ local sw = require "segwise"
 local H = require "helpers.net"
 H.assert = assert
 
--- An N-shaped (tunnel-diode-like) i(v), invented: slopes 0.1, -0.04, 0.09 S
--- with knots at 0.1 V and 0.3 V.
-local function ndevice()
-  return sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } }
-end
+-- An N-shaped (tunnel-diode-like) i(v), invented (helpers.net).
+local function ndevice() return H.ndevice(sw) end
 
 -- E -> RSER = 50 ohm -> device.  Load line (E - v)/50 against (hand algebra)
 -- segment 1: v = E/6; segment 2: v = 0.7 - E; segment 3: v = (E + 1.25)/5.5.

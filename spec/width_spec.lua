@@ -7,14 +7,7 @@ local LIMIT = 100
 -- file is clean.
 local OWED = {}
 
-local function lines_of_command(cmd)
-  local out = {}
-  local p = io.popen(cmd)
-  if not p then return out end
-  for line in p:lines() do out[#out + 1] = line end
-  p:close()
-  return out
-end
+local lines_of_command = require("helpers.files").lines_of
 
 -- The tracked files (git), or every file on disk where there is no git.
 local function source_files()

@@ -25,6 +25,15 @@ function M.tmpdir()
   return dir, write
 end
 
+-- The lines a shell command prints, as a list.
+function M.lines_of(cmd)
+  local out = {}
+  local p = assert(io.popen(cmd))
+  for line in p:lines() do out[#out + 1] = line end
+  p:close()
+  return out
+end
+
 function M.read_all(path)
   local f = assert(io.open(path, "rb"))
   local s = f:read("a")

@@ -61,4 +61,10 @@ function H.bisect(f, a, b)
   return 0.5 * (a + b)
 end
 
+-- An N-shaped (tunnel-diode-like) i(v), invented: slopes 0.1, -0.04,
+-- 0.09 S with knots at 0.1 V and 0.3 V; eventually passive.
+function H.ndevice(sw)
+  return sw.pwl { x = { 0, 0.1, 0.3, 0.5 }, y = { 0, 0.01, 0.002, 0.02 } }
+end
+
 return H
