@@ -689,6 +689,20 @@ typedef struct mc_args {
   lua_Integer seed;
 } mc_args;
 
+/* The core's description of the study in a, with the enumeration cap. */
+static sw_net_mc mc_of(const mc_args *a, double max_states)
+{
+  sw_net_mc mc;
+  mc.el = a->el;
+  mc.tol = a->tol;
+  mc.gauss = a->gauss;
+  mc.k = a->k;
+  mc.runs = a->runs;
+  mc.seed = (unsigned long)a->seed;
+  mc.max_states = max_states;
+  return mc;
+}
+
 static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
 {
   size_t nt, q;
@@ -728,14 +742,15 @@ static int l_montecarlo(lua_State *L)
   double max_states = luaL_optnumber(L, 7, 1e6), *drawn;
   lsw_hold *h;
   mc_args a;
+  sw_net_mc mc;
   sw_err err = { 0, "" };
   check_mc_args(L, n, &a);
   prepare(L, n, "network:montecarlo");
   drawn = lsw_scratch(L, a.runs * a.k);
   h = new_hold(L);
   hold_ops(L, h, a.runs);
-  if (sw_net_montecarlo(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed,
-                        max_states, h->ops, drawn, &err))
+  mc = mc_of(&a, max_states);
+  if (sw_net_montecarlo(&n->net, &mc, h->ops, drawn, &err))
     return lsw_raise(L, "network:montecarlo", &err);
   lua_createtable(L, (int)a.runs, 0);
   for (r = 0; r < a.runs; r++) {
@@ -759,6 +774,7 @@ static int l_montecarlo_arrays(lua_State *L)
   int res, vals, rc;
   lsw_hold *h;
   mc_args a;
+  sw_net_mc mc;
   sw_err err = { 0, "" };
   lua_settop(L, 8);
   max_states = luaL_optnumber(L, 7, 1e6);
@@ -775,8 +791,8 @@ static int l_montecarlo_arrays(lua_State *L)
   }
   lua_setfield(L, res, "values");
   h = new_hold(L);
-  rc = sw_net_montecarlo_arrays(&n->net, a.el, a.tol, a.gauss, a.k, a.runs, (unsigned long)a.seed,
-                                max_states, drawn, q, nq, &h->sweep, &err);
+  mc = mc_of(&a, max_states);
+  rc = sw_net_montecarlo_arrays(&n->net, &mc, drawn, q, nq, &h->sweep, &err);
   if (rc) return lsw_raise(L, "network:montecarlo", &err);
   push_loop_info(L, n, res, &h->sweep);
   lua_pushvalue(L, res);

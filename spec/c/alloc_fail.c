@@ -419,11 +419,12 @@ static int sc_net(double *fp, sw_err *err)
   *fp += ops[2].vnode[2];
   for (k = 0; k < 3; k++) sw_net_op_free(&ops[k]);
   {
-    /* seeded Monte Carlo: R1 within 5 %, uniform */
+    /* seeded Monte Carlo: the series resistor within 5 %, uniform */
     size_t el = 1;
     double tol = 0.05, drawn[3];
     int gauss = 0;
-    if ((rc = sw_net_montecarlo(&net, &el, &tol, &gauss, 1, 3, 7, 1e4, ops, drawn, err))) goto done;
+    sw_net_mc mc = {&el, &tol, &gauss, 1, 3, 7, 1e4};
+    if ((rc = sw_net_montecarlo(&net, &mc, ops, drawn, err))) goto done;
     *fp += drawn[2] + ops[2].i[1];
   }
 done:
@@ -464,14 +465,13 @@ static int sc_sweep(double *fp, sw_err *err)
   for (k = 0; k < 6; k++) *fp += i1[k] + s1[k];
   *fp += (double)info.nwarn;
   sw_net_sweep_info_free(&info);
-  { /* seeded Monte Carlo into arrays: R1 and V1 drawn */
+  { /* seeded Monte Carlo into arrays: the resistor and the source drawn */
     size_t el[2] = {1, 0};
     double tol[2] = {0.05, 0.02}, d1[6], d0[6], *drawn[2];
     int gauss[2] = {0, 1};
+    sw_net_mc mc = {el, tol, gauss, 2, 6, 5, 1e4};
     drawn[0] = d1; drawn[1] = d0;
-    if ((rc =
-             sw_net_montecarlo_arrays(&net, el, tol, gauss, 2, 6, 5, 1e4, drawn, q, 4, &info, err)))
-      goto done;
+    if ((rc = sw_net_montecarlo_arrays(&net, &mc, drawn, q, 4, &info, err))) goto done;
     for (k = 0; k < 6; k++) *fp += d1[k] + d0[k] + i1[k] + p1[k];
   }
 done:

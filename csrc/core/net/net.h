@@ -280,14 +280,21 @@ double sw_net_el_current(const sw_net *net, const double *y, size_t k);
 
 /* Seeded Monte Carlo over element values (see net_sweep.c): full operating
  * points, or chosen quantities into arrays (drawn[q] holds n values). */
-int sw_net_montecarlo_arrays(sw_net *net, const size_t *el, const double *tol,
-                             const int *gauss, size_t k, size_t n, unsigned long seed,
-                             double max_states, double *const *drawn,
-                             const sw_net_quant *q, size_t nq,
-                             sw_net_sweep_info *info, sw_err *err);
-int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
-                      const int *gauss, size_t k, size_t n, unsigned long seed,
-                      double max_states, sw_net_op *ops, double *drawn,
+/* What a Monte Carlo study draws: element el[j] (j < k) in each of runs
+ * runs as nominal * (1 + tol[j] u), u uniform on [-1, 1] (gauss[j] == 0) or
+ * standard normal, from MT19937 seeded with seed. */
+typedef struct sw_net_mc {
+  const size_t *el;
+  const double *tol;
+  const int *gauss;
+  size_t k, runs;
+  unsigned long seed;
+  double max_states; /* the enumeration's cap when a run needs it */
+} sw_net_mc;
+int sw_net_montecarlo_arrays(sw_net *net, const sw_net_mc *mc, double *const *drawn,
+                             const sw_net_quant *q, size_t nq, sw_net_sweep_info *info,
+                             sw_err *err);
+int sw_net_montecarlo(sw_net *net, const sw_net_mc *mc, sw_net_op *ops, double *drawn,
                       sw_err *err);
 
 #endif

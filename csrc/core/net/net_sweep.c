@@ -292,11 +292,12 @@ static double mc_draw(gsl_rng *rng, double nominal, double tol, int gauss)
  * standard normal (tol is then the relative standard deviation), from
  * GSL's MT19937 generator.  drawn receives n x k values.  Each run starts
  * from the previous run's states.  Values are restored afterwards. */
-int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
-                      const int *gauss, size_t k, size_t n, unsigned long seed,
-                      double max_states, sw_net_op *ops, double *drawn,
+int sw_net_montecarlo(sw_net *net, const sw_net_mc *mc, sw_net_op *ops, double *drawn,
                       sw_err *err)
 {
+  const size_t *el = mc->el, k = mc->k, n = mc->runs;
+  const double *tol = mc->tol, max_states = mc->max_states;
+  const int *gauss = mc->gauss;
   size_t m = net->ndev, r, q, it, nf;
   double *keep = sw_alloc(k, sizeof *keep, err);
   int *state = sw_alloc(m, sizeof *state, err), rc = SW_OK;
@@ -306,7 +307,7 @@ int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
     free(keep); free(state); gsl_rng_free(rng);
     return sw_err_set(err, SW_ENOMEM, "out of memory in montecarlo");
   }
-  gsl_rng_set(rng, seed);
+  gsl_rng_set(rng, mc->seed);
   for (q = 0; q < k; q++) keep[q] = net->el[el[q]].value;
   for (r = 0; r < n && rc == SW_OK; r++) {
     for (q = 0; q < k && rc == SW_OK; q++) {
@@ -336,12 +337,13 @@ int sw_net_montecarlo(sw_net *net, const size_t *el, const double *tol,
 /* The same runs into arrays: drawn[q][r] the value of el[q] in run r, and
  * the quantities q of every run, with no allocation per run (each run
  * rebuilds the reduction, as a resistor sweep does). */
-int sw_net_montecarlo_arrays(sw_net *net, const size_t *el, const double *tol,
-                             const int *gauss, size_t k, size_t n, unsigned long seed,
-                             double max_states, double *const *drawn,
-                             const sw_net_quant *q, size_t nq,
-                             sw_net_sweep_info *info, sw_err *err)
+int sw_net_montecarlo_arrays(sw_net *net, const sw_net_mc *mc, double *const *drawn,
+                             const sw_net_quant *q, size_t nq, sw_net_sweep_info *info,
+                             sw_err *err)
 {
+  const size_t *el = mc->el, k = mc->k, n = mc->runs;
+  const double *tol = mc->tol, max_states = mc->max_states;
+  const int *gauss = mc->gauss;
   size_t r, j;
   double *keep;
   gsl_rng *rng;
@@ -356,7 +358,7 @@ int sw_net_montecarlo_arrays(sw_net *net, const size_t *el, const double *tol,
     gsl_rng_free(rng);
     return sw_err_set(err, SW_ENOMEM, "out of memory in montecarlo");
   }
-  gsl_rng_set(rng, seed);
+  gsl_rng_set(rng, mc->seed);
   for (j = 0; j < k; j++) keep[j] = net->el[el[j]].value;
   for (r = 0; r < n && rc == SW_OK; r++) {
     for (j = 0; j < k && rc == SW_OK; j++) {
