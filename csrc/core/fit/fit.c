@@ -519,9 +519,11 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
       st = knots_for(J, n, K, err);
       if (!st) st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err);
       /* only a level below the optimal knots' one matters: capped there */
-      if (!st)
-        st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->cons, 0, J->internal, 1e-11, 1,
-                                    &alt, &e_alt, &J->iters, err);
+      if (!st) {
+        fit_level_search ls = {0, J->internal, 1e-11, 1};
+        st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->cons, &ls, &alt, &e_alt,
+                                    &J->iters, err);
+      }
       if (!st && e_alt == INFINITY) {
         /* the curvature knots cannot reach that level: nothing to compare */
       } else if (!st) {
@@ -608,9 +610,10 @@ static int polish(fit_job *J, sw_pwl *out, double e_int, sw_err *err)
   for (pass = 0; pass < 2; pass++) {
     sw_pwl p;
     double ep;
+    fit_level_search ls = {lo, hi, rtol, 0};
     memset(&p, 0, sizeof p);
-    st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, J->o->continuous, &J->cons, lo, hi,
-                                rtol, 0, &p, &ep, &J->iters, err);
+    st = fit_minimax_fixed_from(&J->d, out->x, out->nseg, J->o->continuous, &J->cons, &ls, &p, &ep,
+                                &J->iters, err);
     if (st) {
       if (absorbable(st)) return SW_OK; /* the model so far stands */
       sw_pwl_free(out);

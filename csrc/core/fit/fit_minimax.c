@@ -803,17 +803,32 @@ int fit_minimax_count(const fit_data *d, size_t nseg, int continuous, const fit_
   }
   /* the exact minimax on these knots lies between the count search's
    * bounds: a short bisection to full precision */
-  st = fit_minimax_fixed_from(d, knots, nseg, continuous, cons, elo, ehi, 1e-11, 0, out, e_out,
-                              iters, err);
+  {
+    fit_level_search ls = {elo, ehi, 1e-11, 0};
+    st = fit_minimax_fixed_from(d, knots, nseg, continuous, cons, &ls, out, e_out, iters, err);
+  }
 done:
   free(knots);
   return st;
 }
 
+/* A chain of segments over fixed knots: segment j spans samples pi[j] to
+ * qi[j]; cons and the tube workspace w as for the whole fit. */
+typedef struct chain_task {
+  const fit_data *d;
+  const size_t *pi, *qi;
+  size_t nseg;
+  const fit_cons *cons;
+  tube_ws *w;
+} chain_task;
+
 /* Chained feasibility over fixed knots at level e; records polygons in R. */
-static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi, size_t nseg,
-                 const fit_cons *cons, tube_ws *w, rec_list *R, int *feasible, sw_err *err)
+static int chain(const chain_task *c, double e, rec_list *R, int *feasible, sw_err *err)
 {
+  const fit_data *d = c->d;
+  const size_t *pi = c->pi, *qi = c->qi, nseg = c->nseg;
+  const fit_cons *cons = c->cons;
+  tube_ws *w = c->w;
   size_t j;
   double alo = -INFINITY, ahi = INFINITY;
   int st;
@@ -836,51 +851,51 @@ static int chain(const fit_data *d, double e, const size_t *pi, const size_t *qi
 }
 
 /* Bisection on the level of one chain (all segments, or one of them) in
- * [e_lo, e_hi] (e_hi <= 0: from 0 and a level every constant line meets);
- * e_hi infeasible doubles it, or when capped gives *e_out = INFINITY. */
-static int bisect_chain(const fit_data *d, const size_t *pi, const size_t *qi, size_t nseg,
-                        const fit_cons *kp, tube_ws *w, rec_list *R, double e_lo, double e_hi,
-                        double rtol, int capped, double *e_out, size_t *iters, sw_err *err)
+ * [ls->lo, ls->hi] (hi <= 0: from 0 and a level every constant line
+ * meets); hi infeasible doubles it, or when capped gives *e_out = INFINITY. */
+static int bisect_chain(const chain_task *c, rec_list *R, const fit_level_search *ls,
+                        double *e_out, size_t *iters, sw_err *err)
 {
-  double elo = e_hi > 0 ? e_lo : 0, ehi = e_hi > 0 ? e_hi : fit_start_level(d);
+  double elo = ls->hi > 0 ? ls->lo : 0, ehi = ls->hi > 0 ? ls->hi : fit_start_level(c->d);
   int feas, st, tries;
   size_t it;
   for (tries = 0; tries < 200; tries++) {
     if (!sw_isfinite(ehi)) /* values over their error scale beyond the double range */
       return sw_err_set(err, SW_ERANGE, "the error level overflows: the curve's values divided by "
                         "their error scale exceed the double range (raise rel_floor or rescale)");
-    if ((st = chain(d, ehi, pi, qi, nseg, kp, w, NULL, &feas, err))) return st;
+    if ((st = chain(c, ehi, NULL, &feas, err))) return st;
     if (feas) break;
-    if (capped) { *e_out = INFINITY; return SW_OK; }
+    if (ls->capped) { *e_out = INFINITY; return SW_OK; }
     elo = ehi;
     ehi *= 2;
   }
   if (tries == 200)
     return sw_err_set(err, SW_ENOSOL, "the constraints (through points, slopes, monotone) cannot "
                       "be met with these knots");
-  for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > rtol * ehi; it++) {
+  for (it = 0; it < FIT_BISECT_STEPS && ehi - elo > ls->rtol * ehi; it++) {
     double mid = fit_mid_level(elo, ehi);
-    if ((st = chain(d, mid, pi, qi, nseg, kp, w, NULL, &feas, err))) return st;
+    if ((st = chain(c, mid, NULL, &feas, err))) return st;
     if (feas) ehi = mid; else elo = mid;
   }
   *iters += it;
   *e_out = ehi;
-  return chain(d, ehi, pi, qi, nseg, kp, w, R, &feas, err);
+  return chain(c, ehi, R, &feas, err);
 }
 
 int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg, int continuous,
                       const fit_cons *cons, sw_pwl *out, double *e_out, size_t *iters,
                       sw_err *err)
 {
-  return fit_minimax_fixed_from(d, knots, nseg, continuous, cons, 0, 0, 1e-11, 0, out, e_out, iters,
-                                err);
+  fit_level_search ls = {0, 0, 1e-11, 0};
+  return fit_minimax_fixed_from(d, knots, nseg, continuous, cons, &ls, out, e_out, iters, err);
 }
 
 int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, int continuous,
-                           const fit_cons *cons, double e_lo, double e_hi, double rtol, int capped,
-                           sw_pwl *out, double *e_out, size_t *iters, sw_err *err)
+                           const fit_cons *cons, const fit_level_search *ls, sw_pwl *out,
+                           double *e_out, size_t *iters, sw_err *err)
 {
   size_t *pi = sw_alloc(nseg, sizeof *pi, err), *qi = sw_alloc(nseg, sizeof *qi, err), j;
+  double e_lo = ls->lo, e_hi = ls->hi;
   tube_ws w;
   rec_list R, one;
   int st = SW_OK;
@@ -900,9 +915,8 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
   if ((st = fit_tube_init(&w, d->n, err))) goto done;
   *e_out = 0;
   if (continuous) {
-    if ((st = bisect_chain(d, pi, qi, nseg, cons, &w, &R, e_lo, e_hi, rtol, capped, e_out, iters,
-                           err)))
-      goto done;
+    chain_task c = {d, pi, qi, nseg, cons, &w};
+    if ((st = bisect_chain(&c, &R, ls, e_out, iters, err))) goto done;
     if (*e_out == INFINITY) goto done; /* capped: nothing below e_hi */
   } else {
     /* segments are independent: each gets its own smallest level (not
@@ -912,15 +926,12 @@ int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, 
       double ej;
       int feas = 0;
       fit_cons kk = cons ? *cons : (fit_cons){0, 0, 0, 0, 0};
+      chain_task c = {d, pi + j, qi + j, 1, &kk, &w};
       kk.has_first = cons && cons->has_first && j == 0;
       kk.has_last = cons && cons->has_last && j == nseg - 1;
-      if (e_lo > 0 && e_hi > 0 &&
-          (st = chain(d, e_lo, pi + j, qi + j, 1, &kk, &w, &one, &feas, err)))
-        goto done;
+      if (e_lo > 0 && e_hi > 0 && (st = chain(&c, e_lo, &one, &feas, err))) goto done;
       if (feas) ej = e_lo;
-      else if ((st = bisect_chain(d, pi + j, qi + j, 1, &kk, &w, &one, e_lo, e_hi, rtol, capped,
-                                  &ej, iters, err)))
-        goto done;
+      else if ((st = bisect_chain(&c, &one, ls, &ej, iters, err))) goto done;
       if (ej > *e_out) *e_out = ej;
       if (ej == INFINITY) goto done; /* capped: nothing below e_hi */
       if ((st = recs_push(&R, pi[j], qi[j], &(poly){one.r[0].pn, one.pa, one.ps}, err))) goto done;

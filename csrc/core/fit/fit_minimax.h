@@ -9,12 +9,18 @@
 int fit_minimax_fixed(const fit_data *d, const double *knots, size_t nseg,
                       int continuous, const fit_cons *cons, sw_pwl *out,
                       double *e_out, size_t *iters, sw_err *err);
-/* The same by bisection in [e_lo, e_hi] (e_hi <= 0: the whole range) to a
- * relative precision rtol; capped: when e_hi itself is infeasible, *e_out
- * = INFINITY and no model (out untouched) instead of raising the level. */
+/* How a fixed-knot minimax searches its level: bisection in [lo, hi]
+ * (hi <= 0: the whole range) to a relative precision rtol; capped: when hi
+ * itself is infeasible, *e_out = INFINITY and no model (out untouched)
+ * instead of raising the level. */
+typedef struct fit_level_search {
+  double lo, hi, rtol;
+  int capped;
+} fit_level_search;
+/* The same with the level searched as ls says. */
 int fit_minimax_fixed_from(const fit_data *d, const double *knots, size_t nseg, int continuous,
-                           const fit_cons *cons, double e_lo, double e_hi, double rtol, int capped,
-                           sw_pwl *out, double *e_out, size_t *iters, sw_err *err);
+                           const fit_cons *cons, const fit_level_search *ls, sw_pwl *out,
+                           double *e_out, size_t *iters, sw_err *err);
 int fit_minimax_tol(const fit_data *d, double e, int continuous,
                     const fit_cons *cons, sw_pwl *out, sw_err *err);
 int fit_minimax_count(const fit_data *d, size_t nseg, int continuous,
