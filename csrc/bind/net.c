@@ -519,7 +519,10 @@ static int l_sweep(lua_State *L)
   h = new_hold(L);
   if (nv) hold_ops(L, h, nv);
   n->net.refactor_always = lua_isboolean(L, 6) && !lua_toboolean(L, 6);
-  rc = sw_net_sweep(&n->net, el, vals, nv, start, max_states, h->ops, &err);
+  {
+    sw_net_sweep_spec sp = {el, vals, nv, start, max_states};
+    rc = sw_net_sweep(&n->net, &sp, h->ops, &err);
+  }
   n->net.refactor_always = 0;
   if (rc) return lsw_raise(L, "network:sweep", &err);
   lua_createtable(L, (int)nv, 0);
@@ -671,7 +674,10 @@ static int l_sweep_arrays(lua_State *L)
   res = push_quant_arrays(L, n, 6, nv, "sweep", &q, &nq);
   h = new_hold(L);
   n->net.refactor_always = lua_isboolean(L, 7) && !lua_toboolean(L, 7);
-  rc = sw_net_sweep_arrays(&n->net, el, vals, nv, start, max_states, q, nq, &h->sweep, &err);
+  {
+    sw_net_sweep_spec sp = {el, vals, nv, start, max_states};
+    rc = sw_net_sweep_arrays(&n->net, &sp, q, nq, &h->sweep, &err);
+  }
   n->net.refactor_always = 0;
   if (rc) return lsw_raise(L, "network:sweep", &err);
   push_loop_info(L, n, res, &h->sweep);

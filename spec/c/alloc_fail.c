@@ -415,7 +415,10 @@ static int sc_net(double *fp, sw_err *err)
   *fp += (double)count;
   if ((rc = sw_net_lcp(&net, state, &pivots, &pm, &how, err))) goto done;
   *fp += state[0] + state[1];
-  if ((rc = sw_net_sweep(&net, 0, values, 3, NULL, 1e4, ops, err))) goto done;
+  {
+    sw_net_sweep_spec sp = {0, values, 3, NULL, 1e4};
+    if ((rc = sw_net_sweep(&net, &sp, ops, err))) goto done;
+  }
   *fp += ops[2].vnode[2];
   for (k = 0; k < 3; k++) sw_net_op_free(&ops[k]);
   {
@@ -444,6 +447,7 @@ static int sc_sweep(double *fp, sw_err *err)
   sw_net_sweep_info info;
   double values[6] = {1, 5, 20, 50, 80, 120}, rs[6] = {50, 100, 200, 400, 800, 1600};
   double i1[6], vd2[6], p1[6], s1[6];
+  sw_net_sweep_spec sp = {0, NULL, 6, NULL, 1e4};
   sw_net_quant q[4] = {
       {SW_NQ_I, 2, i1}, {SW_NQ_VD, 3, vd2}, {SW_NQ_P, 2, p1}, {SW_NQ_STATE, 0, s1}};
   size_t k;
@@ -453,7 +457,8 @@ static int sc_sweep(double *fp, sw_err *err)
   *fp = 0;
   if ((rc = build_net(&net, err))) goto done;
   if ((rc = sw_net_prepare(&net, err))) goto done;
-  if ((rc = sw_net_sweep_arrays(&net, 0, values, 6, NULL, 1e4, q, 4, &info, err))) goto done;
+  sp.el = 0; sp.values = values;
+  if ((rc = sw_net_sweep_arrays(&net, &sp, q, 4, &info, err))) goto done;
   for (k = 0; k < 6; k++) *fp += i1[k] + vd2[k] + p1[k] + s1[k];
   *fp += (double)info.nwarn;
   if (info.nwarn < 2) { /* the scenario must reach the warning list's growth */
@@ -461,7 +466,8 @@ static int sc_sweep(double *fp, sw_err *err)
     goto done;
   }
   sw_net_sweep_info_free(&info);
-  if ((rc = sw_net_sweep_arrays(&net, 1, rs, 6, NULL, 1e4, q, 4, &info, err))) goto done;
+  sp.el = 1; sp.values = rs;
+  if ((rc = sw_net_sweep_arrays(&net, &sp, q, 4, &info, err))) goto done;
   for (k = 0; k < 6; k++) *fp += i1[k] + s1[k];
   *fp += (double)info.nwarn;
   sw_net_sweep_info_free(&info);

@@ -126,7 +126,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
       fuzz_doubles(&in, values, nv);
       memset(ops, 0, sizeof ops);
       if (sw_net_prepare(&net, &err) == SW_OK &&
-          sw_net_sweep(&net, el, values, nv, NULL, 256, ops, &err) == SW_OK)
+          sw_net_sweep(&net, &(sw_net_sweep_spec){el, values, nv, NULL, 256}, ops, &err) == SW_OK)
         for (k = 0; k < nv; k++) sw_net_op_free(&ops[k]);
       else
         for (k = 0; k < nv; k++)
@@ -143,10 +143,11 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
       q[0].kind = SW_NQ_I; q[0].idx = net.dev[0].el; q[0].out = o1;
       q[1].kind = SW_NQ_STATE; q[1].idx = 0; q[1].out = o2;
       if (net.el[el].kind != SW_NET_DEV && sw_net_prepare(&net, &err) == SW_OK) {
-        (void)sw_net_sweep_arrays(&net, el, values, nv, NULL, 256, q, 2, &info, &err);
+        (void)sw_net_sweep_arrays(&net, &(sw_net_sweep_spec){el, values, nv, NULL, 256}, q, 2, &info,
+                                  &err);
         sw_net_sweep_info_free(&info);
-        (void)sw_net_montecarlo_arrays(&net, &el, &tol, &gauss, 1, nv, fuzz_u8(&in), 256, drawn, q,
-                                       2, &info, &err);
+        sw_net_mc mc = {&el, &tol, &gauss, 1, nv, fuzz_u8(&in), 256};
+        (void)sw_net_montecarlo_arrays(&net, &mc, drawn, q, 2, &info, &err);
         sw_net_sweep_info_free(&info);
       }
     }

@@ -241,10 +241,19 @@ int sw_net_auto(const sw_net *net, const int *start, double max_states,
 /* Describes a state as "D1=2, D2=1" (1-based labels) into buf. */
 void sw_net_state_text(const sw_net *net, const int *state, char *buf, size_t cap);
 
-/* Sweep element el over values: ops[n] filled (caller frees each). */
-int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
-                 const int *start, double max_states, sw_net_op *ops,
-                 sw_err *err);
+/* What a sweep steps: element el through values[0..n-1], the first point
+ * from start (NULL: the default states), enumeration capped at max_states
+ * when a point needs it. */
+typedef struct sw_net_sweep_spec {
+  size_t el;
+  const double *values;
+  size_t n;
+  const int *start;
+  double max_states;
+} sw_net_sweep_spec;
+
+/* Sweep as sp says: ops[n] filled (caller frees each). */
+int sw_net_sweep(sw_net *net, const sw_net_sweep_spec *sp, sw_net_op *ops, sw_err *err);
 
 /* Sweeps into arrays: one double per point for each requested quantity,
  * no allocation per point.  A swept independent source only moves the
@@ -271,10 +280,8 @@ typedef struct sw_net_sweep_info {
   size_t nwarn, wcap;
 } sw_net_sweep_info;
 void sw_net_sweep_info_free(sw_net_sweep_info *info);
-int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
-                        const int *start, double max_states,
-                        const sw_net_quant *q, size_t nq,
-                        sw_net_sweep_info *info, sw_err *err);
+int sw_net_sweep_arrays(sw_net *net, const sw_net_sweep_spec *sp, const sw_net_quant *q,
+                        size_t nq, sw_net_sweep_info *info, sw_err *err);
 /* Current of element k from a full unknown vector y (net_mna.c). */
 double sw_net_el_current(const sw_net *net, const double *y, size_t k);
 

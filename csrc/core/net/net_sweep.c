@@ -22,10 +22,11 @@ static void name_point(sw_err *err, const char *name, const double *values, size
   sw_err_prefix(err, "point %zu of %zu (%s = %g): ", k + 1, n, name, values[k]);
 }
 
-int sw_net_sweep(sw_net *net, size_t el, const double *values, size_t n,
-                 const int *start, double max_states, sw_net_op *ops,
-                 sw_err *err)
+int sw_net_sweep(sw_net *net, const sw_net_sweep_spec *sp, sw_net_op *ops, sw_err *err)
 {
+  const size_t el = sp->el, n = sp->n;
+  const double *values = sp->values, max_states = sp->max_states;
+  const int *start = sp->start;
   size_t m = net->ndev, k, it, nf;
   double keep = net->el[el].value;
   const char *name = net->el[el].name, *used;
@@ -225,11 +226,12 @@ static int solve_point(sw_net *net, sweep_ws *w, size_t k, int *have, double max
   return write_point(net, w, z, k, q, nq, info, err);
 }
 
-int sw_net_sweep_arrays(sw_net *net, size_t el, const double *values, size_t n,
-                        const int *start, double max_states,
-                        const sw_net_quant *q, size_t nq,
-                        sw_net_sweep_info *info, sw_err *err)
+int sw_net_sweep_arrays(sw_net *net, const sw_net_sweep_spec *sp, const sw_net_quant *q,
+                        size_t nq, sw_net_sweep_info *info, sw_err *err)
 {
+  const size_t el = sp->el, n = sp->n;
+  const double *values = sp->values, max_states = sp->max_states;
+  const int *start = sp->start;
   size_t m = net->ndev, N, k, r;
   double keep = net->el[el].value;
   const char *name = net->el[el].name;
