@@ -491,6 +491,59 @@ done:
 }
 
 /* A model with exactly n segments under the chosen scheme and criterion. */
+/* Optimal-knot minimax with n segments into out (K: room for n + 1 knots):
+ * the count search's knots, exchange steps on laws, never worse than the
+ * curvature scheme's knots, and equal-error knots off the grid. */
+static int minimax_optimal(fit_job *J, size_t n, double *K, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  sw_pwl alt;
+  double e_alt;
+  int st;
+  memset(&alt, 0, sizeof alt);
+  if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->cons, out, &J->internal, &J->iters,
+                              err)))
+    return st;
+  if (J->d.analytic) { /* exchange steps on the found knots */
+    sw_pwl r;
+    memset(&r, 0, sizeof r);
+    memcpy(K, out->x, (n + 1) * sizeof *K);
+    if ((st = minimax_fixed(J, K, n, &r, err))) return st;
+    sw_pwl_free(out);
+    *out = r;
+  }
+  /* never worse than the curvature scheme's minimax on its knots; that
+   * alternative may fail numerically (a knot without samples), which
+   * keeps the optimal answer, but out of memory is passed up */
+  if (n > 1) {
+    st = knots_for(J, n, K, err);
+    if (!st) st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err);
+    /* only a level below the optimal knots' one matters: capped there */
+    if (!st) {
+      fit_level_search ls = {0, J->internal, 1e-11, 1};
+      st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->cons, &ls, &alt, &e_alt,
+                                  &J->iters, err);
+    }
+    if (!st && e_alt == INFINITY) {
+      /* the curvature knots cannot reach that level: nothing to compare */
+    } else if (!st) {
+      if (e_alt < J->internal) { sw_pwl_free(out); *out = alt; J->internal = e_alt; }
+      else sw_pwl_free(&alt);
+    } else if (absorbable(st)) {
+      st = SW_OK;
+    } else {
+      sw_pwl_free(out);
+      return st;
+    }
+  }
+  if (J->d.analytic) { /* knots off the grid, where the optimum is */
+    st = equal_error(J, n, out, err);
+    if (st && absorbable(st)) st = SW_OK;
+    else if (st) sw_pwl_free(out);
+  }
+  return st;
+}
+
 static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
 {
   const sw_fit_opts *o = J->o;
@@ -498,48 +551,7 @@ static int fit_count(fit_job *J, size_t n, sw_pwl *out, sw_err *err)
   int st;
   if (!K) return SW_ENOMEM;
   if (o->knots == SW_KNOTS_OPTIMAL && o->criterion == SW_FIT_MINIMAX) {
-    sw_pwl alt;
-    double e_alt;
-    memset(&alt, 0, sizeof alt);
-    if ((st = fit_minimax_count(&J->d, n, o->continuous, &J->cons, out, &J->internal, &J->iters,
-                                err)))
-      goto done;
-    if (J->d.analytic) { /* exchange steps on the found knots */
-      sw_pwl r;
-      memset(&r, 0, sizeof r);
-      memcpy(K, out->x, (n + 1) * sizeof *K);
-      if ((st = minimax_fixed(J, K, n, &r, err))) goto done;
-      sw_pwl_free(out);
-      *out = r;
-    }
-    /* never worse than the curvature scheme's minimax on its knots; that
-     * alternative may fail numerically (a knot without samples), which
-     * keeps the optimal answer, but out of memory is passed up */
-    if (n > 1) {
-      st = knots_for(J, n, K, err);
-      if (!st) st = fit_data_insert(&J->d, J->c, K, n + 1, o->rel, o->rel_floor, err);
-      /* only a level below the optimal knots' one matters: capped there */
-      if (!st) {
-        fit_level_search ls = {0, J->internal, 1e-11, 1};
-        st = fit_minimax_fixed_from(&J->d, K, n, o->continuous, &J->cons, &ls, &alt, &e_alt,
-                                    &J->iters, err);
-      }
-      if (!st && e_alt == INFINITY) {
-        /* the curvature knots cannot reach that level: nothing to compare */
-      } else if (!st) {
-        if (e_alt < J->internal) { sw_pwl_free(out); *out = alt; J->internal = e_alt; }
-        else sw_pwl_free(&alt);
-      } else if (absorbable(st)) {
-        st = SW_OK;
-      } else {
-        sw_pwl_free(out);
-      }
-    }
-    if (!st && J->d.analytic) { /* knots off the grid, where the optimum is */
-      st = equal_error(J, n, out, err);
-      if (st && absorbable(st)) st = SW_OK;
-      else if (st) sw_pwl_free(out);
-    }
+    st = minimax_optimal(J, n, K, out, err);
     goto done;
   }
   if (o->knots == SW_KNOTS_OPTIMAL &&
