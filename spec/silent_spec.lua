@@ -37,4 +37,19 @@ describe("segwise: nothing silently ignored", function()
     local xs = m:knots()
     assert.are.same({ 0.2, 0.5, 0.8 }, xs)
   end)
+
+  it("a current forced against a flat segment at 0 says so", function()
+    -- invented model: no current below 0.6 V (flat at 0 down to -inf), then
+    -- a rising segment; a source forcing -1 mA through it has no answer
+    local m = sw.pwl { x = { -1, 0.6, 0.8 }, y = { 0, 0, 0.05 } }
+    local net = sw.network()
+    net:isource("ISRC", "gnd", "a", -1e-3)
+    net:element("DIODE", "a", "gnd", m)
+    local msg = errmsg(net.solve, net)
+    assert.matches("forces i = %-0.001 A through DIODE, which its model never reaches", msg)
+    assert.matches("its flat segment at 0 carries none in that direction", msg)
+    -- a current the model reaches solves: 1 mA on the rising segment
+    net:set("ISRC", 1e-3)
+    assert.is.near(1e-3, net:solve().i.DIODE, 1e-15)
+  end)
 end)

@@ -268,6 +268,50 @@ int sw_net_assumed_run(const sw_net *net, sw_net_lr *lr, int *hist, double *work
   return rc;
 }
 
+/* The range of y a device's model takes over all its segments. */
+static void model_y_range(const sw_net_dev *d, double *ymin, double *ymax)
+{
+  size_t k;
+  *ymin = INFINITY;
+  *ymax = -INFINITY;
+  for (k = 0; k < d->nseg; k++) {
+    const sw_net_seg *s = &d->seg[k];
+    double ends[2] = {s->lo, s->hi};
+    int e;
+    for (e = 0; e < 2; e++) {
+      double y = sw_isfinite(ends[e]) ? s->slope * ends[e] + s->icpt
+                 : s->slope == 0    ? s->icpt
+                 : (s->slope > 0) == (e == 1) ? INFINITY : -INFINITY;
+      if (y < *ymin) *ymin = y;
+      if (y > *ymax) *ymax = y;
+    }
+  }
+}
+
+/* One device and no segment its load line meets.  When the circuit forces
+ * the model's y (a current source in series with an i(v) device, say)
+ * to a value the model never takes, say that: a flat segment at 0 is the
+ * usual cause (no current below a knee). */
+static int no_crossing(const sw_net *net, sw_err *err)
+{
+  const sw_net_dev *d = &net->dev[0];
+  const char *name = net->el[d->el].name, *q = d->x_is_i ? "v" : "i", *u = d->x_is_i ? "V" : "A";
+  double Y = d->x_is_i ? net->Xv[0] : net->Xi[0], y0 = d->x_is_i ? net->vp[0] : net->ip[0];
+  double X = d->x_is_i ? net->Xi[0] : net->Xv[0], ymin, ymax;
+  model_y_range(d, &ymin, &ymax);
+  if (Y == 0 && X != 0 && (y0 < ymin || y0 > ymax)) {
+    int flat0 = (ymin == 0 && y0 < 0) || (ymax == 0 && y0 > 0);
+    return sw_err_set(err, SW_ENOSOL,
+                      "no consistent state: the circuit forces %s = %g %s through %s, which its "
+                      "model never reaches (its %s stays within [%g, %g] %s)%s",
+                      q, y0, u, name, q, ymin, ymax, u,
+                      flat0 ? "; its flat segment at 0 carries none in that direction" : "");
+  }
+  return sw_err_set(err, SW_ENOSOL,
+                    "no consistent state: the load line meets none of the %zu segments of %s",
+                    d->nseg, name);
+}
+
 static double count_states(const sw_net *net)
 {
   double n = 1;
@@ -312,10 +356,7 @@ int sw_net_auto(const sw_net *net, const int *start, double max_states,
   *iterations = visited;
   if (count == 0) {
     free(all);
-    if (m == 1)
-      return sw_err_set(err, SW_ENOSOL,
-                        "no consistent state: the load line meets none of the %zu segments of %s",
-                        net->dev[0].nseg, net->el[net->dev[0].el].name);
+    if (m == 1) return no_crossing(net, err);
     return sw_err_set(err, SW_ENOSOL,
                       "no consistent state exists (%s; enumeration of all %zu states found none)",
                       tried, visited);
