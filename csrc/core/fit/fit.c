@@ -617,7 +617,10 @@ static int within_cap(const sw_fit_opts *o, sw_pwl *out, sw_err *err)
  * model replaces out only when lower; on failure out is freed. */
 static int polish(fit_job *J, sw_pwl *out, double e_int, sw_err *err)
 {
-  double lo = 0.5 * e_int, hi = e_int, rtol = POLISH_RTOL, now = fit_data_maxerr(&J->d, out);
+  double lo = 0.5 * e_int, hi = e_int, rtol = POLISH_RTOL, now;
+  /* the greedy model is within e_int; its own error matters (one pass over
+   * the samples) only where a second pass may follow */
+  now = out->nseg <= POLISH_FEW ? fit_data_maxerr(&J->d, out) : e_int;
   int pass, st;
   for (pass = 0; pass < 2; pass++) {
     sw_pwl p;
