@@ -24,7 +24,7 @@ MODULE   := $(BUILDDIR)/segwise/core.so
 export LUA_PATH  := ./lua/?.lua;./lua/?/init.lua;$(LUA_PATH);;
 export LUA_CPATH := ./$(BUILDDIR)/?.so;$(LUA_CPATH);;
 
-.PHONY: all deps test demo bench clean check-exports check-layers
+.PHONY: all deps deps-locale test demo bench clean check-exports check-layers
 
 all: $(MODULE)
 
@@ -53,6 +53,14 @@ deps:
 	  { echo "segwise: install failed; please run: apt-get install -y$$missing" >&2; exit 1; }; \
 	fi
 
+# A decimal-comma locale for spec/locale_spec.lua (numbers in files must not
+# follow LC_NUMERIC); generated from the locales package's sources when absent.
+deps-locale:
+	@locale -a 2>/dev/null | grep -qiE '^de_DE\.utf-?8$$' || { [ "$$(id -u)" = 0 ] && \
+	  { [ -e /usr/share/i18n/locales/de_DE ] || $(MAKE) --no-print-directory deps \
+	    EXTRA_PKGS=locales; } && localedef -i de_DE -f UTF-8 de_DE.UTF-8 2>/dev/null; } || \
+	  echo "segwise: no de_DE.UTF-8 locale (the locale spec will say it skips)" >&2
+
 # Only the entry point is exported, and nothing of our own is left undefined
 # (a shared object links even when a binding calls a missing function).
 check-exports: $(MODULE)
@@ -67,7 +75,7 @@ check-layers:
 	  $(CORE_SRC) $(CORE_HDR) || true); \
 	if [ -n "$$bad" ]; then echo "core files include Lua headers: $$bad" >&2; exit 1; fi
 
-test: deps
+test: deps deps-locale
 	@$(MAKE) --no-print-directory all check-exports check-layers
 	@$(LUA) rockspec/generate.lua --check || echo "segwise: warning: the rockspec is out of date (CI fails on this)" >&2
 	@$(LUA) spec/run.lua $(LUA) $$(command -v busted) --cpath='./$(BUILDDIR)/?.so' $(SPEC)

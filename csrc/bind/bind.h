@@ -97,5 +97,6 @@ void lsw_open_fit(lua_State *L);
 void lsw_open_net(lua_State *L);
 void lsw_open_array(lua_State *L);
 void lsw_open_read(lua_State *L);
+void lsw_open_file(lua_State *L);
 
 #endif

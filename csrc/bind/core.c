@@ -21,6 +21,7 @@ LSW_EXPORT int luaopen_segwise_core(lua_State *L)
   lsw_open_curve(L);
   lsw_open_pwl(L);
   lsw_open_read(L);
+  lsw_open_file(L);
   lsw_open_fit(L);
   lsw_open_net(L);
   lua_pushliteral(L, SW_VERSION);

@@ -102,6 +102,18 @@ static lsw_array *push_target(lua_State *L)
   return a;
 }
 
+/* The path argument at idx: a string without NUL bytes (C would cut it). */
+static const char *check_path(lua_State *L, int idx, const char *fname)
+{
+  size_t len;
+  const char *path;
+  if (lua_type(L, idx) != LUA_TSTRING)
+    lsw_fail(L, fname, "path must be a string (got %s)", luaL_typename(L, idx));
+  path = lua_tolstring(L, idx, &len);
+  if (strlen(path) != len) lsw_fail(L, fname, "path contains a NUL byte");
+  return path;
+}
+
 static void adopt(lsw_array *a, double *data, size_t n)
 {
   free(a->data);
@@ -115,7 +127,7 @@ static void adopt(lsw_array *a, double *data, size_t n)
 static int l_read_columns(lua_State *L)
 {
   static const char *const allowed[] = {"scale", "delimiter", "header", NULL};
-  const char *path = luaL_checkstring(L, 1);
+  const char *path = check_path(L, 1, "read_columns");
   sw_text_col cols[2];
   sw_text_opts opts;
   lsw_array *ax, *ay, *al;
@@ -167,7 +179,7 @@ static int l_read_columns(lua_State *L)
 static int l_array_read(lua_State *L)
 {
   static const char *const allowed[] = {"scale", "delimiter", "header", NULL};
-  const char *path = luaL_checkstring(L, 1);
+  const char *path = check_path(L, 1, "array.read");
   sw_text_col col;
   sw_text_opts opts;
   lsw_array *a;
@@ -333,7 +345,7 @@ static void push_info(lua_State *L, const sw_pwl_prov *p, const sw_pwl *m)
 static int l_save(lua_State *L)
 {
   lsw_model *m = lsw_checkmodel(L, 1);
-  const char *path = luaL_checkstring(L, 2);
+  const char *path = check_path(L, 2, "model:save");
   const char *xu = NULL, *yu = NULL;
   sw_pwl_prov prov;
   sw_err err;
@@ -361,7 +373,7 @@ static int l_save(lua_State *L)
  * the model's fit_info. */
 static int l_load_model(lua_State *L)
 {
-  const char *path = luaL_checkstring(L, 1);
+  const char *path = check_path(L, 1, "pwl.load");
   char xu[SW_UNIT_MAX], yu[SW_UNIT_MAX];
   lsw_model *m = lsw_newmodel(L);
   int midx = lua_gettop(L);

@@ -2,6 +2,7 @@
 -- sw.array (contiguous doubles, with .read for one file column) and
 -- sw.pwl.load (a model saved by m:save).  The reading itself is C
 -- (csrc/core/text/textread.c); columns go straight into arrays, never Lua tables.
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local core = require "segwise.core"
 local util = require "segwise.util"
 
@@ -39,11 +40,11 @@ local function order_fault(path, opts, copts, sort)
     for i = 2, n do
       local a, b = xs[i - 1], xs[i]
       if b < a then
-        return (fmt .. "comes after x = %.17g on line %d; x must increase (or pass sort = true)")
-          :format(path, lines[i], b, a, lines[i - 1])
+        return numtext.format(fmt .. "comes after x = %.17g on line %d; x must increase "
+          .. "(or pass sort = true)", path, lines[i], b, a, lines[i - 1])
       elseif b == a and opts.duplicates ~= "mean" then
-        return (fmt .. "repeats line %d; pass duplicates = \"mean\" to average repeats")
-          :format(path, lines[i], b, lines[i - 1])
+        return numtext.format(fmt .. "repeats line %d; pass duplicates = \"mean\" to average "
+          .. "repeats", path, lines[i], b, lines[i - 1])
       end
     end
   elseif opts.duplicates ~= "mean" then
@@ -51,8 +52,8 @@ local function order_fault(path, opts, copts, sort)
     for i = 1, n do
       local v = xs[i]
       if seen[v] then
-        return (fmt .. "repeats line %d; pass duplicates = \"mean\" to average repeats")
-          :format(path, lines[i], v, seen[v])
+        return numtext.format(fmt .. "repeats line %d; pass duplicates = \"mean\" to average "
+          .. "repeats", path, lines[i], v, seen[v])
       end
       seen[v] = lines[i]
     end
@@ -82,7 +83,7 @@ function M.curve.read(path, opts)
   ys:free()
   if not ok then
     local where = order_fault(path, opts, copts, sort)
-    local msg = where or (path .. ": " .. tostring(c):gsub("^.-segwise%.curve%.samples: ", ""))
+    local msg = where or (path .. ": " .. numtext.str(c):gsub("^.-segwise%.curve%.samples: ", ""))
     error("segwise.curve.read: " .. msg, 2)
   end
   core.curve_sources[c] = path

@@ -11,6 +11,7 @@
 --   report.fit_table, report.op_table, report.compare_fits   (below)
 -- @module segwise.report
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local si = require "segwise.report.si"
 local tables = require "segwise.report.tables"
 local json = require "segwise.report.json"
@@ -29,7 +30,7 @@ function M.json(value, opts)
 end
 
 local huge, abs = math.huge, math.abs
-local fmt = string.format
+local fmt = numtext.format
 local concat = table.concat
 local DASH = "\u{2014}"       -- em dash: "no value" in a cell
 local md_escape = tables.md_escape
@@ -115,7 +116,7 @@ local function check_positive(v, name, fname, allow_zero)
   if v == nil then return end
   if type(v) ~= "number" or v ~= v or v == huge or v < 0 or (v == 0 and not allow_zero) then
     error(fmt("%s: %s must be a %s finite number (got %s)", fname, name,
-      allow_zero and "non-negative" or "positive", tostring(v)), 3)
+      allow_zero and "non-negative" or "positive", numtext.str(v)), 3)
   end
 end
 
@@ -189,7 +190,7 @@ function M.fit_table(model, opts)
   end
   local function compare(lo, hi, what)
     local ok, c = pcall(model.compare, model, curve, { lo = lo, hi = hi, rel_floor = floor })
-    if not ok then error(fmt("%s: %s: %s", F, what, tostring(c)), 3) end
+    if not ok then error(fmt("%s: %s: %s", F, what, numtext.str(c)), 3) end
     if type(c) ~= "table" then error(fmt("%s: %s: compare returned no table", F, what), 3) end
     return c
   end
@@ -264,9 +265,9 @@ function M.fit_table(model, opts)
     sum = compare(lo, hi, "whole range")
   end
   if info then
-    head[#head + 1] = fmt("fit: %s, %s error%s", tostring(info.criterion or "?"),
-      tostring(info.error or "?"),
-      info.segments and fmt(", segments %s", tostring(info.segments)) or "")
+    head[#head + 1] = fmt("fit: %s, %s error%s", numtext.str(info.criterion or "?"),
+      numtext.str(info.error or "?"),
+      info.segments and fmt(", segments %s", numtext.str(info.segments)) or "")
   end
   if sum then
     local e = {}
@@ -313,11 +314,11 @@ local function sorted_keys(...)
     end
   end
   table.sort(keys, function(a, b)
-    local na, nb = tonumber(a), tonumber(b)
+    local na, nb = numtext.tonumber(a), numtext.tonumber(b)
     if na and nb then return na < nb end
     if na then return true end
     if nb then return false end
-    return tostring(a) < tostring(b)
+    return numtext.str(a) < numtext.str(b)
   end)
   return keys
 end
@@ -371,7 +372,7 @@ local function caution_lines(op, group)
           abbreviated(names), worst.element, worst.detail and (" " .. worst.detail) or "")
       end
     else
-      lines[#lines + 1] = tostring(w[i])
+      lines[#lines + 1] = numtext.str(w[i])
     end
   end
   return lines
@@ -391,7 +392,7 @@ function M.op_table(op, opts)
   for _, node in ipairs(sorted_keys(op.v)) do
     -- the reference node is 0 V by definition: listed only on request
     if opts.ground or (node ~= "0" and node ~= "gnd" and node ~= 0) then
-      vrows[#vrows + 1] = { node = tostring(node), v = op.v[node] }
+      vrows[#vrows + 1] = { node = numtext.str(node), v = op.v[node] }
     end
   end
   if format == "csv" then
@@ -399,7 +400,7 @@ function M.op_table(op, opts)
     local rows = {}
     for _, r in ipairs(vrows) do rows[#rows + 1] = { kind = "node", name = r.node, v = r.v } end
     for _, name in ipairs(sorted_keys(op.i, op.p, op.state, op.vd)) do
-      rows[#rows + 1] = { kind = "element", name = tostring(name), v = op.vd and op.vd[name],
+      rows[#rows + 1] = { kind = "element", name = numtext.str(name), v = op.vd and op.vd[name],
         i = op.i and op.i[name], p = op.p and op.p[name],
         state = op.state and op.state[name] }
     end
@@ -416,7 +417,7 @@ function M.op_table(op, opts)
   local has_vd = type(op.vd) == "table"
   for _, name in ipairs(sorted_keys(op.i, op.p, op.state, op.vd)) do
     local on_bp = type(op.on_breakpoint) == "table" and op.on_breakpoint[name]
-    erows[#erows + 1] = { name = tostring(name), v = has_vd and op.vd[name] or nil,
+    erows[#erows + 1] = { name = numtext.str(name), v = has_vd and op.vd[name] or nil,
       i = op.i and op.i[name], p = op.p and op.p[name],
       state = op.state and op.state[name], knot = on_bp and "yes" or nil }
   end
@@ -443,8 +444,8 @@ function M.op_table(op, opts)
     parts[#parts + 1] = concat(l, "\n") .. "\n"
   end
   local how = {}
-  if op.method then how[#how + 1] = "method: " .. tostring(op.method) end
-  if op.iterations then how[#how + 1] = "iterations: " .. tostring(op.iterations) end
+  if op.method then how[#how + 1] = "method: " .. numtext.str(op.method) end
+  if op.iterations then how[#how + 1] = "iterations: " .. numtext.str(op.iterations) end
   if #how > 0 then parts[#parts + 1] = concat(how, ", ") .. "\n" end
   return finish(parts, opts, F)
 end
@@ -494,7 +495,7 @@ function M.compare_fits(fits, curve, opts)
     local ok, c
     if range then ok, c = pcall(f.model.compare, f.model, curve, range)
     else ok, c = pcall(f.model.compare, f.model, curve) end
-    if not ok then error(fmt("%s: fits[%d] ('%s'): %s", F, i, name, tostring(c)), 2) end
+    if not ok then error(fmt("%s: fits[%d] ('%s'): %s", F, i, name, numtext.str(c)), 2) end
     local info
     if type(f.model.fit_info) == "function" then info = f.model:fit_info() end
     local judge = { floored = type(floor) == "number" and floor > 0,

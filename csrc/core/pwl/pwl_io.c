@@ -1,8 +1,10 @@
 /* Model files: a plain CSV of knots (x, y arriving from the left, y leaving
  * to the right) under a '#' header that gives the version, units, extension
  * rule and segment count.  Numbers are printed with %.17g so a save and load
- * gives back the same doubles.  Saving writes "<path>.tmp" and renames it
- * into place, so a failure never leaves a truncated file over a good one. */
+ * gives back the same doubles, and both run in the C locale whatever the
+ * host's (text/textloc.h), so a file reads the same everywhere.  Saving goes
+ * through text/textfile.h: a temporary beside the real target, renamed into
+ * place, so a failure never leaves a truncated file over a good one. */
 #include "pwl/pwl_io.h"
 
 #include <errno.h>
@@ -11,16 +13,12 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <unistd.h>
 
+#include "text/textfile.h"
+#include "text/textloc.h"
 #include "text/textread.h"
 
 static const char *const extend_names[] = {"line", "hold", "error"};
-
-static void os_error(int e, char *dst, size_t cap)
-{
-  if (e == 0 || strerror_r(e, dst, cap) != 0) snprintf(dst, cap, "error %d", e);
-}
 
 /* A unit goes on a comment line: refuse line breaks and control bytes
  * (a tab is fine). */
@@ -69,56 +67,33 @@ int sw_pwl_save(const sw_pwl *m, const char *path, const char *xunit,
   return sw_pwl_save_prov(m, path, xunit, yunit, NULL, err);
 }
 
-int sw_pwl_save_prov(const sw_pwl *m, const char *path, const char *xunit,
-                     const char *yunit, const sw_pwl_prov *prov, sw_err *err)
+/* The checks of a save, before anything is written. */
+static int check_save(const sw_pwl *m, const char *path, const char *xunit, const char *yunit,
+                      const sw_pwl_prov *prov, sw_err *err)
 {
-  char *tmp;
-  char why[128];
-  FILE *f;
-  size_t len;
-  int bad;
   if (!m || m->nseg < 1 || !m->x || !m->ya || !m->yb || !m->slope)
     return sw_err_set(err, SW_EINVAL, "the model is empty");
   if (!path || !*path) return sw_err_set(err, SW_EINVAL, "the path is empty");
   if (check_unit(xunit, "x", err) || check_unit(yunit, "y", err))
     return err ? err->code : SW_EINVAL;
   if (prov && sw_pwl_prov_check(prov, err)) return err ? err->code : SW_EINVAL;
-  len = strlen(path);
-  tmp = sw_alloc(len + 5, 1, err);
-  if (!tmp) return SW_ENOMEM;
-  memcpy(tmp, path, len);
-  memcpy(tmp + len, ".tmp", 5);
-  errno = 0;
-  f = fopen(tmp, "w");
-  if (!f) {
-    os_error(errno, why, sizeof why);
-    sw_err_set(err, SW_EIO, "cannot write \"%s\": %s", tmp, why);
-    free(tmp);
-    return SW_EIO;
-  }
-  errno = 0;
-  write_model(f, m, xunit, yunit, prov);
-  bad = ferror(f) || fflush(f) != 0 || fsync(fileno(f)) != 0;
-  if (bad) os_error(errno, why, sizeof why);
-  if (fclose(f) != 0 && !bad) { bad = 1; os_error(errno, why, sizeof why); }
-  if (!bad) {
-    errno = 0;
-    if (rename(tmp, path) != 0) {
-      os_error(errno, why, sizeof why);
-      sw_err_set(err, SW_EIO, "cannot rename \"%s\" to \"%s\": %s (the old file is untouched)",
-                 tmp, path, why);
-      remove(tmp);
-      free(tmp);
-      return SW_EIO;
-    }
-  } else {
-    sw_err_set(err, SW_EIO, "cannot write \"%s\": %s (the old file is untouched)", tmp, why);
-    remove(tmp);
-    free(tmp);
-    return SW_EIO;
-  }
-  free(tmp);
   return SW_OK;
+}
+
+int sw_pwl_save_prov(const sw_pwl *m, const char *path, const char *xunit,
+                     const char *yunit, const sw_pwl_prov *prov, sw_err *err)
+{
+  sw_wfile w;
+  sw_cnum c;
+  int st = check_save(m, path, xunit, yunit, prov, err);
+  if (st) return st;
+  if ((st = sw_cnum_enter(&c, err))) return st;
+  if (!(st = sw_wfile_open(&w, path, err))) {
+    write_model(w.f, m, xunit, yunit, prov);
+    st = sw_wfile_commit(&w, err);
+  }
+  sw_cnum_leave(&c);
+  return st;
 }
 
 /* Reads "# key: value" comment lines for the extension rule, the units,
@@ -129,12 +104,13 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
                        sw_pwl_prov *prov, sw_err *err)
 {
   const char *p = buf;
+  char eol_char = strchr(buf, '\n') ? '\n' : '\r';
   size_t line = 1;
   sw_prov_seen seen;
   memset(&seen, 0, sizeof seen);
   *ext = SW_EXTEND_LINE;
   while (*p) {
-    const char *eol = strchr(p, '\n');
+    const char *eol = strchr(p, eol_char); /* as the rows: LF, or CR without any LF */
     const char *q = p, *v, *ve;
     size_t n = eol ? (size_t)(eol - p) : strlen(p);
     while (q < p + n && (*q == ' ' || *q == '\t')) q++;
@@ -163,11 +139,17 @@ static int read_header(const char *buf, const char *path, sw_extend *ext,
                               "%s:%zu: extend must be line, hold or error (found \"%.*s\")", path,
                               line, (int)((ve - v) > 40 ? 40 : (ve - v)), v);
         } else if (klen == 8 && memcmp(q, "segments", 8) == 0) {
-          char *e;
-          unsigned long long c = strtoull(v, &e, 10);
+          char *e = (char *)v;
+          unsigned long long c = 0;
+          errno = 0;
+          /* strtoull would take "-1" as its wrap-around: a digit must come first */
+          if (v < ve && *v >= '0' && *v <= '9') c = strtoull(v, &e, 10);
           if (e == v || e != ve || c == 0)
             return sw_err_set(err, SW_EINVAL,
                               "%s:%zu: segments must be a positive whole number (found \"%.*s\")",
+                              path, line, (int)((ve - v) > 40 ? 40 : (ve - v)), v);
+          if (errno == ERANGE || c > (size_t)-1 / 64)
+            return sw_err_set(err, SW_EINVAL, "%s:%zu: segments is too large (found \"%.*s\")",
                               path, line, (int)((ve - v) > 40 ? 40 : (ve - v)), v);
           *nseg_said = (size_t)c;
           *said_line = line;
@@ -264,8 +246,27 @@ static int build_model(sw_pwl *m, double *const col[4], const size_t *lines, siz
   return st;
 }
 
+static int load_c(sw_pwl *m, const char *path, char *xunit, char *yunit, sw_pwl_prov *prov,
+                  sw_err *err);
+
 int sw_pwl_load_prov(sw_pwl *m, const char *path, char *xunit, char *yunit,
                      sw_pwl_prov *prov, sw_err *err)
+{
+  sw_cnum c;
+  int st;
+  memset(m, 0, sizeof *m);
+  if ((st = sw_cnum_enter(&c, err))) {
+    if (prov) sw_pwl_prov_init(prov);
+    return st;
+  }
+  st = load_c(m, path, xunit, yunit, prov, err);
+  sw_cnum_leave(&c);
+  return st;
+}
+
+/* sw_pwl_load_prov's work, inside its C-locale scope. */
+static int load_c(sw_pwl *m, const char *path, char *xunit, char *yunit, sw_pwl_prov *prov,
+                  sw_err *err)
 {
   static const sw_text_opts opts = {',', 1};
   sw_text_col cols[4] = {{"x", 0, 1.0, 0}, {"y_left", 0, 1.0, 0}, {"y_right", 0, 1.0, 0},

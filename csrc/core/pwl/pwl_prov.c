@@ -6,6 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "text/textloc.h"
 #include "text/textnum.h"
 
 typedef enum { F_WORD, F_TEXT, F_PATH, F_RANGE, F_BOOL, F_POS, F_NONNEG, F_ERR } fkind;
@@ -211,11 +212,12 @@ int sw_pwl_prov_check(const sw_pwl_prov *p, sw_err *err)
 void sw_pwl_prov_format(double v, char *buf, size_t cap)
 {
   int prec;
+  /* '.' as the point in any locale: the text goes into model files */
   for (prec = 15; prec < 17; prec++) {
-    snprintf(buf, cap, "%.*g", prec, v);
-    if (strtod(buf, NULL) == v) return;
+    sw_text_fmt_g(buf, cap, prec, v);
+    if (sw_text_strtod_c(buf, NULL) == v) return;
   }
-  snprintf(buf, cap, "%.17g", v);
+  sw_text_fmt_g(buf, cap, 17, v);
 }
 
 static void put_number(FILE *f, double v)
@@ -285,7 +287,7 @@ static int read_number(const char *s, size_t n, double *v, size_t *used)
   while (k < n && k + 1 < sizeof buf && !is_blank(s[k])) { buf[k] = s[k]; k++; }
   if (k == 0 || (k < n && !is_blank(s[k]))) return 0;
   buf[k] = '\0';
-  *v = sw_text_strtod(buf, &end, 0);
+  *v = sw_text_strtod_c(buf, &end);
   if (end != buf + k) return 0;
   *used = k;
   return 1;

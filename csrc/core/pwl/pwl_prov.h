@@ -58,7 +58,7 @@ int sw_pwl_prov_add_param(sw_pwl_prov *p, const char *name, const char *value, s
 int sw_pwl_prov_check(const sw_pwl_prov *p, sw_err *err);
 
 /* v as the shortest of %.15g, %.16g, %.17g that reads back as v (cap:
- * SW_PROV_NUMBER bytes will do). */
+ * SW_PROV_NUMBER bytes will do), with a '.' point in any locale. */
 #define SW_PROV_NUMBER 32
 void sw_pwl_prov_format(double v, char *buf, size_t cap);
 

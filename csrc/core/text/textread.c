@@ -1,7 +1,11 @@
 /* Numeric text reader (see textread.h).  One fread of the whole file, one
  * pass to count lines and refuse binary bytes, one pass to parse with strtod
- * straight on the buffer.  No Lua, no global state. */
+ * straight on the buffer, in the C locale whatever the host's (textloc.h).
+ * A line ends at LF or CR LF; in a file without any LF, at each CR (classic
+ * Mac files; elsewhere a stray CR stays part of its line).  No Lua, no
+ * global state. */
 #include "text/textread.h"
+#include "text/textloc.h"
 #include "text/textnum.h"
 
 #include <errno.h>
@@ -15,6 +19,9 @@
 #define SHOW_MAX 40   /* characters of offending text quoted in a message */
 #define NUM_MAX 80    /* longest field the slow number path accepts */
 #define NO_FIELD ((size_t)-1) /* an optional column the file lacks */
+/* Most a reader takes from a pipe, FIFO or device (a regular file tells its
+ * size and is read whole): endless streams such as /dev/zero stop here. */
+#define STREAM_MAX ((size_t)256 << 20)
 
 typedef struct scan {
   const char *p, *end;
@@ -22,6 +29,7 @@ typedef struct scan {
   const char *line_start;
   size_t line;             /* 1-based */
   char delim;              /* ',', ';', '\t', or ' ' for whitespace runs */
+  int cr_only;             /* no LF in the text: a lone CR ends a line */
   int extended_ok;         /* sw_text_extended_ok(), asked once */
   sw_err *err;
 } scan;
@@ -46,7 +54,15 @@ typedef struct layout {
 
 static int is_eol(const scan *s, const char *q)
 {
-  return q >= s->end || *q == '\n' || (*q == '\r' && (q + 1 >= s->end || q[1] == '\n'));
+  return q >= s->end || *q == '\n' ||
+         (*q == '\r' && (s->cr_only || q + 1 >= s->end || q[1] == '\n'));
+}
+
+/* The line end at or after s->p (its LF, or its CR in a CR-only text). */
+static const char *find_eol(const scan *s)
+{
+  const char *q = memchr(s->p, s->cr_only ? '\r' : '\n', (size_t)(s->end - s->p));
+  return q ? q : s->end;
 }
 
 static int is_blank(const scan *s, char c)
@@ -88,21 +104,20 @@ static int fail_at(scan *s, const char *at, const char *fmt, ...)
                     (size_t)(at - s->line_start) + 1, msg);
 }
 
-static void next_line(scan *s)
+/* Consumes the line end the scanner stands on (CR LF counts as one). */
+static void end_row(scan *s)
 {
-  const char *q = memchr(s->p, '\n', (size_t)(s->end - s->p));
-  s->p = q ? q + 1 : s->end;
+  if (s->p < s->end && *s->p == '\r') s->p++;
+  else if (s->p < s->end && *s->p == '\n') s->p++;
+  if (s->p < s->end && *s->p == '\n' && s->p[-1] == '\r') s->p++;
   s->line++;
   s->line_start = s->p;
 }
 
-/* Consumes the line end the scanner stands on. */
-static void end_row(scan *s)
+static void next_line(scan *s)
 {
-  if (s->p < s->end && *s->p == '\r') s->p++;
-  if (s->p < s->end && *s->p == '\n') s->p++;
-  s->line++;
-  s->line_start = s->p;
+  s->p = find_eol(s);
+  end_row(s);
 }
 
 /* Scans one field starting at s->p (blanks allowed before it).  Sets *more
@@ -117,7 +132,7 @@ static int next_field(scan *s, field *f, int *more)
   if (f->quoted) {
     q = s->p + 1;
     for (;;) {
-      if (q >= s->end || *q == '\n')
+      if (q >= s->end || *q == '\n' || (s->cr_only && *q == '\r'))
         return fail_at(s, f->p, "quoted field has no closing quote");
       if (*q == '"') {
         if (q + 1 < s->end && q[1] == '"') { q += 2; continue; }
@@ -440,19 +455,23 @@ static int parse_row(scan *s, layout *lay)
   return SW_OK;
 }
 
-/* One pass: refuses binary bytes (naming line and column), counts lines. */
+/* One pass: refuses binary bytes (naming line and column), counts lines;
+ * decides whether a lone CR ends a line. */
 static int check_text(scan *s, const char *buf, size_t len, size_t *nlines)
 {
   size_t i, n = 1;
   const unsigned char *u = (const unsigned char *)buf;
+  char eol;
+  s->cr_only = memchr(buf, '\n', len) == NULL;
+  eol = s->cr_only ? '\r' : '\n';
   for (i = 0; i < len; i++) {
     unsigned char c = u[i];
     const char *ls;
     if ((unsigned char)(c - 0x20) < 0x5f || c >= 0x80) continue; /* printable */
-    if (c == '\n') { n++; continue; }
+    if (c == (unsigned char)eol) { n++; continue; }
     if (c == '\t' || c == '\r') continue;
     ls = buf + i;
-    while (ls > buf && ls[-1] != '\n') ls--;
+    while (ls > buf && ls[-1] != eol) ls--;
     s->line = n;
     s->line_start = ls;
     return fail_at(s, buf + i, "binary data (byte 0x%02x): not a text file", c);
@@ -471,6 +490,7 @@ static void scan_init(scan *s, const char *buf, size_t len, const char *name, ch
   s->line_start = buf;
   s->line = 1;
   s->delim = delim ? delim : ',';
+  s->cr_only = 0;
   s->err = err;
   s->extended_ok = sw_text_extended_ok();
 }
@@ -537,10 +557,10 @@ static void trim_rows(size_t ncols, size_t r, double **out, size_t **ln)
   }
 }
 
-int sw_text_parse(const char *buf, size_t len, const char *name,
-                  const sw_text_opts *opts, const sw_text_col *cols,
-                  size_t ncols, double **out, size_t **lines, size_t *nrows,
-                  sw_err *err)
+/* sw_text_parse's work, run inside its C-locale scope. */
+static int parse_c(const char *buf, size_t len, const char *name, const sw_text_opts *opts,
+                   const sw_text_col *cols, size_t ncols, double **out, size_t **lines,
+                   size_t *nrows, sw_err *err)
 {
   static const sw_text_opts defaults = {0, -1};
   scan s;
@@ -579,6 +599,23 @@ int sw_text_parse(const char *buf, size_t len, const char *name,
   return st;
 }
 
+int sw_text_parse(const char *buf, size_t len, const char *name,
+                  const sw_text_opts *opts, const sw_text_col *cols,
+                  size_t ncols, double **out, size_t **lines, size_t *nrows,
+                  sw_err *err)
+{
+  sw_cnum c;
+  size_t k;
+  int st;
+  for (k = 0; k < ncols; k++) out[k] = NULL;
+  if (lines) *lines = NULL;
+  *nrows = 0;
+  if ((st = sw_cnum_enter(&c, err))) return st;
+  st = parse_c(buf, len, name, opts, cols, ncols, out, lines, nrows, err);
+  sw_cnum_leave(&c);
+  return st;
+}
+
 /* The system's words for errno e (the thread-safe XSI strerror_r). */
 static void os_error(int e, char *dst, size_t cap)
 {
@@ -591,6 +628,7 @@ int sw_text_slurp(const char *path, char **buf, size_t *len, sw_err *err)
   char *b = NULL;
   size_t cap = 1 << 16, n = 0;
   struct stat sb;
+  int stream = 1;
   *buf = NULL;
   *len = 0;
   errno = 0;
@@ -606,7 +644,8 @@ int sw_text_slurp(const char *path, char **buf, size_t *len, sw_err *err)
       fclose(f);
       return sw_err_set(err, SW_EIO, "cannot read \"%s\": it is a directory", path);
     }
-    if (S_ISREG(sb.st_mode) && sb.st_size >= 0 && (unsigned long long)sb.st_size < (size_t)-2)
+    stream = !S_ISREG(sb.st_mode);
+    if (!stream && sb.st_size >= 0 && (unsigned long long)sb.st_size < (size_t)-2)
       cap = (size_t)sb.st_size + 2;
   }
   b = sw_alloc(cap, 1, err);
@@ -614,13 +653,21 @@ int sw_text_slurp(const char *path, char **buf, size_t *len, sw_err *err)
   for (;;) {
     size_t got;
     if (n + 1 >= cap) {
-      char *g = sw_realloc(b, cap * 2, 1, err);
-      if (!g) { free(b); fclose(f); return SW_ENOMEM; }
+      char *g;
+      if (stream && n >= STREAM_MAX) {
+        free(b);
+        fclose(f);
+        return sw_err_set(err, SW_EIO, "cannot read \"%s\": it is not a regular file and gives "
+                          "more than %zu MiB; copy it to a file first", path, STREAM_MAX >> 20);
+      }
+      if (!(g = sw_realloc(b, cap * 2, 1, err))) { free(b); fclose(f); return SW_ENOMEM; }
       b = g;
       cap *= 2;
     }
     errno = 0;
     got = fread(b + n, 1, cap - 1 - n, f);
+    /* a NUL byte is binary data: stop here, the parser names where it is */
+    if (memchr(b + n, '\0', got)) { n += got; break; }
     n += got;
     if (got == 0) break;
   }

@@ -2,11 +2,12 @@
 -- log axes) and SI tick labels.  Layout only: no fitting or solving here.
 -- @module segwise.plot.axis
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local report = require "segwise.report"
 
 local M = {}
 local floor, ceil, abs, huge, max = math.floor, math.ceil, math.abs, math.huge, math.max
-local fmt = string.format
+local fmt = numtext.format
 
 -- Decimal exponent of |v| as printed, immune to log10 rounding (log10(1e-3)
 -- may come out as -2.9999...).
@@ -19,9 +20,13 @@ local function pow10(k) return tonumber("1e" .. k) end
 local function finite(v) return type(v) == "number" and v == v and v ~= huge and v ~= -huge end
 M.finite = finite
 
--- The 1-2-5 step nearest above span/target.
-local function nice_step(span, target)
-  local raw = span / target
+local BIGGEST = 1.7976931348623157e308 -- the largest double (IEEE 754 binary64)
+local function clamp(v) return v > BIGGEST and BIGGEST or (v < -BIGGEST and -BIGGEST or v) end
+
+-- The 1-2-5 step nearest above span/target (span may be given as lo, hi:
+-- hi - lo itself may overflow for values near the largest double).
+local function nice_step(span, target, lo)
+  local raw = lo and (span / target - lo / target) or span / target
   local e = dexp(raw)
   local mag = pow10(e)
   local norm = raw / mag
@@ -37,7 +42,7 @@ M.nice_step = nice_step
 local function widen(lo, hi)
   if lo == hi then
     local d = (lo == 0) and 1 or abs(lo) * 0.1
-    return lo - d, hi + d
+    return clamp(lo - d), clamp(hi + d)
   end
   local need = max(abs(lo), abs(hi)) * 1e-9
   if hi - lo < need then
@@ -53,12 +58,14 @@ local SMALLER = { [1] = 0.5, [2] = 0.5, [5] = 0.4, [10] = 0.5 }   -- next 1-2-5 
 
 local function linear(lo, hi, target, tight)
   lo, hi = widen(lo, hi)
-  local step, m = nice_step(hi - lo, target)
+  local step, m = nice_step(hi, target, lo)
   local k0 = floor(lo / step + 1e-9)
   local k1 = ceil(hi / step - 1e-9)
+  -- outer ticks beyond the largest double: keep the data's range instead
+  if not finite(k0 * step) or not finite(k1 * step) then tight = true end
   -- when whole steps would waste over a quarter of the axis, take the next
   -- smaller step if the tick count stays reasonable (at most 2*target+1)
-  if not tight and (hi - lo) < 0.75 * (k1 - k0) * step then
+  if not tight and (hi / 2 - lo / 2) < 0.375 * (k1 - k0) * step then
     local s2 = step * SMALLER[m]
     local j0, j1 = floor(lo / s2 + 1e-9), ceil(hi / s2 - 1e-9)
     if j1 - j0 <= 2 * target then step, k0, k1 = s2, j0, j1 end
@@ -74,10 +81,11 @@ local function linear(lo, hi, target, tight)
 end
 
 local function log_ticks(lo, hi, target, tight)
-  if lo == hi then lo, hi = lo / 2, hi * 2 end
-  local d0 = floor(math.log(lo, 10) + 1e-9)
-  local d1 = ceil(math.log(hi, 10) - 1e-9)
-  if d1 == d0 then d1 = d0 + 1 end
+  if lo == hi then lo, hi = lo / 2, clamp(hi * 2) end
+  -- decades whose power of ten is a normal or subnormal double
+  local d0 = math.max(-323, floor(math.log(lo, 10) + 1e-9))
+  local d1 = math.min(308, ceil(math.log(hi, 10) - 1e-9))
+  if d1 == d0 then if d1 < 308 then d1 = d0 + 1 else d0 = d1 - 1 end end
   local ticks = {}
   if d1 - d0 <= 2 then
     -- few decades: 1-2-5 in each decade
@@ -107,7 +115,7 @@ local function log_ticks(lo, hi, target, tight)
     end
     ticks = kept
   else
-    lo, hi = pow10(d0), pow10(d1)
+    lo, hi = math.min(lo, pow10(d0)), math.max(hi, pow10(d1))
   end
   return lo, hi, ticks
 end
@@ -121,8 +129,8 @@ end
 function M.new(lo, hi, opts)
   opts = opts or {}
   if not finite(lo) or not finite(hi) then
-    error(fmt("segwise.plot: axis range must be finite (got %s .. %s)", tostring(lo),
-      tostring(hi)), 2)
+    error(fmt("segwise.plot: axis range must be finite (got %s .. %s)", numtext.str(lo),
+      numtext.str(hi)), 2)
   end
   if lo > hi then lo, hi = hi, lo end
   local unit = opts.unit or ""
@@ -131,7 +139,8 @@ function M.new(lo, hi, opts)
   local ticks, step
   if ax.log then
     if lo <= 0 then
-      error(fmt("segwise.plot: log axis needs positive values (smallest is %s)", tostring(lo)), 2)
+      error(fmt("segwise.plot: log axis needs positive values (smallest is %s)",
+        numtext.str(lo)), 2)
     end
     ax.lo, ax.hi, ticks = log_ticks(lo, hi, target, opts.tight)
   else
@@ -140,6 +149,16 @@ function M.new(lo, hi, opts)
   -- a bound the user fixed is kept exactly; ticks outside it are dropped
   if opts.min or opts.max then
     ax.lo, ax.hi = opts.min or ax.lo, opts.max or ax.hi
+    if ax.lo > ax.hi then
+      error(fmt("segwise.plot: axis min (%s) is above its max (%s)", numtext.str(ax.lo),
+        numtext.str(ax.hi)), 2)
+    end
+    if ax.lo == ax.hi then -- one value: widened, or every point would map to 0/0
+      if ax.log then ax.lo, ax.hi = ax.lo / 2, clamp(ax.hi * 2)
+      else ax.lo, ax.hi = widen(ax.lo, ax.hi) end
+      local _, _, t2, s2 = (ax.log and log_ticks or linear)(ax.lo, ax.hi, target, true)
+      ticks, step = t2, s2
+    end
     local kept, span = {}, ax.hi - ax.lo
     for _, v in ipairs(ticks) do
       if v >= ax.lo - 1e-9 * span and v <= ax.hi + 1e-9 * span then kept[#kept + 1] = v end
@@ -156,9 +175,9 @@ function M.new(lo, hi, opts)
       return (math.log(v, 10) - la) / (lb - la)
     end
   else
-    ax.map = function(v)
+    ax.map = function(v) -- halves first: b - a may overflow
       if not finite(v) then return nil end
-      return (v - a) / (b - a)
+      return (v / 2 - a / 2) / (b / 2 - a / 2)
     end
   end
   return ax
@@ -178,6 +197,12 @@ function M.labels(ticks, unit, log, step)
   local e3 = report.si_step(biggest, 3) or 0
   local pre = report.PREFIX[e3] or ""
   local se = dexp(step)
+  if biggest >= 1e27 then -- beyond the largest prefix: exponent form, each tick its own
+    for i, v in ipairs(ticks) do
+      labels[i] = v == 0 and "0" or report.si(v, unit, math.min(15, max(1, dexp(v) - se + 1)))
+    end
+    return labels
+  end
   for i, v in ipairs(ticks) do
     local s
     if v == 0 then s = "0"

@@ -3,10 +3,11 @@
 -- back ends.  Layout only: no fitting or solving here.
 -- @module segwise.plot.common
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local axis = require "segwise.plot.axis"
 
 local M = {}
-local fmt = string.format
+local fmt = numtext.format
 local finite = axis.finite
 
 -- Okabe-Ito colour-blind-safe palette (M. Okabe and K. Ito, "Color
@@ -31,6 +32,40 @@ M.DASHES = { {}, { 6, 3 }, { 2, 2 }, { 8, 3, 2, 3 }, { 12, 4 }, { 1, 3 }, { 4, 2
 M.MARKERS = { "circle", "square", "triangle", "diamond", "cross", "plus", "triangle_down", "star" }
 
 local STYLES = { line = true, points = true, step = true }
+
+-- Well-formed UTF-8 sequences by lead byte (RFC 3629: no overlong forms, no
+-- surrogates, nothing above U+10FFFF), as anchored patterns.
+local SEQ = {}
+for b = 0xC2, 0xDF do SEQ[b] = "^[\xC2-\xDF][\x80-\xBF]" end
+SEQ[0xE0] = "^\xE0[\xA0-\xBF][\x80-\xBF]"
+for b = 0xE1, 0xEF do SEQ[b] = "^[\xE1-\xEF][\x80-\xBF][\x80-\xBF]" end
+SEQ[0xED] = "^\xED[\x80-\x9F][\x80-\xBF]"
+SEQ[0xF0] = "^\xF0[\x90-\xBF][\x80-\xBF][\x80-\xBF]"
+for b = 0xF1, 0xF3 do SEQ[b] = "^[\xF1-\xF3][\x80-\xBF][\x80-\xBF][\x80-\xBF]" end
+SEQ[0xF4] = "^\xF4[\x80-\x8F][\x80-\xBF][\x80-\xBF]"
+local REPLACEMENT = "\u{FFFD}"
+
+--- Any value as label text that is valid UTF-8 and legal in XML 1.0: each
+-- byte that starts no well-formed sequence becomes U+FFFD, and so do the
+-- noncharacters U+FFFE and U+FFFF; control characters other than tab and
+-- line ends are dropped.  One pass over the bytes.
+function M.text(v)
+  local s = numtext.str(v)
+  local out, i, n = {}, 1, #s
+  while i <= n do
+    local hi = s:find("[\x80-\xFF]", i)
+    if not hi then out[#out + 1] = s:sub(i); break end
+    out[#out + 1] = s:sub(i, hi - 1)
+    local pat = SEQ[s:byte(hi)]
+    local _, e = pat and s:find(pat, hi)
+    if e then out[#out + 1] = s:sub(hi, e); i = e + 1
+    else out[#out + 1] = REPLACEMENT; i = hi + 1 end
+  end
+  s = table.concat(out)
+  s = s:gsub("\xEF\xBF[\xBE\xBF]", REPLACEMENT)
+  return (s:gsub("[%z\1-\8\11\12\14-\31\127]", ""))
+end
+local text = M.text
 
 local function len_of(a)
   local ok, n = pcall(function() return #a end)
@@ -71,8 +106,8 @@ function M.normalise(spec, F)
     error(fmt("%s: spec must be a table (got %s)", F, type(spec)), 3)
   end
   local out = { title = spec.title, marks = {}, series = {},
-    marks_label = spec.marks_label and tostring(spec.marks_label) or nil }
-  if out.title ~= nil then out.title = tostring(out.title) end
+    marks_label = spec.marks_label and text(spec.marks_label) or nil }
+  if out.title ~= nil then out.title = text(out.title) end
   for _, a in ipairs { "x", "y" } do
     local s = spec[a] or {}
     if type(s) ~= "table" then error(fmt("%s: spec.%s must be a table", F, a), 3) end
@@ -81,7 +116,11 @@ function M.normalise(spec, F)
         error(fmt("%s: spec.%s.%s must be a finite number", F, a, b), 3)
       end
     end
-    out[a] = { label = s.label and tostring(s.label) or "", unit = s.unit or "",
+    if s.min and s.max and s.min > s.max then
+      error(fmt("%s: spec.%s.min (%s) must not be above spec.%s.max (%s)", F, a,
+        numtext.str(s.min), a, numtext.str(s.max)), 3)
+    end
+    out[a] = { label = s.label and text(s.label) or "", unit = s.unit and text(s.unit) or "",
       log = s.log and true or false, min = s.min, max = s.max }
   end
   local series = spec.series
@@ -91,12 +130,12 @@ function M.normalise(spec, F)
   for i = 1, #series do
     local s = series[i]
     local what = fmt("series %d%s", i,
-      type(s) == "table" and s.label and (" ('" .. tostring(s.label) .. "')") or "")
+      type(s) == "table" and s.label and (" ('" .. text(s.label) .. "')") or "")
     if type(s) ~= "table" then error(fmt("%s: %s must be a table", F, what), 3) end
     local style = s.style or "line"
     if not STYLES[style] then
       error(fmt("%s: %s: style must be 'line', 'points' or 'step' (got %s)", F, what,
-        tostring(style)), 3)
+        numtext.str(style)), 3)
     end
     local xs = read_array(s.x, what .. " x", F)
     local ys
@@ -105,7 +144,7 @@ function M.normalise(spec, F)
       ys = {}
       for k = 1, #xs do
         local ok, v = pcall(s.y, xs[k])
-        if not ok then error(fmt("%s: %s: y(x[%d]) failed: %s", F, what, k, tostring(v)), 3) end
+        if not ok then error(fmt("%s: %s: y(x[%d]) failed: %s", F, what, k, numtext.str(v)), 3) end
         ys[k] = type(v) == "number" and v or 0 / 0
       end
     else
@@ -117,7 +156,7 @@ function M.normalise(spec, F)
     local k = #out.series + 1
     local pal = M.PALETTE[(k - 1) % #M.PALETTE + 1]
     out.series[k] = {
-      x = xs, y = ys, label = s.label and tostring(s.label) or nil, style = style,
+      x = xs, y = ys, label = s.label and text(s.label) or nil, style = style,
       marker = s.marker, index = k,
       color = s.color or pal.hex, rgb = pal.rgb,
       dash = s.dash or M.DASHES[(k - 1) % #M.DASHES + 1],
@@ -130,7 +169,7 @@ function M.normalise(spec, F)
       if type(m) ~= "table" or type(m.x) ~= "number" or type(m.y) ~= "number" then
         error(fmt("%s: marks[%d] must be {x = number, y = number, label = text}", F, i), 3)
       end
-      out.marks[#out.marks + 1] = { x = m.x, y = m.y, label = m.label and tostring(m.label) or nil }
+      out.marks[#out.marks + 1] = { x = m.x, y = m.y, label = m.label and text(m.label) or nil }
     end
   end
   return out
@@ -169,8 +208,8 @@ function M.axes(p, F, opts)
       if spec.log then lo, hi = 1, 10 else lo, hi = 0, 1 end
     end
     if spec.log and (lo <= 0 or hi <= 0) then
-      error(fmt("%s: spec.%s.log needs positive limits (got %s .. %s)", F, a, tostring(lo),
-        tostring(hi)), 3)
+      error(fmt("%s: spec.%s.log needs positive limits (got %s .. %s)", F, a, numtext.str(lo),
+        numtext.str(hi)), 3)
     end
     axes[a] = axis.new(lo, hi, { log = spec.log, unit = spec.unit,
       n = a == "x" and (opts.nx or 6) or (opts.ny or 6),

@@ -4,8 +4,9 @@
 -- C core does the evaluating) and return a spec for plot.svg / plot.term.
 -- @module segwise.plot.specs
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local M = {}
-local fmt = string.format
+local fmt = numtext.format
 
 local function array_len(a)
   local ok, n = pcall(function() return #a end)
@@ -36,7 +37,7 @@ local function values_at(obj, xs, what, F)
   if #xs > 0 and not any then
     local ok, err
     if ev then ok, err = pcall(ev, obj, xs[1]) else ok, err = pcall(obj, xs[1]) end
-    if not ok then error(fmt("%s: cannot evaluate %s: %s", F, what, tostring(err)), 4) end
+    if not ok then error(fmt("%s: cannot evaluate %s: %s", F, what, numtext.str(err)), 4) end
   end
   return out
 end
@@ -209,7 +210,7 @@ function M.rows(rows, xkey, ykeys, labels)
       xs[r] = get(row, xkey, r)
       ys[r] = get(row, key, r)
     end
-    series[j] = { x = xs, y = ys, label = labels and labels[j] or tostring(key) }
+    series[j] = { x = xs, y = ys, label = labels and labels[j] or numtext.str(key) }
   end
   return series
 end

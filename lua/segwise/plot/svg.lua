@@ -3,18 +3,19 @@
 -- and dash patterns as a second cue for print.
 -- @module segwise.plot.svg
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local report = require "segwise.report"
 local common = require "segwise.plot.common"
 
 local M = {}
-local fmt, concat = string.format, table.concat
+local fmt, concat = numtext.format, table.concat
 local max = math.max
 
 --- Escapes text for XML character data and attribute values; drops the
 -- control characters XML 1.0 forbids (all below 0x20 except tab, LF, CR).
+-- Invalid UTF-8 becomes U+FFFD first (common.text), so the file parses.
 function M.escape(s)
-  s = tostring(s)
-  s = s:gsub("[%z\1-\8\11\12\14-\31]", "")
+  s = common.text(s)
   return (s:gsub("[&<>\"']", { ["&"] = "&amp;", ["<"] = "&lt;", [">"] = "&gt;",
     ['"'] = "&quot;", ["'"] = "&apos;" }))
 end
@@ -23,7 +24,7 @@ local esc = M.escape
 -- Width of text in px at font size fs, rough (sans-serif averages ~0.6 em).
 local function text_w(s, fs) return (utf8.len(s) or #s) * fs * 0.6 end
 
-local function num(v) return fmt("%.2f", v) end
+local function num(v) return numtext.number("%.2f", v) end
 
 local function marker_shape(kind, x, y, r, color)
   if kind == "square" then
@@ -55,7 +56,7 @@ local function marker_kind(s)
   if s.marker == nil or s.marker == true then
     return common.MARKERS[(s.index - 1) % #common.MARKERS + 1]
   end
-  return tostring(s.marker)
+  return numtext.str(s.marker)
 end
 
 local function dash_attr(s, lw)
@@ -65,16 +66,25 @@ local function dash_attr(s, lw)
   return fmt(' stroke-dasharray="%s"', concat(d, ","))
 end
 
+-- Width and height in whole px (a fractional size is rounded), checked.
+local MAX_PX = 100000
+local function page_size(spec, F)
+  local W, H = spec.width or 720, spec.height or 450
+  local function ok(v, least) return type(v) == "number" and v >= least and v <= MAX_PX end
+  if not ok(W, 100) or not ok(H, 80) then
+    error(fmt("%s: width and height must be numbers from 100 and 80 to %d px (got %s and %s)",
+      F, MAX_PX, numtext.str(W), numtext.str(H)), 4)
+  end
+  return math.floor(W + 0.5), math.floor(H + 0.5)
+end
+
 --- Builds the SVG document as a string.
 -- @tparam table spec see segwise.plot.svg
 -- @treturn string
 function M.render(spec)
   local F = "segwise.plot.svg"
   local p = common.normalise(spec, F)
-  local W, H = spec.width or 720, spec.height or 450
-  if type(W) ~= "number" or type(H) ~= "number" or W < 100 or H < 80 then
-    error(F .. ": width and height must be numbers of at least 100 and 80 px", 3)
-  end
+  local W, H = page_size(spec, F)
   local fs = spec.font_size or 12
   local xa, ya = common.axes(p, F,
     { nx = max(3, math.floor(W / 110)), ny = max(3, math.floor(H / 70)) })
@@ -276,7 +286,7 @@ function M.render(spec)
   return concat(o, "\n") .. "\n"
 end
 
---- Writes a standalone SVG file (atomically: "<path>.tmp" then rename).
+--- Writes a standalone SVG file (atomically, through segwise.report.write).
 -- @tparam string path
 -- @tparam table spec {title=, x={label=, unit=, log=, min=, max=}, y={...},
 --   series={{x=, y= (array or function of x), label=, style="line"|"points"|"step",

@@ -8,10 +8,11 @@
 -- "x: label" under the x labels at the right.
 -- @module segwise.plot.term
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local common = require "segwise.plot.common"
 
 local M = {}
-local fmt, concat = string.format, table.concat
+local fmt, concat = numtext.format, table.concat
 local floor, max, min, abs = math.floor, math.max, math.min, math.abs
 
 -- Braille dot bits by (column 0..1, row 0..3) within a cell (Unicode
@@ -29,7 +30,14 @@ M.MARK, M.GRID, M.YTICK, M.XTICK, M.POINT_CHARS = MARK, GRID, YTICK, XTICK, POIN
 
 --- Terminal width: opts.width, else $COLUMNS, else `tput cols`, else 80.
 function M.columns(opts)
-  if opts and opts.width then return opts.width end
+  if opts and opts.width ~= nil then
+    local w = opts.width
+    if type(w) ~= "number" or not (w >= 20 and w <= 1e6) then
+      error(fmt("segwise.plot.term: width must be a number of columns from 20 to 1000000 "
+        .. "(got %s)", numtext.str(w)), 5)
+    end
+    return floor(w + 0.5)
+  end
   local c = tonumber(os.getenv("COLUMNS") or "")
   if c and c >= 20 then return floor(c) end
   local ok, pipe = pcall(io.popen, "tput cols 2>/dev/null")
@@ -43,6 +51,14 @@ function M.columns(opts)
 end
 
 local function ulen(s) return utf8.len(s) or #s end
+
+-- s without trailing blanks.  Not gsub("%s+$"): that pattern retries from
+-- every blank of a long run and made wide plots quadratic in the width.
+local function rtrim(s)
+  local i = #s
+  while i > 0 and s:byte(i) == 32 do i = i - 1 end
+  return s:sub(1, i)
+end
 
 -- Splits a string into a list of UTF-8 characters.
 local function chars(s)
@@ -201,7 +217,7 @@ local function plot_rows(cv, lw, yat, xcols, paint)
       elseif lab and is_col[c] then line[#line + 1] = GRID
       else line[#line + 1] = " " end
     end
-    out[#out + 1] = (concat(line):gsub("%s+$", ""))
+    out[#out + 1] = rtrim(concat(line))
   end
   return out
 end
@@ -226,7 +242,7 @@ local function x_axis_lines(cv, lw, xcols)
   end
   local labels = {}
   for c = 1, last do labels[c] = cells[c] or " " end
-  return { (string.rep(" ", left) .. concat(ticks)):gsub("%s+$", ""), concat(labels) }
+  return { rtrim(string.rep(" ", left) .. concat(ticks)), concat(labels) }
 end
 
 -- A sample of a line series: three braille cells with its dash pattern.
@@ -274,8 +290,10 @@ local function layout(spec, opts, F)
   local p = common.normalise(spec, F)
   local cols = M.columns(opts)
   local rows = opts.height or spec.rows or 16
-  if type(rows) ~= "number" or rows < 4 then error(F .. ": height must be at least 4 rows", 4) end
-  rows = floor(rows)
+  if type(rows) ~= "number" or not (rows >= 4 and rows <= 1e5) then
+    error(F .. ": height must be a number of rows from 4 to 100000", 4)
+  end
+  rows = floor(rows + 0.5)
   -- y labels decide the left margin; the x axis gets fewer ticks when narrow
   local xa, ya = common.axes(p, F, { nx = max(2, floor(cols / 16)), ny = max(2, floor(rows / 4)) })
   local lw = 0

@@ -2,10 +2,11 @@
 -- notebooks and other tools.
 -- @module segwise.report.json
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local write = require "segwise.report.write"
 
 local huge = math.huge
-local fmt = string.format
+local fmt = numtext.format
 local concat = table.concat
 
 local JSON_ESC = { ['"'] = '\\"', ["\\"] = "\\\\", ["\b"] = "\\b", ["\f"] = "\\f",
@@ -20,11 +21,11 @@ end
 local function json_value(v, full, seen, path, out)
   local t = type(v)
   if v == nil then out[#out + 1] = "null"
-  elseif t == "boolean" then out[#out + 1] = tostring(v)
+  elseif t == "boolean" then out[#out + 1] = numtext.str(v)
   elseif t == "number" then
     -- JSON has no NaN or infinity: they become null
     if v ~= v or v == huge or v == -huge then out[#out + 1] = "null"
-    elseif math.type(v) == "integer" then out[#out + 1] = tostring(v)
+    elseif math.type(v) == "integer" then out[#out + 1] = numtext.str(v)
     else out[#out + 1] = fmt(full and "%.17g" or "%.10g", v) end
   elseif t == "string" then out[#out + 1] = json_string(v)
   elseif t == "table" or t == "userdata" then
@@ -60,13 +61,13 @@ local function json_value(v, full, seen, path, out)
         end
         keys[#keys + 1] = k
       end
-      table.sort(keys, function(a, b) return tostring(a) < tostring(b) end)
+      table.sort(keys, function(a, b) return numtext.str(a) < numtext.str(b) end)
       out[#out + 1] = "{"
       for i, k in ipairs(keys) do
         if i > 1 then out[#out + 1] = "," end
-        out[#out + 1] = json_string(tostring(k))
+        out[#out + 1] = json_string(numtext.str(k))
         out[#out + 1] = ":"
-        json_value(v[k], full, seen, path .. "." .. tostring(k), out)
+        json_value(v[k], full, seen, path .. "." .. numtext.str(k), out)
       end
       out[#out + 1] = "}"
     end

@@ -2,10 +2,11 @@
 -- parser that reads it back (plus part-marking codes such as "4k7").
 -- @module segwise.report.si
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local M = {}
 
 local floor, abs, huge = math.floor, math.abs, math.huge
-local fmt = string.format
+local fmt = numtext.format
 
 local MICRO = "\u{00B5}"      -- micro sign, as printed
 
@@ -42,10 +43,12 @@ local function check_digits(digits, fname)
   digits = digits or 3
   if math.type(digits) ~= "integer"
       and not (type(digits) == "number" and digits == floor(digits)) then
-    error(fname .. ": digits must be an integer from 1 to 17 (got " .. tostring(digits) .. ")", 3)
+    error(fname .. ": digits must be an integer from 1 to 17 (got " .. numtext.str(digits)
+      .. ")", 3)
   end
   if digits < 1 or digits > 17 then
-    error(fname .. ": digits must be an integer from 1 to 17 (got " .. tostring(digits) .. ")", 3)
+    error(fname .. ": digits must be an integer from 1 to 17 (got " .. numtext.str(digits)
+      .. ")", 3)
   end
   return floor(digits)
 end
@@ -54,9 +57,10 @@ end
 -- (no point) and decimal exponent: 0.004315, 3 -> "432", -3.  Rounding is
 -- done once, by string.format, so 999.96 becomes "100", 3 (never "1000").
 local function round_sig(av, digits)
-  local s = fmt("%." .. (digits - 1) .. "e", av)
+  -- as a float: abs(math.mininteger) is math.mininteger again
+  local s = numtext.number("%." .. (digits - 1) .. "e", abs(av + 0.0))
   local lead, rest, e = s:match("^(%d)%.?(%d*)e([-+]%d+)$")
-  return lead .. rest, tonumber(e)
+  return lead .. rest, numtext.tonumber(e)
 end
 
 -- Places the decimal point in a digit string `ds` so the first digit has
@@ -294,26 +298,26 @@ function M.parse_si(text, unit)
        and not tail:find("^[%d%.]") and not tail:find("%s")
        and not (tf and PARSE_PREFIX[tf]) then
       -- scaled through the decimal string: one rounding, 4k7 == 4700 exactly
-      local v = tonumber((ip == "" and "0" or ip) .. "." .. fp .. "e" .. INFIX[letter])
+      local v = numtext.tonumber((ip == "" and "0" or ip) .. "." .. fp .. "e" .. INFIX[letter])
       if v then return (sg == "-" and -v or v), tail end
     end
   end
   -- plain number, then optional space, prefix and unit
   local num, tail = s:match("^([+-]?%d*%.?%d*[eE][+-]?%d+)%s*(.-)$")
-  if not num or not tonumber(num) then
+  if not num or not numtext.tonumber(num) then
     num, tail = s:match("^([+-]?%d*%.?%d*)%s*(.-)$")
   end
-  local v = num and tonumber(num)
+  local v = num and numtext.tonumber(num)
   if not v then bad() end
   refuse_meg(text, tail)
   local e, u = read_suffix(tail, unit)
   if not e then bad() end
   if e ~= 0 then
     -- one rounding: scale by an exact power of ten through the decimal string
-    local scaled = tonumber(num .. "e" .. e)
+    local scaled = numtext.tonumber(num .. "e" .. e)
     if not scaled then
       local m, x = num:match("^(.-)[eE]([+-]?%d+)$")
-      scaled = tonumber(m .. "e" .. (tonumber(x) + e))
+      scaled = numtext.tonumber(m .. "e" .. (numtext.tonumber(x) + e))
     end
     v = scaled or v * 10.0 ^ e
   end

@@ -2,6 +2,7 @@
 -- markdown, with SI units.
 -- @module segwise.report.tables
 
+local numtext = require "segwise.report.num" -- numbers with a '.' in any locale
 local si = require "segwise.report.si"
 local write = require "segwise.report.write"
 local util = require "segwise.util"
@@ -9,7 +10,7 @@ local util = require "segwise.util"
 local M = {}
 
 local floor, abs, huge = math.floor, math.abs, math.huge
-local fmt = string.format
+local fmt = numtext.format
 local concat = table.concat
 local nonfinite_text = si.nonfinite_text
 local PREFIX = si.PREFIX
@@ -69,7 +70,7 @@ local function cell_value(col, row, r)
   if col.fn then
     local ok, v = pcall(col.fn, row)
     if not ok then
-      error(fmt("segwise.report.table: column '%s', row %d: %s", col.name, r, tostring(v)), 4)
+      error(fmt("segwise.report.table: column '%s', row %d: %s", col.name, r, numtext.str(v)), 4)
     end
     return v
   end
@@ -98,7 +99,7 @@ local function reachable_keys(rows, key)
       end
     end
     for k in pairs(t) do
-      local name = prefix .. tostring(k)
+      local name = prefix .. numtext.str(k)
       if not seen[name] then seen[name] = true; names[#names + 1] = name end
     end
   end
@@ -125,7 +126,7 @@ end
 
 local function plain_number(v, digits)
   if v ~= v or v == huge or v == -huge then return nonfinite_text(v) end
-  if math.type(v) == "integer" then return tostring(v) end
+  if math.type(v) == "integer" then return numtext.str(v) end
   if v == floor(v) and abs(v) < 1e15 then return fmt("%d", v) end
   local s = fmt("%." .. digits .. "g", v)
   return s
@@ -136,9 +137,9 @@ local function apply_fmt(col, v, r)
     local ok, s = pcall(col.fmt, v)
     if not ok then
       error(fmt("segwise.report.table: column '%s', row %d: fmt failed: %s", col.name, r,
-        tostring(s)), 5)
+        numtext.str(s)), 5)
     end
-    return tostring(s)
+    return numtext.str(s)
   end
   if type(v) == "number" and (v ~= v or v == huge or v == -huge)
       and not col.fmt:find("%%[%d.]*[sq]") then
@@ -147,7 +148,7 @@ local function apply_fmt(col, v, r)
   local ok, s = pcall(fmt, col.fmt, v)
   if not ok then
     error(fmt("segwise.report.table: column '%s', row %d: format %q does not fit value %s",
-      col.name, r, col.fmt, tostring(v)), 5)
+      col.name, r, col.fmt, numtext.str(v)), 5)
   end
   return s
 end
@@ -231,7 +232,7 @@ local function human_cells(rows, cols, opts)
         elseif col.unit then s = si.si_in(v, e3, d)
         else s = plain_number(v, math.max(d, 4)) end
       else
-        s = tostring(v)
+        s = numtext.str(v)
       end
       cells[r][j] = s
     end
@@ -336,10 +337,10 @@ local function render_csv(rows, cols, opts)
       if v == nil then s = ""
       elseif type(v) == "number" then
         if v ~= v or v == huge or v == -huge then s = nonfinite_text(v)
-        elseif math.type(v) == "integer" then s = tostring(v)
+        elseif math.type(v) == "integer" then s = numtext.str(v)
         else s = fmt(numfmt, v) end
       elseif type(col.fmt) == "function" then s = apply_fmt(col, v, r)
-      else s = tostring(v) end
+      else s = numtext.str(v) end
       l[j] = csv_field(s)
     end
     lines[#lines + 1] = concat(l, ",")
@@ -384,12 +385,12 @@ function M.table(rows, columns, opts)
   if opts.units ~= nil and opts.units ~= "auto" and opts.units ~= "header"
       and opts.units ~= "cells" then
     error("segwise.report.table: units must be 'auto', 'header' or 'cells' (got "
-      .. tostring(opts.units) .. ")", 2)
+      .. numtext.str(opts.units) .. ")", 2)
   end
   if opts.span ~= nil
       and not (type(opts.span) == "number" and opts.span >= 0 and opts.span < huge) then
     error("segwise.report.table: span must be a number of decades >= 0 (got "
-      .. tostring(opts.span) .. ")", 2)
+      .. numtext.str(opts.span) .. ")", 2)
   end
   local cols = {}
   for i, c in ipairs(columns) do cols[i] = norm_column(c, i) end
@@ -398,7 +399,7 @@ function M.table(rows, columns, opts)
   local render = RENDER[format]
   if not render then
     error("segwise.report.table: format must be 'text', 'csv' or 'markdown' (got "
-      .. tostring(format) .. ")", 2)
+      .. numtext.str(format) .. ")", 2)
   end
   local s = render(rows, cols, opts)
   return write(opts.out, s, "segwise.report.table")

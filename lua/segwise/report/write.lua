@@ -1,32 +1,21 @@
---- segwise.report.write: output to a path or a file handle.  A path is
--- written to "<path>.tmp" then renamed, so an error never leaves a
--- truncated file.
+--- segwise.report.write: output to a path or a file handle.  A path goes
+-- through the C core's safe writer: a uniquely named temporary beside the
+-- real target, renamed into place once complete, so an error never leaves
+-- a truncated file; a symlink keeps pointing at its target, which gets the
+-- text; an existing file keeps its mode; a FIFO or device (/dev/stdout) is
+-- written directly; a file the process may not write is refused.
 -- @module segwise.report.write
 
-local M = {}
+local core = require "segwise.core"
 
--- Writing output: a path is written to "<path>.tmp" then renamed, so an error
--- never leaves a truncated file; a handle is written as is.
-
---- Writes string `s` to `out` (a path or anything with :write).
-function M.write(out, s, fname)
+--- Writes string `s` to `out` (a path or anything with :write); returns s.
+-- `fname` ("segwise.plot.svg") names the public function in errors.
+local function write(out, s, fname)
   fname = fname or "segwise.report"
   if out == nil then return s end
   if type(out) == "string" then
-    local tmp = out .. ".tmp"
-    local f, err = io.open(tmp, "wb")
-    if not f then error(fname .. ": cannot write '" .. out .. "': " .. tostring(err), 3) end
-    local ok, werr = f:write(s)
-    local cok, cerr = f:close()
-    if not ok or not cok then
-      os.remove(tmp)
-      error(fname .. ": cannot write '" .. out .. "': " .. tostring(werr or cerr), 3)
-    end
-    local rok, rerr = os.rename(tmp, out)
-    if not rok then
-      os.remove(tmp)
-      error(fname .. ": cannot rename '" .. tmp .. "' to '" .. out .. "': " .. tostring(rerr), 3)
-    end
+    local ok, err = pcall(core.write_file, out, s, fname)
+    if not ok then error(err, 3) end
     return s
   end
   local ok = pcall(function() assert(out:write(s)) end)
@@ -34,4 +23,4 @@ function M.write(out, s, fname)
   return s
 end
 
-return M.write
+return write
