@@ -221,11 +221,15 @@ void sw_wfile_abort(sw_wfile *w)
 
 int sw_wfile_commit(sw_wfile *w, sw_err *err)
 {
-  int bad, e = 0;
+  int e = errno, bad; /* a failed fprintf just before left its reason here */
   const char *tail = w->tmp ? " (the old file is untouched)" : "";
-  errno = 0;
-  bad = ferror(w->f) || fflush(w->f) != 0 || (w->tmp && fsync(fileno(w->f)) != 0);
-  if (bad) e = errno ? errno : EIO;
+  bad = ferror(w->f);
+  if (!bad) {
+    errno = 0;
+    bad = fflush(w->f) != 0 || (w->tmp && fsync(fileno(w->f)) != 0);
+    e = errno;
+  }
+  if (bad && !e) e = EIO;
   if (fclose(w->f) != 0 && !bad) { bad = 1; e = errno; }
   w->f = NULL;
   if (!bad && w->tmp && rename(w->tmp, w->target) != 0) { bad = 1; e = errno; }

@@ -31,7 +31,8 @@ typedef struct sw_wfile {
 int sw_wfile_open(sw_wfile *w, const char *path, sw_err *err);
 
 /* Flushes, syncs and moves the content into place; releases w whatever
- * happens (on failure the old file is untouched and the temporary gone). */
+ * happens (on failure the old file is untouched and the temporary gone).
+ * Call it right after the last write: a failed write's errno names why. */
 int sw_wfile_commit(sw_wfile *w, sw_err *err);
 
 /* Gives up: closes and removes the temporary; releases w.  Idempotent. */
