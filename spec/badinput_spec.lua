@@ -478,8 +478,8 @@ describe("segwise bad input", function()
     local content = require("helpers.files").read_all
     local function cut_short(name, old, code)
       local path = file(name, old)
-      local ok, out = subproc.lua('local sw = require "segwise"\nlocal path = ' .. ("%q"):format(path)
-        .. "\nprint(pcall(function() " .. code .. " end))\n", { fsize = 1 })
+      local ok, out = subproc.lua('local sw = require "segwise"\nlocal path = '
+        .. ("%q"):format(path) .. "\nprint(pcall(function() " .. code .. " end))\n", { fsize = 1 })
       assert.is_true(ok, out)
       assert.matches("^false", out)
       return path, out
