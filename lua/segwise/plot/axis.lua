@@ -74,7 +74,9 @@ local function linear(lo, hi, target, tight)
   for k = k0, k1 do
     local v = k * step
     if k == 0 then v = 0.0 end
-    if not tight or (v >= lo - step * 1e-9 and v <= hi + step * 1e-9) then ticks[#ticks + 1] = v end
+    if finite(v) and (not tight or (v >= lo - step * 1e-9 and v <= hi + step * 1e-9)) then
+      ticks[#ticks + 1] = v
+    end
   end
   if not tight then lo, hi = k0 * step, k1 * step end
   return lo, hi, ticks, step

@@ -57,7 +57,7 @@ function M.text(v)
     if not hi then out[#out + 1] = s:sub(i); break end
     out[#out + 1] = s:sub(i, hi - 1)
     local pat = SEQ[s:byte(hi)]
-    local _, e = pat and s:find(pat, hi)
+    local e = pat and select(2, s:find(pat, hi))
     if e then out[#out + 1] = s:sub(hi, e); i = e + 1
     else out[#out + 1] = REPLACEMENT; i = hi + 1 end
   end
