@@ -11,11 +11,20 @@
 /* Sizes beyond this fail at once instead of asking the allocator. */
 #define ARRAY_MAX ((size_t)1 << 32)
 
+static void array_free_mem(lsw_life *life)
+{
+  lsw_array *a = (lsw_array *)life;
+  free(a->data);
+  a->data = NULL;
+  a->n = 0;
+}
+
 /* An empty, consistent array userdata: safe to collect on any later error. */
 static lsw_array *array_push_empty(lua_State *L)
 {
   lsw_array *a = lua_newuserdatauv(L, sizeof *a, 0);
   memset(a, 0, sizeof *a);
+  a->life.release = array_free_mem;
   luaL_setmetatable(L, LSW_ARRAY_MT);
   return a;
 }
@@ -42,7 +51,7 @@ static lsw_array *check_array(lua_State *L, int idx, const char *fname)
   if (!a)
     lsw_fail(L, NULL, "segwise.%s: bad argument #%d (a segwise array expected, got %s)", fname, idx,
                luaL_typename(L, idx));
-  if (a->freed) lsw_fail(L, NULL, "segwise.%s: array used after free()", fname);
+  if (LSW_DEAD(a)) lsw_fail(L, NULL, "segwise.%s: array used after free()", fname);
   return a;
 }
 
@@ -101,6 +110,7 @@ static int l_array(lua_State *L)
   }
   if (lsw_toarray(L, 1)) { /* a copy of another array */
     lsw_array *src = check_array(L, 1, "array"), *a = lsw_newarray(L, src->n);
+    src = check_array(L, 1, "array"); /* the allocation may have run a finalizer */
     if (src->n) memcpy(a->data, src->data, src->n * sizeof *a->data);
     return 1;
   }
@@ -155,6 +165,8 @@ static int array_len(lua_State *L)
 static int array_totable(lua_State *L)
 {
   lsw_array *a = check_array(L, 1, "array:totable");
+  lsw_pin(L, 1, &a->life); /* the table's allocation may run a finalizer */
+  a = check_array(L, 1, "array:totable");
   lsw_pushdoubles(L, a->data, a->n);
   return 1;
 }
@@ -179,22 +191,29 @@ static int array_slice(lua_State *L)
     j = (size_t)jj;
   }
   b = lsw_newarray(L, j - i);
-  a = lsw_toarray(L, 1); /* unchanged, but re-read after the allocation */
+  a = check_array(L, 1, "array:slice"); /* the allocation may have run a finalizer */
   if (j > i) memcpy(b->data, a->data + i, (j - i) * sizeof *b->data);
   return 1;
 }
 
-/* One idempotent release for :free(), __gc and __close. */
-static int array_release(lua_State *L)
+static lsw_array *array_arg(lua_State *L)
 {
   lsw_array *a = lsw_toarray(L, 1);
-  if (!a) return lsw_fail(L, "array:free", "bad argument #1 (a segwise array expected, got %s)",
-                            luaL_typename(L, 1));
-  free(a->data);
-  a->data = NULL;
-  a->n = 0;
-  a->freed = 1;
-  return 0;
+  if (!a) lsw_fail(L, "array:free", "bad argument #1 (a segwise array expected, got %s)",
+                   luaL_typename(L, 1));
+  return a;
+}
+
+/* :free() and __close: refused while a computation reads the array. */
+static int array_release(lua_State *L)
+{
+  return lsw_release(L, &array_arg(L)->life, "array", 0);
+}
+
+/* __gc: while a computation holds the array, its release waits for it. */
+static int array_gc(lua_State *L)
+{
+  return lsw_release(L, &array_arg(L)->life, "array", 1);
 }
 
 static int array_tostring(lua_State *L)
@@ -202,7 +221,12 @@ static int array_tostring(lua_State *L)
   lsw_array *a = lsw_toarray(L, 1);
   luaL_Buffer b;
   size_t k, show;
-  if (!a || a->freed) {
+  if (!a || LSW_DEAD(a)) {
+    lua_pushliteral(L, "segwise.array (freed)");
+    return 1;
+  }
+  lsw_pin(L, 1, &a->life); /* the buffer's growth may run a finalizer */
+  if (LSW_DEAD(a)) {         /* as may the pin's own allocation */
     lua_pushliteral(L, "segwise.array (freed)");
     return 1;
   }
@@ -230,8 +254,8 @@ static int array_tostring(lua_State *L)
 static int array_next(lua_State *L)
 {
   lsw_array *a = check_array(L, 1, "array");
-  lua_Integer i = luaL_optinteger(L, 2, 0) + 1;
-  if (i < 1 || (lua_Unsigned)i > a->n) return 0;
+  lua_Integer i = lsw_optint(L, 2, "array", "key", 0, LUA_MAXINTEGER - 1, 0) + 1;
+  if ((lua_Unsigned)i > a->n) return 0;
   lua_pushinteger(L, i);
   lua_pushnumber(L, a->data[i - 1]);
   return 2;
@@ -252,7 +276,7 @@ static const luaL_Reg array_methods[] = {
 
 static const luaL_Reg array_meta[] = {
   {"__index", array_index}, {"__newindex", array_newindex}, {"__len", array_len},
-  {"__gc", array_release}, {"__close", array_release}, {"__tostring", array_tostring},
+  {"__gc", array_gc}, {"__close", array_release}, {"__tostring", array_tostring},
   {"__pairs", array_pairs}, {NULL, NULL}
 };
 
@@ -262,7 +286,11 @@ void lsw_open_array(lua_State *L)
   luaL_setfuncs(L, array_meta, 0);
   luaL_newlib(L, array_methods);
   lua_setfield(L, -2, "methods");
-  lua_pop(L, 1);
+  lsw_protect_meta(L, NULL);
+  lua_getfield(L, -1, "__metatable"); /* the stand-in lists the methods (a copy) */
+  luaL_newlib(L, array_methods);
+  lua_setfield(L, -2, "methods");
+  lua_pop(L, 2);
   lua_pushcfunction(L, l_array);
   lua_setfield(L, -2, "array");
 }

@@ -17,6 +17,7 @@ LSW_EXPORT int luaopen_segwise_core(lua_State *L)
 {
   gsl_set_error_handler_off();
   lua_newtable(L);
+  lsw_open_life(L);
   lsw_open_array(L);
   lsw_open_curve(L);
   lsw_open_pwl(L);

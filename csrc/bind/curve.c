@@ -10,8 +10,13 @@ lsw_curve *lsw_checkcurve(lua_State *L, int idx)
   lsw_curve *c = luaL_testudata(L, idx, LSW_CURVE_MT);
   if (!c)
     lsw_fail(L, NULL, "argument #%d must be a segwise curve (got %s)", idx, luaL_typename(L, idx));
-  if (c->freed) lsw_fail(L, NULL, "curve used after free() (argument #%d)", idx);
+  if (LSW_DEAD(c)) lsw_fail(L, NULL, "curve used after free() (argument #%d)", idx);
   return c;
+}
+
+static void curve_free_mem(lsw_life *life)
+{
+  sw_curve_free(&((lsw_curve *)life)->c);
 }
 
 /* Pushes an empty curve userdata with its metatable set (safe to collect). */
@@ -19,6 +24,7 @@ static lsw_curve *new_curve(lua_State *L)
 {
   lsw_curve *c = lua_newuserdatauv(L, sizeof *c, 1);
   memset(c, 0, sizeof *c);
+  c->life.release = curve_free_mem;
   luaL_setmetatable(L, LSW_CURVE_MT);
   return c;
 }
@@ -66,12 +72,13 @@ void lsw_curve_bind(lua_State *L, int idx, sw_curve *copy, lsw_callctx *ctx)
 {
   lsw_curve *c = lsw_checkcurve(L, idx);
   idx = lua_absindex(L, idx);
-  luaL_checkstack(L, 3, "segwise: no room on the Lua stack for a curve"); /* before busy++ */
+  luaL_checkstack(L, 4, "segwise: no room on the Lua stack for a curve");
+  lsw_pin(L, idx, &c->life);
+  if (LSW_DEAD(c)) /* the pin's allocation ran a finalizer that freed it */
+    lsw_fail(L, NULL, "curve used after free() (argument #%d)", idx);
   *copy = c->c;
   memset(ctx, 0, sizeof *ctx);
   ctx->L = L;
-  ctx->owner = c;
-  c->busy++;
   lua_getiuservalue(L, idx, 1);
   ctx->fidx = lua_gettop(L);
   lua_pushnil(L);
@@ -84,39 +91,40 @@ void lsw_curve_bind(lua_State *L, int idx, sw_curve *copy, lsw_callctx *ctx)
 
 void lsw_curve_done(lua_State *L, lsw_callctx *ctx)
 {
-  if (ctx->owner && ctx->owner->busy > 0) ctx->owner->busy--;
-  ctx->owner = NULL;
-  if (ctx->failed) {
+  if (ctx->failed) { /* the pin is closed as the error unwinds */
     lua_pushvalue(L, ctx->erridx);
     lua_error(L);
   }
-  lua_settop(L, ctx->fidx - 1);
+  /* the pin first, by lua_closeslot: Lua 5.4.4's lua_settop keeps a stale
+   * stack pointer when closing a slot moves the stack */
+  lua_closeslot(L, ctx->fidx - 1);
+  lua_settop(L, ctx->fidx - 2); /* the error slot, the function and the pin */
 }
 
+static lsw_curve *curve_arg(lua_State *L)
+{
+  lsw_curve *c = luaL_testudata(L, 1, LSW_CURVE_MT);
+  if (!c) lsw_fail(L, "curve:free", "argument #1 must be a segwise curve (got %s)",
+                   luaL_typename(L, 1));
+  return c;
+}
+
+/* __gc: while a computation holds the curve, its release waits for it. */
 static int curve_gc(lua_State *L)
 {
-  lsw_curve *c = luaL_checkudata(L, 1, LSW_CURVE_MT);
-  if (!c->freed) {
-    sw_curve_free(&c->c);
-    c->freed = 1;
-  }
-  return 0;
+  return lsw_release(L, &curve_arg(L)->life, "curve", 1);
 }
 
 /* :free() and __close: refused while a computation uses the curve. */
 static int curve_release(lua_State *L)
 {
-  lsw_curve *c = luaL_checkudata(L, 1, LSW_CURVE_MT);
-  if (c->busy > 0 && !c->freed) return lsw_refuse_busy(L, "curve");
-  return curve_gc(L);
+  return lsw_release(L, &curve_arg(L)->life, "curve", 0);
 }
 
 static double opt_range(lua_State *L, int idx, double dflt, const char *name)
 {
   if (lua_isnoneornil(L, idx)) return dflt;
-  if (!lua_isnumber(L, idx))
-    lsw_fail(L, "curve", "%s must be a number (got %s)", name, luaL_typename(L, idx));
-  return lua_tonumber(L, idx);
+  return lsw_checknum(L, idx, "curve", name);
 }
 
 /* Applies an optional domain restriction (lo, hi at idx, idx+1). */
@@ -150,8 +158,10 @@ static int l_curve_samples(lua_State *L)
 /* core.curve_diode(is, n, vt, rs, x_is_i, lo, hi) */
 static int l_curve_diode(lua_State *L)
 {
-  double is = luaL_checknumber(L, 1), n = luaL_checknumber(L, 2);
-  double vt = luaL_checknumber(L, 3), rs = luaL_checknumber(L, 4);
+  double is = lsw_checknum(L, 1, "curve.diode", "is");
+  double n = lsw_checknum(L, 2, "curve.diode", "n");
+  double vt = lsw_checknum(L, 3, "curve.diode", "vt");
+  double rs = lsw_checknum(L, 4, "curve.diode", "rs");
   int x_is_i = lua_toboolean(L, 5);
   sw_err err;
   lsw_curve *c;
@@ -165,7 +175,7 @@ static int l_curve_diode(lua_State *L)
 /* core.curve_power(k, n, lo, hi) */
 static int l_curve_power(lua_State *L)
 {
-  double k = luaL_checknumber(L, 1), p = luaL_checknumber(L, 2);
+  double k = lsw_checknum(L, 1, "curve.power", "k"), p = lsw_checknum(L, 2, "curve.power", "n");
   sw_err err;
   lsw_curve *c;
   lua_settop(L, 4);
@@ -181,9 +191,10 @@ static int l_curve_fn(lua_State *L)
   double lo, hi;
   sw_err err;
   lsw_curve *c;
-  luaL_checktype(L, 1, LUA_TFUNCTION);
-  lo = luaL_checknumber(L, 2);
-  hi = luaL_checknumber(L, 3);
+  if (lua_type(L, 1) != LUA_TFUNCTION)
+    return lsw_fail(L, "curve.fn", "f must be a function (got %s)", luaL_typename(L, 1));
+  lo = lsw_checknum(L, 2, "curve.fn", "lo");
+  hi = lsw_checknum(L, 3, "curve.fn", "hi");
   lua_settop(L, 3);
   c = new_curve(L);
   if (sw_curve_fn(&c->c, lo, hi, &err)) return lsw_raise(L, "curve.fn", &err);
@@ -204,6 +215,12 @@ static int apply_op(lua_State *L, curve_op op, const char *fname)
   lua_settop(L, 2);
   if (lua_type(L, 2) == LUA_TNUMBER) {
     double x = lua_tonumber(L, 2), y = 0;
+    lsw_curve *c = lsw_checkcurve(L, 1);
+    if (c->c.kind != SW_CURVE_FN) { /* no Lua runs: no pin needed (the fast path) */
+      if (op(&c->c, x, &y, &err)) return lsw_raise(L, fname, &err);
+      lua_pushnumber(L, y);
+      return 1;
+    }
     lsw_curve_bind(L, 1, &copy, &ctx);
     st = op(&copy, x, &y, &err);
     lsw_curve_done(L, &ctx);
@@ -215,17 +232,20 @@ static int apply_op(lua_State *L, curve_op op, const char *fname)
     double *x = lsw_checkdoubles(L, 2, "x", &n, 0), *y;
     lsw_array *arr = lsw_toarray(L, 2);
     int out;
-    if (arr) { y = lsw_newarray(L, n)->data; }
-    else y = lsw_scratch(L, n);
+    if (arr) {
+      lsw_array *res = lsw_newarray(L, n);
+      lsw_pin(L, -1, &res->life); /* the callback must not free the result under us */
+      y = res->data;
+    } else y = lsw_scratch(L, n);
     out = lua_gettop(L);
     lsw_curve_bind(L, 1, &copy, &ctx);
     for (i = 0; i < n && st == SW_OK; i++) st = op(&copy, x[i], &y[i], &err);
     lsw_curve_done(L, &ctx);
     if (st) {
-      sw_err_prefix(&err, "x[%d]: ", (int)i);
+      sw_err_prefix(&err, "x[%zu]: ", i);
       return lsw_raise(L, fname, &err);
     }
-    if (arr) lua_settop(L, out);
+    if (arr) lua_pushvalue(L, out - 1); /* the result array, under its pin */
     else lsw_pushdoubles(L, y, n);
     return 1;
   }
@@ -276,6 +296,7 @@ static int l_kind(lua_State *L)
 static int l_points(lua_State *L)
 {
   lsw_curve *c = lsw_checkcurve(L, 1);
+  lsw_pin(L, 1, &c->life); /* a finalizer run by the tables' allocation may free it */
   if (c->c.kind != SW_CURVE_SAMPLES)
     return lsw_fail(L, "curve:points", "only sampled curves have points (this is a %s curve)",
                     kind_name(c->c.kind));
@@ -308,8 +329,8 @@ static int l_params(lua_State *L)
 
 static int l_tostring(lua_State *L)
 {
-  lsw_curve *c = luaL_checkudata(L, 1, LSW_CURVE_MT);
-  if (c->freed) lua_pushliteral(L, "segwise curve (freed)");
+  lsw_curve *c = luaL_testudata(L, 1, LSW_CURVE_MT);
+  if (!c || LSW_DEAD(c)) lua_pushliteral(L, "segwise curve (freed)");
   else if (c->c.kind == SW_CURVE_SAMPLES)
     lua_pushfstring(L, "segwise curve: %d samples on [%f, %f]", (int)c->c.n, c->c.lo, c->c.hi);
   else if (c->c.kind == SW_CURVE_DIODE)
@@ -331,7 +352,7 @@ static int l_call(lua_State *L)
 
 static int l_thermal(lua_State *L)
 {
-  lua_pushnumber(L, sw_thermal_voltage(luaL_optnumber(L, 1, 300.0)));
+  lua_pushnumber(L, sw_thermal_voltage(lsw_optnum(L, 1, "thermal_voltage", "kelvin", 300.0)));
   return 1;
 }
 
@@ -356,6 +377,7 @@ void lsw_open_curve(lua_State *L)
 {
   luaL_newmetatable(L, LSW_CURVE_MT);
   luaL_setfuncs(L, curve_meta, 0);
+  lsw_protect_meta(L, l_call);
   luaL_newlib(L, curve_methods);
   lua_pushvalue(L, -1);
   lua_setfield(L, -4, "curve_methods"); /* so Lua can add methods */

@@ -13,9 +13,8 @@
 #define LSW_HOLD_MT "segwise.NetResults"
 
 typedef struct lsw_net {
+  lsw_life life; /* busy while a computation holds it (see busy_net) */
   sw_net net;
-  int freed;
-  int busy;  /* > 0 while Newton calls back into Lua (exact curves) */
 } lsw_net;
 
 /* Everything a solve may allocate, freed by __gc. */
@@ -55,29 +54,60 @@ static void hold_ops(lua_State *L, lsw_hold *h, size_t n)
   h->nops = n;
 }
 
-static lsw_net *check_net(lua_State *L, int idx)
+static lsw_net *net_arg(lua_State *L, int idx)
 {
-  lsw_net *n = luaL_checkudata(L, idx, LSW_NET_MT);
-  if (n->freed) lsw_fail(L, "network", "network used after free()");
+  lsw_net *n = luaL_testudata(L, idx, LSW_NET_MT);
+  if (!n) lsw_fail(L, "network", "argument #%d must be a segwise network (got %s)", idx,
+                   luaL_typename(L, idx));
   return n;
 }
 
-static int net_gc(lua_State *L)
+static lsw_net *check_net(lua_State *L, int idx)
 {
-  lsw_net *n = luaL_checkudata(L, 1, LSW_NET_MT);
-  if (!n->freed) {
-    sw_net_free(&n->net);
-    n->freed = 1;
-  }
-  return 0;
+  lsw_net *n = net_arg(L, idx);
+  if (LSW_DEAD(n)) lsw_fail(L, "network", "network used after free()");
+  return n;
 }
 
-/* :free() and __close: refused while a solve calls back into Lua. */
+/* The network at 1 for a computation (a solve, a sweep, a study): refused
+ * while another holds it (a curve's callback, a metamethod or a finalizer
+ * coming back in), then pinned, so that while it runs nothing can change,
+ * solve or free the network under it.  Call after any lua_settop. */
+static lsw_net *busy_net(lua_State *L, const char *fname)
+{
+  lsw_net *n = check_net(L, 1);
+  if (n->life.busy > 0)
+    lsw_fail(L, fname, "network is being solved: it cannot be solved again inside its own "
+             "callback");
+  lsw_pin(L, 1, &n->life);
+  return check_net(L, 1); /* the pin's allocation may have run a finalizer */
+}
+
+/* The network at 1 for a change, checked just before the core call (after
+ * every argument conversion, which may run a finalizer). */
+static lsw_net *idle_net(lua_State *L, const char *fname)
+{
+  lsw_net *n = check_net(L, 1);
+  if (n->life.busy > 0)
+    lsw_fail(L, fname, "network is being solved: it cannot change inside its own callback");
+  return n;
+}
+
+static void net_free_mem(lsw_life *life)
+{
+  sw_net_free(&((lsw_net *)life)->net);
+}
+
+/* __gc: while a computation holds the network, its release waits for it. */
+static int net_gc(lua_State *L)
+{
+  return lsw_release(L, &net_arg(L, 1)->life, "network", 1);
+}
+
+/* :free() and __close: refused while a computation holds the network. */
 static int net_release(lua_State *L)
 {
-  lsw_net *n = luaL_checkudata(L, 1, LSW_NET_MT);
-  if (n->busy > 0 && !n->freed) return lsw_refuse_busy(L, "network");
-  return net_gc(L);
+  return lsw_release(L, &net_arg(L, 1)->life, "network", 0);
 }
 
 /* core.net_new(): user value 1 holds the models, 2 the exact curves, both
@@ -86,6 +116,7 @@ static int l_net_new(lua_State *L)
 {
   lsw_net *n = lua_newuserdatauv(L, sizeof *n, 2);
   memset(n, 0, sizeof *n);
+  n->life.release = net_free_mem;
   sw_net_init(&n->net);
   luaL_setmetatable(L, LSW_NET_MT);
   lua_newtable(L); lua_setiuservalue(L, -2, 1);
@@ -93,36 +124,46 @@ static int l_net_new(lua_State *L)
   return 1;
 }
 
-static const char *node_arg(lua_State *L, int idx, const char *what)
+/* A node name: a string without NUL bytes, or a whole number, which names
+ * the node its decimal digits name (1 and 1.0 are node "1"); the converted
+ * name replaces the argument in its slot, so it stays alive. */
+static const char *node_arg(lua_State *L, int idx, const char *fname, const char *what)
 {
   if (lua_type(L, idx) == LUA_TNUMBER) {
-    lua_pushvalue(L, idx);
+    lua_Integer k = lsw_checkint(L, idx, fname, what, LUA_MININTEGER, LUA_MAXINTEGER);
+    lua_pushfstring(L, "%I", k);
     lua_replace(L, idx);
-    return lua_tostring(L, idx); /* converts in place: numbers name nodes too */
-  }
-  if (lua_type(L, idx) != LUA_TSTRING)
-    lsw_fail(L, "network", "%s must be a node name (string or number, got %s)", what,
+  } else if (lua_type(L, idx) != LUA_TSTRING) {
+    lsw_fail(L, fname, "%s must be a node name (string or number, got %s)", what,
              luaL_typename(L, idx));
-  return lua_tostring(L, idx);
+  }
+  return lsw_checkname(L, idx, fname, what);
 }
 
 /* n:add(kind, name, n1, n2, n3, n4, ctrl, value) */
 static int l_add(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
   static const char *const kinds[] = { "r", "v", "i", "vcvs", "vccs", "ccvs", "cccs", NULL };
+  static const char *const fnames[] = {"network:resistor", "network:vsource", "network:isource",
+                                       "network:vcvs", "network:vccs", "network:ccvs",
+                                       "network:cccs"};
   static const sw_net_kind codes[] = {SW_NET_R,    SW_NET_V,    SW_NET_I,   SW_NET_VCVS,
                                       SW_NET_VCCS, SW_NET_CCVS, SW_NET_CCCS};
-  int k = luaL_checkoption(L, 2, NULL, kinds);
-  const char *name = luaL_checkstring(L, 3), *nodes[4], *ctrl = NULL;
-  double value = luaL_checknumber(L, 9);
-  sw_err err = { 0, "" };
-  int j, nn = (codes[k] == SW_NET_VCVS || codes[k] == SW_NET_VCCS) ? 4 : 2;
   static const char *const what[] = {"first node", "second node", "first control node",
                                      "second control node"};
-  for (j = 0; j < nn; j++) nodes[j] = node_arg(L, 4 + j, what[j]);
-  if (codes[k] == SW_NET_CCVS || codes[k] == SW_NET_CCCS) ctrl = luaL_checkstring(L, 8);
-  if (sw_net_add(&n->net, codes[k], name, nodes, ctrl, value, &err))
+  int k, j, nn;
+  const char *name, *nodes[4], *ctrl = NULL, *fname;
+  double value;
+  sw_err err = { 0, "" };
+  check_net(L, 1);
+  k = lsw_checkoption(L, 2, "network:add", "kind", NULL, kinds);
+  fname = fnames[k];
+  nn = (codes[k] == SW_NET_VCVS || codes[k] == SW_NET_VCCS) ? 4 : 2;
+  name = lsw_checkname(L, 3, fname, "name");
+  value = lsw_checknum(L, 9, fname, "value");
+  for (j = 0; j < nn; j++) nodes[j] = node_arg(L, 4 + j, fname, what[j]);
+  if (codes[k] == SW_NET_CCVS || codes[k] == SW_NET_CCCS) ctrl = lsw_checkname(L, 8, fname, "ctrl");
+  if (sw_net_add(&idle_net(L, fname)->net, codes[k], name, nodes, ctrl, value, &err))
     return lsw_raise(L, "network:add", &err);
   return 0;
 }
@@ -130,14 +171,19 @@ static int l_add(lua_State *L)
 /* n:device(name, na, nb, model, x_is_i, pmax [, curve]) */
 static int l_device(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
-  const char *name = luaL_checkstring(L, 2);
-  const char *na = node_arg(L, 3, "first node"), *nb = node_arg(L, 4, "second node");
-  lsw_model *m = lsw_checkmodel(L, 5);
+  const char *name, *na, *nb;
+  lsw_model *m;
   int x_is_i = lua_toboolean(L, 6);
-  double pmax = luaL_optnumber(L, 7, 0);
+  double pmax;
   sw_err err = { 0, "" };
+  lsw_net *n = check_net(L, 1);
+  name = lsw_checkname(L, 2, "network:element", "name");
+  na = node_arg(L, 3, "network:element", "first node");
+  nb = node_arg(L, 4, "network:element", "second node");
+  pmax = lsw_optnum(L, 7, "network:element", "pmax", 0);
+  m = lsw_checkmodel(L, 5); /* after the conversions, which may run a finalizer */
   if (!lua_isnoneornil(L, 8)) lsw_checkcurve(L, 8);
+  n = idle_net(L, "network:element");
   if (sw_net_add_device(&n->net, name, na, nb, &m->m, x_is_i, pmax, &err))
     return lsw_raise(L, "network:element", &err);
   lua_getiuservalue(L, 1, 1);
@@ -151,9 +197,10 @@ static int l_device(lua_State *L)
 
 static int l_set(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
   sw_err err = { 0, "" };
-  if (sw_net_set(&n->net, luaL_checkstring(L, 2), luaL_checknumber(L, 3), &err))
+  const char *name = lsw_checkname(L, 2, "network:set", "name");
+  double v = lsw_checknum(L, 3, "network:set", "value");
+  if (sw_net_set(&idle_net(L, "network:set")->net, name, v, &err))
     return lsw_raise(L, "network:set", &err);
   return 0;
 }
@@ -186,7 +233,7 @@ static void fill_start(lua_State *L, int tidx, const sw_net *net, int *st)
       for (s = 0; s < d->nseg; s++) if (d->seg[s].label == label) break;
       if (s == d->nseg)
         lsw_fail(L, "network:solve",
-                 "start.%s = %d is not a segment of its model (segments %d..%d)", name, (int)label,
+                 "start.%s = %I is not a segment of its model (segments %d..%d)", name, label,
                  d->seg[0].label, d->seg[d->nseg - 1].label);
       st[net->el[el].dev] = (int)s;
     }
@@ -304,9 +351,9 @@ static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_i
   ctx = lua_newuserdatauv(L, (m ? m : 1) * sizeof *ctx, 0);
   lua_getiuservalue(L, 1, 2);
   top = lua_gettop(L);
-  /* each device's curve takes three slots (itself, its function, an error
-   * slot): reserve them all before any curve is marked busy */
-  if (m > 300000 || !lua_checkstack(L, (int)(3 * m) + 8))
+  /* each device's curve takes four slots (itself, its pin, its function,
+   * an error slot): reserve them all before any curve is pinned */
+  if (m > 200000 || !lua_checkstack(L, (int)(4 * m) + 8))
     lsw_fail(L, "network:solve", "%d devices with exact curves are more than one "
                "exact solve can hold", (int)m);
   for (k = 0; k < m; k++) {
@@ -315,9 +362,9 @@ static void run_exact(lua_State *L, lsw_net *n, sw_net_op *op, lua_Integer max_i
     lsw_curve_bind(L, -1, &copies[k], &ctx[k]);
     ptr[k] = &copies[k];
   }
-  n->busy++;
+  /* the network is pinned by l_solve; a callback's error is raised after
+   * the run, and the pins still held close as it unwinds */
   rc = sw_net_exact_run(&n->net, ptr, op, max_iter > 0 ? (size_t)max_iter : 0, info, &err);
-  n->busy--;
   for (k = m; k-- > 0;) if (ptr[k]) { lsw_curve_done(L, &ctx[k]); lua_pop(L, 1); }
   lua_settop(L, top - 4);
   if (rc) lsw_raise(L, "network:solve", &err);
@@ -391,11 +438,11 @@ static void push_solve_info(lua_State *L, const sw_net *net, const solve_run *r,
 
 static int l_solve(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
+  lsw_net *n;
   int want_trace = lua_toboolean(L, 4), exact = lua_toboolean(L, 6), rc;
-  double max_states = luaL_optnumber(L, 5, 1e6);
-  lua_Integer max_iter = luaL_optinteger(L, 7, 0);
-  const sw_net *net = &n->net;
+  double max_states = lsw_optnum(L, 5, "network:solve", "max_states", 1e6);
+  lua_Integer max_iter = lsw_optint(L, 7, "network:solve", "max_iter", 0, 1000000000, 0);
+  const sw_net *net;
   size_t m;
   int *start = NULL, *state, stab;
   lsw_hold *h;
@@ -403,13 +450,15 @@ static int l_solve(lua_State *L)
   sw_net_exact_info xinfo = { NULL, 0, 0 };
   sw_err err = { 0, "" };
   solve_run r = { 0, 0, 0, 0, -1, NULL, NULL };
-  r.method = luaL_checkoption(L, 2, "auto", solve_methods);
+  r.method = lsw_checkoption(L, 2, "network:solve", "method", "auto", solve_methods);
   r.used = solve_methods[r.method];
   lua_settop(L, 8);
+  n = busy_net(L, "network:solve");
+  net = &n->net;
   prepare(L, n, "network:solve");
   m = net->ndev;
   if (!lua_isnil(L, 3)) {
-    luaL_checktype(L, 3, LUA_TTABLE);
+    lsw_checktable(L, 3, "network:solve", "start");
     start = lua_newuserdatauv(L, (m ? m : 1) * sizeof *start, 0);
     sw_net_default_start(net, start);
     fill_start(L, 3, net, start);
@@ -449,14 +498,17 @@ static int l_solve(lua_State *L)
 /* n:solve_all(max_states) -> list of ops with stability */
 static int l_solve_all(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
-  double max_states = luaL_optnumber(L, 2, 1e6);
-  const sw_net *net = &n->net;
+  double max_states = lsw_optnum(L, 2, "network:solve_all", "max_states", 1e6);
+  lsw_net *n;
+  const sw_net *net;
   size_t count = 0, visited = 0, k, m;
   int *all = NULL;
   lsw_hold *h;
   sw_net_verdict verdict;
   sw_err err = { 0, "" };
+  lua_settop(L, 2);
+  n = busy_net(L, "network:solve_all");
+  net = &n->net;
   prepare(L, n, "network:solve_all");
   m = net->ndev;
   h = new_hold(L);
@@ -487,7 +539,7 @@ static int l_solve_all(lua_State *L)
 /* Checks the swept element (arg 2) and reads the start states (arg 4). */
 static size_t sweep_target(lua_State *L, lsw_net *n, int **start)
 {
-  const char *name = luaL_checkstring(L, 2);
+  const char *name = lsw_checkname(L, 2, "network:sweep", "name");
   size_t el = sw_net_find(&n->net, name);
   *start = NULL;
   if (el == SW_NET_NONE) lsw_fail(L, "network:sweep", "no element named '%s'", name);
@@ -495,7 +547,7 @@ static size_t sweep_target(lua_State *L, lsw_net *n, int **start)
     lsw_fail(L, "network:sweep", "'%s' is a device; sweep a source, gain or resistor", name);
   prepare(L, n, "network:sweep");
   if (!lua_isnoneornil(L, 4)) {
-    luaL_checktype(L, 4, LUA_TTABLE);
+    lsw_checktable(L, 4, "network:sweep", "start");
     *start = lua_newuserdatauv(L, (n->net.ndev ? n->net.ndev : 1) * sizeof **start, 0);
     sw_net_default_start(&n->net, *start);
     fill_start(L, 4, &n->net, *start);
@@ -506,15 +558,16 @@ static size_t sweep_target(lua_State *L, lsw_net *n, int **start)
 /* n:sweep(name, values, start, max_states, lowrank) -> list of ops */
 static int l_sweep(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
+  lsw_net *n;
   size_t nv, k, el;
   double *vals, max_states;
   int *start = NULL, rc;
   lsw_hold *h;
   sw_err err = { 0, "" };
   lua_settop(L, 6);  /* scratch buffers pushed below must not land in argument slots */
-  vals = lsw_checkdoubles(L, 3, "values", &nv, 0);
-  max_states = luaL_optnumber(L, 5, 1e6);
+  n = busy_net(L, "network:sweep");
+  vals = lsw_checkdoubles(L, 3, "values", &nv, 0); /* a copy: its metamethods may run */
+  max_states = lsw_optnum(L, 5, "network:sweep", "max_states", 1e6);
   el = sweep_target(L, n, &start);
   h = new_hold(L);
   if (nv) hold_ops(L, h, nv);
@@ -535,15 +588,19 @@ static int l_sweep(lua_State *L)
 }
 
 /* The swept values: an array is read in place (a copy of 1e5 values costs
- * more in fresh-page faults than the sweep itself); a table is copied. */
+ * more in fresh-page faults than the sweep itself), pinned so that nothing
+ * frees it while the core reads it; a table is copied. */
 static const double *sweep_values(lua_State *L, int idx, size_t *n)
 {
   lsw_array *a = lsw_toarray(L, idx);
   size_t k;
-  if (!a || a->freed) return lsw_checkdoubles(L, idx, "values", n, 0);
+  if (!a || LSW_DEAD(a)) return lsw_checkdoubles(L, idx, "values", n, 0);
+  lsw_pin(L, idx, &a->life);
+  if (LSW_DEAD(a)) lsw_fail(L, "network:sweep", "values: array used after free()");
   for (k = 0; k < a->n; k++)
     if (!sw_isfinite(a->data[k]))
-      lsw_fail(L, "network:sweep", "values[%d] is not finite (%f)", (int)(k + 1), a->data[k]);
+      lsw_fail(L, "network:sweep", "values[%I] is not finite (%f)", (lua_Integer)(k + 1),
+               a->data[k]);
   *n = a->n;
   return a->data;
 }
@@ -596,8 +653,9 @@ static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_poin
 {
   size_t j;
   int res;
-  luaL_checktype(L, outidx, LUA_TTABLE);
-  *nq = (size_t)luaL_len(L, outidx);
+  /* out is read raw (no __len, no __index): a plain list of names, and
+   * no Lua runs while the network's names are looked up */
+  *nq = lsw_rawcount(L, outidx, NULL, "out", 1 << 16);
   if (*nq == 0)
     return lsw_fail(L, NULL, "segwise.network:%s: out must list at least one quantity", fname);
   *q = lua_newuserdatauv(L, *nq * sizeof **q, 0);
@@ -605,7 +663,7 @@ static int push_quant_arrays(lua_State *L, lsw_net *n, int outidx, size_t n_poin
   res = lua_gettop(L);
   for (j = 0; j < *nq; j++) {
     lsw_array *a;
-    lua_geti(L, outidx, (lua_Integer)j + 1);
+    lua_rawgeti(L, outidx, (lua_Integer)j + 1);
     if (lua_type(L, -1) != LUA_TSTRING)
       return lsw_fail(L, NULL, "segwise.network:%s: out[%d] must be a string (got %s)", fname,
                       (int)j + 1, luaL_typename(L, -1));
@@ -657,9 +715,10 @@ static void push_loop_info(lua_State *L, lsw_net *n, int res, const sw_net_sweep
  *     refactors=, fallbacks=, warnings = {{device=, kind=, indices=}...}} */
 static int l_sweep_arrays(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
+  lsw_net *n;
   size_t nv, el, nq;
-  const double *vals;
+  const double *vals = NULL;
+  lsw_array *arr;
   double max_states;
   int *start = NULL, rc, res;
   sw_net_quant *q = NULL;
@@ -667,12 +726,20 @@ static int l_sweep_arrays(lua_State *L)
   sw_err err = { 0, "" };
   nq = 0;
   lua_settop(L, 7);
-  vals = sweep_values(L, 3, &nv);
-  max_states = luaL_optnumber(L, 5, 1e6);
-  luaL_checktype(L, 6, LUA_TTABLE);
+  n = busy_net(L, "network:sweep");
+  max_states = lsw_optnum(L, 5, "network:sweep", "max_states", 1e6);
+  lsw_checktable(L, 6, "network:sweep", "out");
+  arr = lsw_toarray(L, 3);
+  if (!arr || LSW_DEAD(arr)) vals = lsw_checkdoubles(L, 3, "values", &nv, 0); /* a copy */
+  else nv = arr->n;
   el = sweep_target(L, n, &start);
   res = push_quant_arrays(L, n, 6, nv, "sweep", &q, &nq);
   h = new_hold(L);
+  if (!vals) { /* an array in place: pinned last, after everything that may run Lua */
+    size_t again;
+    vals = sweep_values(L, 3, &again);
+    if (again != nv) return lsw_fail(L, "network:sweep", "values changed length while read");
+  }
   n->net.refactor_always = lua_isboolean(L, 7) && !lua_toboolean(L, 7);
   {
     sw_net_sweep_spec sp = {el, vals, nv, start, max_states};
@@ -709,31 +776,33 @@ static sw_net_mc mc_of(const mc_args *a, double max_states)
   return mc;
 }
 
+/* The names (2, raw: no metamethods), tolerances (3, copied), kinds (4,
+ * raw), runs (5) and seed (6) of a Monte Carlo study. */
 static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
 {
+  static const char *const F = "network:montecarlo";
   size_t nt, q;
-  lua_Integer nr = luaL_checkinteger(L, 5);
-  a->seed = luaL_checkinteger(L, 6);
-  luaL_checktype(L, 2, LUA_TTABLE);
-  luaL_checktype(L, 4, LUA_TTABLE);
-  a->k = (size_t)luaL_len(L, 2);
+  a->runs = (size_t)lsw_checkint(L, 5, F, "runs", 1, 100000000);
+  a->seed = lsw_checkint(L, 6, F, "seed", 0, 4294967295LL);
+  a->k = lsw_rawcount(L, 2, F, "names", 1 << 20);
+  lsw_checktable(L, 4, F, "kinds");
   a->tol = lsw_checkdoubles(L, 3, "tol", &nt, 0);
   if (nt != a->k || a->k == 0)
-    lsw_fail(L, "network:montecarlo", "%d names but %d tolerances", (int)a->k, (int)nt);
-  if (nr < 1 || nr > 100000000)
-    lsw_fail(L, "network:montecarlo", "runs must be in 1..1e8 (got %d)", (int)nr);
-  a->runs = (size_t)nr;
+    lsw_fail(L, F, "%I names but %I tolerances", (lua_Integer)a->k, (lua_Integer)nt);
   a->el = lua_newuserdatauv(L, a->k * sizeof *a->el, 0);
   a->gauss = lua_newuserdatauv(L, a->k * sizeof *a->gauss, 0);
   for (q = 0; q < a->k; q++) {
     const char *name;
-    lua_geti(L, 2, (lua_Integer)q + 1);
-    name = luaL_checkstring(L, -1);
+    lua_rawgeti(L, 2, (lua_Integer)q + 1);
+    if (lua_type(L, -1) != LUA_TSTRING)
+      lsw_fail(L, F, "names[%I] must be an element name (got %s)", (lua_Integer)q + 1,
+               luaL_typename(L, -1));
+    name = lsw_checkname(L, -1, F, "an element name");
     a->el[q] = sw_net_find(&n->net, name);
     if (a->el[q] == SW_NET_NONE || n->net.el[a->el[q]].kind == SW_NET_DEV)
-      lsw_fail(L, "network:montecarlo", "no source, gain or resistor named '%s'", name);
+      lsw_fail(L, F, "no source, gain or resistor named '%s'", name);
     lua_pop(L, 1);
-    lua_geti(L, 4, (lua_Integer)q + 1);
+    lua_rawgeti(L, 4, (lua_Integer)q + 1);
     a->gauss[q] = lua_toboolean(L, -1);
     lua_pop(L, 1);
   }
@@ -743,13 +812,15 @@ static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
  * each with .values = {name = drawn value} */
 static int l_montecarlo(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
+  lsw_net *n;
   size_t q, r;
-  double max_states = luaL_optnumber(L, 7, 1e6), *drawn;
+  double max_states = lsw_optnum(L, 7, "network:montecarlo", "max_states", 1e6), *drawn;
   lsw_hold *h;
   mc_args a;
   sw_net_mc mc;
   sw_err err = { 0, "" };
+  lua_settop(L, 7);
+  n = busy_net(L, "network:montecarlo");
   check_mc_args(L, n, &a);
   prepare(L, n, "network:montecarlo");
   drawn = lsw_scratch(L, a.runs * a.k);
@@ -773,7 +844,7 @@ static int l_montecarlo(lua_State *L)
  * res as for sweep_arrays, plus res.values = {name = array of drawn values} */
 static int l_montecarlo_arrays(lua_State *L)
 {
-  lsw_net *n = check_net(L, 1);
+  lsw_net *n;
   double max_states, **drawn;
   sw_net_quant *q = NULL;
   size_t nq = 0, j;
@@ -783,7 +854,8 @@ static int l_montecarlo_arrays(lua_State *L)
   sw_net_mc mc;
   sw_err err = { 0, "" };
   lua_settop(L, 8);
-  max_states = luaL_optnumber(L, 7, 1e6);
+  n = busy_net(L, "network:montecarlo");
+  max_states = lsw_optnum(L, 7, "network:montecarlo", "max_states", 1e6);
   check_mc_args(L, n, &a);
   prepare(L, n, "network:montecarlo");
   res = push_quant_arrays(L, n, 8, a.runs, "montecarlo", &q, &nq);
@@ -809,9 +881,13 @@ static int l_montecarlo_arrays(lua_State *L)
 static int l_segments(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
-  const char *name = luaL_checkstring(L, 2);
-  size_t el = sw_net_find(&n->net, name), k;
+  const char *name = lsw_checkname(L, 2, "network:segments", "name");
+  size_t el, k;
   const sw_net_dev *d;
+  lua_settop(L, 2);
+  lsw_pin(L, 1, &n->life); /* the tables' allocations may run a finalizer */
+  n = check_net(L, 1);
+  el = sw_net_find(&n->net, name);
   if (el == SW_NET_NONE || n->net.el[el].kind != SW_NET_DEV)
     return lsw_fail(L, "network", "no device named '%s'", name);
   d = &n->net.dev[n->net.el[el].dev];
@@ -831,8 +907,11 @@ static int l_segments(lua_State *L)
 static int l_info(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
-  const sw_net *net = &n->net;
+  const sw_net *net;
   size_t k;
+  lua_settop(L, 1);
+  lsw_pin(L, 1, &n->life); /* the tables' allocations may run a finalizer */
+  net = &check_net(L, 1)->net;
   lua_createtable(L, 0, 2);
   lua_createtable(L, (int)net->nnodes, 0);
   for (k = 0; k < net->nnodes; k++) {
@@ -887,6 +966,7 @@ void lsw_open_net(lua_State *L)
 {
   if (luaL_newmetatable(L, LSW_HOLD_MT)) {
     lua_pushcfunction(L, hold_gc); lua_setfield(L, -2, "__gc");
+    lsw_protect_meta(L, NULL);
   }
   lua_pop(L, 1);
   if (luaL_newmetatable(L, LSW_NET_MT)) {
@@ -894,6 +974,7 @@ void lsw_open_net(lua_State *L)
     lua_setfield(L, -2, "__index");
     lua_pushcfunction(L, net_gc); lua_setfield(L, -2, "__gc");
     lua_pushcfunction(L, net_release); lua_setfield(L, -2, "__close");
+    lsw_protect_meta(L, NULL);
   }
   lua_pop(L, 1);
   lua_pushcfunction(L, l_net_new);

@@ -12,34 +12,51 @@ lsw_model *lsw_checkmodel(lua_State *L, int idx)
   lsw_model *m = luaL_testudata(L, idx, LSW_MODEL_MT);
   if (!m)
     lsw_fail(L, NULL, "argument #%d must be a segwise model (got %s)", idx, luaL_typename(L, idx));
-  if (m->freed) lsw_fail(L, NULL, "model used after free() (argument #%d)", idx);
+  if (LSW_DEAD(m)) lsw_fail(L, NULL, "model used after free() (argument #%d)", idx);
   return m;
+}
+
+static void model_free_mem(lsw_life *life)
+{
+  sw_pwl_free(&((lsw_model *)life)->m);
 }
 
 lsw_model *lsw_newmodel(lua_State *L)
 {
   lsw_model *m = lua_newuserdatauv(L, sizeof *m, 1);
   memset(m, 0, sizeof *m);
+  m->life.release = model_free_mem;
   luaL_setmetatable(L, LSW_MODEL_MT);
   return m;
 }
 
+/* The model at 1, pinned: for methods that allocate (so may run a
+ * finalizer) while they read its arrays. */
+static lsw_model *pinned_model(lua_State *L)
+{
+  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_pin(L, 1, &m->life);
+  return lsw_checkmodel(L, 1); /* the pin's allocation may have run a finalizer */
+}
+
+static lsw_model *model_arg(lua_State *L)
+{
+  lsw_model *m = luaL_testudata(L, 1, LSW_MODEL_MT);
+  if (!m) lsw_fail(L, "model:free", "argument #1 must be a segwise model (got %s)",
+                   luaL_typename(L, 1));
+  return m;
+}
+
+/* __gc: while a computation holds the model, its release waits for it. */
 static int model_gc(lua_State *L)
 {
-  lsw_model *m = luaL_checkudata(L, 1, LSW_MODEL_MT);
-  if (!m->freed) {
-    sw_pwl_free(&m->m);
-    m->freed = 1;
-  }
-  return 0;
+  return lsw_release(L, &model_arg(L)->life, "model", 1);
 }
 
 /* :free() and __close: refused while a computation uses the model. */
 static int model_release(lua_State *L)
 {
-  lsw_model *m = luaL_checkudata(L, 1, LSW_MODEL_MT);
-  if (m->busy > 0 && !m->freed) return lsw_refuse_busy(L, "model");
-  return model_gc(L);
+  return lsw_release(L, &model_arg(L)->life, "model", 0);
 }
 
 static sw_extend check_extend(lua_State *L, int idx)
@@ -64,7 +81,8 @@ static int l_pwl_points(lua_State *L)
   sw_extend ext = check_extend(L, 3);
   sw_err err;
   lsw_model *m;
-  if (nx != ny) return lsw_fail(L, "pwl", "x has %d values but y has %d", (int)nx, (int)ny);
+  if (nx != ny)
+    return lsw_fail(L, "pwl", "x has %I values but y has %I", (lua_Integer)nx, (lua_Integer)ny);
   m = lsw_newmodel(L);
   if (sw_pwl_from_points(&m->m, x, y, nx, &err)) return lsw_raise(L, "pwl", &err);
   m->m.extend = ext;
@@ -91,56 +109,63 @@ static int l_pwl_segments(lua_State *L)
   return 1;
 }
 
+/* m:eval(x [, out]) for a table or an array x: every argument is read (a
+ * table's metamethods run) and every buffer allocated before a pointer is
+ * taken, and what a finalizer may have freed meanwhile is checked again;
+ * no Lua runs while the pointers are in use. */
+static int eval_many(lua_State *L)
+{
+  lsw_array *in, *out = NULL;
+  const double *x = NULL;
+  double *y;
+  size_t n;
+  int res;
+  sw_err err;
+  lua_settop(L, 3);
+  if (!lua_isnil(L, 3) && !lsw_toarray(L, 3))
+    return lsw_fail(L, "model:eval", "out must be a segwise array (got %s)", luaL_typename(L, 3));
+  in = lsw_toarray(L, 2);
+  if (!in || LSW_DEAD(in)) x = lsw_checkdoubles(L, 2, "x", &n, 1); /* a copy */
+  else n = in->n;
+  if (!lua_isnil(L, 3)) res = 3;
+  else if (in) { lsw_newarray(L, n); res = lua_gettop(L); }
+  else { lsw_scratch(L, n); res = 0; }
+  if (in) { /* read in place: look again after the allocations */
+    if (LSW_DEAD(in)) return lsw_fail(L, "model:eval", "x: array used after free()");
+    x = in->data;
+  }
+  if (res == 3) {
+    out = lsw_toarray(L, 3);
+    if (LSW_DEAD(out)) return lsw_fail(L, "model:eval", "out used after free()");
+    if (out->n < n)
+      return lsw_fail(L, "model:eval", "out has %I values but x has %I", (lua_Integer)out->n,
+                      (lua_Integer)n);
+  }
+  y = res ? lsw_toarray(L, res)->data : lua_touserdata(L, -1);
+  if (sw_pwl_eval_many(&lsw_checkmodel(L, 1)->m, x, y, n, &err))
+    return lsw_raise(L, "model:eval", &err);
+  if (res) lua_pushvalue(L, res);
+  else lsw_pushdoubles(L, y, n); /* y is GC-owned scratch: safe across the allocation */
+  return 1;
+}
+
 /* Evaluates a number, a table or an array at index 2; m:eval(x, out) writes
  * into the array out (which may be x itself) and returns it. */
 static int l_eval(lua_State *L)
 {
   lsw_model *m = lsw_checkmodel(L, 1);
   sw_err err;
-  if (lua_type(L, 2) == LUA_TNUMBER) {
-    double y;
-    if (sw_pwl_eval(&m->m, lua_tonumber(L, 2), &y, &err)) return lsw_raise(L, "model:eval", &err);
-    lua_pushnumber(L, y);
-    return 1;
-  } else {
-    size_t n;
-    lsw_array *in = lsw_toarray(L, 2), *out = NULL;
-    double *x, *y;
-    if (!lua_isnoneornil(L, 3)) {
-      out = lsw_toarray(L, 3);
-      if (!out)
-        return lsw_fail(L, "model:eval", "out must be a segwise array (got %s)",
-                        luaL_typename(L, 3));
-      if (out->freed) return lsw_fail(L, "model:eval", "out used after free()");
-    }
-    if (in && !in->freed) { /* straight from the array: no copy */
-      if (out && out->n < in->n)
-        return lsw_fail(L, "model:eval", "out has %d values but x has %d", (int)out->n, (int)in->n);
-      if (!out) out = lsw_newarray(L, in->n);
-      else lua_pushvalue(L, 3);
-      if (sw_pwl_eval_many(&m->m, in->data, out->data, in->n, &err))
-        return lsw_raise(L, "model:eval", &err);
-      return 1;
-    }
-    x = lsw_checkdoubles(L, 2, "x", &n, 1);
-    if (out) {
-      if (out->n < n)
-        return lsw_fail(L, "model:eval", "out has %d values but x has %d", (int)out->n, (int)n);
-      if (sw_pwl_eval_many(&m->m, x, out->data, n, &err)) return lsw_raise(L, "model:eval", &err);
-      lua_pushvalue(L, 3);
-      return 1;
-    }
-    y = lsw_scratch(L, n);
-    if (sw_pwl_eval_many(&m->m, x, y, n, &err)) return lsw_raise(L, "model:eval", &err);
-    lsw_pushdoubles(L, y, n);
-    return 1;
-  }
+  double y;
+  if (lua_type(L, 2) != LUA_TNUMBER) return eval_many(L);
+  if (sw_pwl_eval(&m->m, lua_tonumber(L, 2), &y, &err)) return lsw_raise(L, "model:eval", &err);
+  lua_pushnumber(L, y);
+  return 1;
 }
 
 static double check_x(lua_State *L, int idx)
 {
-  double x = luaL_checknumber(L, idx);
-  if (isnan(x)) lsw_fail(L, NULL, "bad argument #%d (x is NaN)", idx);
+  double x = lsw_checknum(L, idx, NULL, "x");
+  if (isnan(x)) lsw_fail(L, NULL, "x is NaN");
   return x;
 }
 
@@ -175,7 +200,7 @@ static int l_nseg(lua_State *L)
  * and ys_left (the left-hand limits) as a third result. */
 static int l_knots(lua_State *L)
 {
-  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_model *m = pinned_model(L);
   size_t k, n = m->m.nseg;
   lsw_pushdoubles(L, m->m.x, n + 1);
   lua_createtable(L, (int)(n + 1), 0);
@@ -191,10 +216,7 @@ static int l_knots(lua_State *L)
 
 static size_t check_seg(lua_State *L, lsw_model *m, int idx)
 {
-  lua_Integer k = luaL_checkinteger(L, idx);
-  if (k < 1 || (lua_Unsigned)k > m->m.nseg)
-    lsw_fail(L, NULL, "segment index %d is outside 1..%d", (int)k, (int)m->m.nseg);
-  return (size_t)(k - 1);
+  return (size_t)(lsw_checkint(L, idx, NULL, "segment index", 1, (lua_Integer)m->m.nseg) - 1);
 }
 
 static void set_num(lua_State *L, const char *key, double v)
@@ -205,7 +227,7 @@ static void set_num(lua_State *L, const char *key, double v)
 
 static int l_seg(lua_State *L)
 {
-  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_model *m = pinned_model(L);
   size_t k = check_seg(L, m, 2);
   double e, r;
   sw_pwl_thevenin(&m->m, k, &e, &r);
@@ -244,7 +266,7 @@ static int l_norton(lua_State *L)
 
 static int l_inverse(lua_State *L)
 {
-  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_model *m = pinned_model(L);
   lsw_model *out = lsw_newmodel(L);
   sw_err err;
   if (sw_pwl_inverse(&m->m, &out->m, &err)) return lsw_raise(L, "model:inverse", &err);
@@ -253,7 +275,7 @@ static int l_inverse(lua_State *L)
 
 static int l_copy(lua_State *L)
 {
-  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_model *m = pinned_model(L);
   lsw_model *out = lsw_newmodel(L);
   sw_err err;
   if (sw_pwl_copy(&m->m, &out->m, &err)) return lsw_raise(L, "model:copy", &err);
@@ -262,7 +284,7 @@ static int l_copy(lua_State *L)
 
 static int l_canonical(lua_State *L)
 {
-  lsw_model *m = lsw_checkmodel(L, 1);
+  lsw_model *m = pinned_model(L);
   size_t n = m->m.nseg;
   double a, b, *c = lsw_scratch(L, n), *beta = lsw_scratch(L, n);
   sw_err err;
@@ -274,17 +296,19 @@ static int l_canonical(lua_State *L)
   return 4;
 }
 
-/* Reads an optional finite number field of the options table at idx. */
-static double opt_field(lua_State *L, int idx, const char *key, double dflt)
+/* Reads an optional finite number field of the options table at idx,
+ * raw: an options table's metamethods are not consulted (the unknown-key
+ * check walks it raw too), so no Lua runs while the models are read. */
+static int opt_field(lua_State *L, int idx, const char *key, double *v)
 {
-  double v;
   int isnum;
-  if (lua_isnoneornil(L, idx)) return dflt;
-  if (lua_getfield(L, idx, key) == LUA_TNIL) { lua_pop(L, 1); return dflt; }
-  v = lua_tonumberx(L, -1, &isnum);
-  if (!isnum || !isfinite(v)) lsw_fail(L, NULL, "option %s must be a finite number", key);
+  if (lua_isnoneornil(L, idx)) return 0;
+  lua_pushstring(L, key);
+  if (lua_rawget(L, idx) == LUA_TNIL) { lua_pop(L, 1); return 0; }
+  *v = lua_tonumberx(L, -1, &isnum);
+  if (!isnum || !isfinite(*v)) lsw_fail(L, NULL, "option %s must be a finite number", key);
   lua_pop(L, 1);
-  return v;
+  return 1;
 }
 
 /* Unknown keys of compare's options table are refused. */
@@ -335,34 +359,38 @@ static int l_compare(lua_State *L)
 {
   lsw_model *m = lsw_checkmodel(L, 1), *ref = luaL_testudata(L, 2, LSW_MODEL_MT);
   lsw_curve *c = NULL;
-  double lo, hi, n, floor, dlo, dhi;
+  double lo = 0, hi = 0, n = 2001, floor = 0, dlo, dhi;
+  int has_lo, has_hi;
   sw_compare out;
   sw_err err;
   int st;
-  if (ref && ref->freed) return lsw_fail(L, NULL, "model used after free() (argument #2)");
   if (!ref && !luaL_testudata(L, 2, LSW_CURVE_MT))
     return lsw_fail(L, NULL, "argument #2 must be a segwise curve or model (got %s)",
                      luaL_typename(L, 2));
-  if (!ref) c = lsw_checkcurve(L, 2);
   compare_check_keys(L);
-  dlo = ref ? ref->m.x[0] : c->c.lo;
-  dhi = ref ? ref->m.x[ref->m.nseg] : c->c.hi;
-  lo = opt_field(L, 3, "lo", dlo > m->m.x[0] ? dlo : m->m.x[0]);
-  hi = opt_field(L, 3, "hi", dhi < m->m.x[m->m.nseg] ? dhi : m->m.x[m->m.nseg]);
-  n = opt_field(L, 3, "n", 2001);
-  floor = opt_field(L, 3, "rel_floor", 0);
+  has_lo = opt_field(L, 3, "lo", &lo);
+  has_hi = opt_field(L, 3, "hi", &hi);
+  opt_field(L, 3, "n", &n);
+  opt_field(L, 3, "rel_floor", &floor);
   if (n < 2 || n > 1e8)
     return lsw_fail(L, "model:compare", "n = %f must be between 2 and 1e8", n);
   lua_settop(L, 3);
+  m = lsw_checkmodel(L, 1); /* every argument read: now the pointers */
+  if (ref) ref = lsw_checkmodel(L, 2);
+  else c = lsw_checkcurve(L, 2);
+  dlo = ref ? ref->m.x[0] : c->c.lo;
+  dhi = ref ? ref->m.x[ref->m.nseg] : c->c.hi;
+  if (!has_lo) lo = dlo > m->m.x[0] ? dlo : m->m.x[0];
+  if (!has_hi) hi = dhi < m->m.x[m->m.nseg] ? dhi : m->m.x[m->m.nseg];
   if (ref) {
     st = sw_pwl_compare_pwl(&m->m, &ref->m, lo, hi, floor, &out, &err);
   } else {
     sw_curve copy;
     lsw_callctx ctx;
+    lsw_pin(L, 1, &m->life); /* the curve's callback must not free or change the model */
     lsw_curve_bind(L, 2, &copy, &ctx);
-    m->busy++;
+    m = lsw_checkmodel(L, 1); /* the pins' allocations may have run a finalizer */
     st = sw_pwl_compare(&m->m, &copy, lo, hi, (size_t)n, floor, &out, &err);
-    m->busy--;
     lsw_curve_done(L, &ctx);
   }
   if (st) return lsw_raise(L, "model:compare", &err);
@@ -381,7 +409,11 @@ static int l_extend(lua_State *L)
 {
   lsw_model *m = lsw_checkmodel(L, 1);
   if (!lua_isnoneornil(L, 2)) {
-    m->m.extend = check_extend(L, 2);
+    sw_extend ext = check_extend(L, 2);
+    if (m->life.busy > 0)
+      return lsw_fail(L, "model:extend", "the model is in use by a computation that is calling "
+                      "back into Lua: it cannot change inside that callback");
+    m->m.extend = ext;
     lua_settop(L, 1);
     return 1;
   }
@@ -397,11 +429,12 @@ static int l_continuous(lua_State *L)
 
 static int l_tostring(lua_State *L)
 {
-  lsw_model *m = luaL_checkudata(L, 1, LSW_MODEL_MT);
+  lsw_model *m = luaL_testudata(L, 1, LSW_MODEL_MT);
   luaL_Buffer b;
   char line[160];
   size_t k;
-  if (m->freed) { lua_pushliteral(L, "segwise model (freed)"); return 1; }
+  if (!m || LSW_DEAD(m)) { lua_pushliteral(L, "segwise model (freed)"); return 1; }
+  m = pinned_model(L); /* the buffer's growth may run a finalizer */
   luaL_buffinit(L, &b);
   snprintf(line, sizeof line, "segwise model: %zu segment%s, %s, outside the knots: %s\n",
            m->m.nseg, m->m.nseg == 1 ? "" : "s", m->m.continuous ? "continuous" : "with jumps",
@@ -444,6 +477,7 @@ void lsw_open_pwl(lua_State *L)
 {
   luaL_newmetatable(L, LSW_MODEL_MT);
   luaL_setfuncs(L, model_meta, 0);
+  lsw_protect_meta(L, l_eval);
   luaL_newlib(L, model_methods);
   lua_pushvalue(L, -1);
   lua_setfield(L, -4, "model_methods"); /* so Lua can add methods */
