@@ -162,7 +162,8 @@ static int array_len(lua_State *L)
   return 1;
 }
 
-static int array_totable(lua_State *L)
+LSW_PROTECT(array_totable)
+static int array_totable_body(lua_State *L)
 {
   lsw_array *a = check_array(L, 1, "array:totable");
   lsw_pin(L, 1, &a->life); /* the table's allocation may run a finalizer */
@@ -216,7 +217,8 @@ static int array_gc(lua_State *L)
   return lsw_release(L, &array_arg(L)->life, "array", 1);
 }
 
-static int array_tostring(lua_State *L)
+LSW_PROTECT(array_tostring)
+static int array_tostring_body(lua_State *L)
 {
   lsw_array *a = lsw_toarray(L, 1);
   luaL_Buffer b;

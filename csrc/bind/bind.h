@@ -32,6 +32,15 @@ typedef struct lsw_life {
  * may move or remove that slot; close it early only with lua_closeslot (Lua
  * 5.4.4's lua_settop may use a stale stack pointer when it closes one). */
 void lsw_pin(lua_State *L, int idx, lsw_life *life);
+/* Runs body(L) with this function's arguments under lua_pcall and raises
+ * its error again: every C function that pins runs its body this way,
+ * because an error that kills a coroutine does not close the coroutine's
+ * to-be-closed slots (the pins would stay until it is collected). */
+int lsw_protected(lua_State *L, lua_CFunction body);
+/* Defines name(L) as lsw_protected(L, name_body), name_body following. */
+#define LSW_PROTECT(name)                                                  \
+  static int name##_body(lua_State *L);                                    \
+  static int name(lua_State *L) { return lsw_protected(L, name##_body); }
 /* The release behind :free() and __close (refuse when busy) or __gc
  * (when busy, defer to the last pin).  what names the type. */
 int lsw_release(lua_State *L, lsw_life *life, const char *what, int defer);

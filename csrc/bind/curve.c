@@ -215,12 +215,6 @@ static int apply_op(lua_State *L, curve_op op, const char *fname)
   lua_settop(L, 2);
   if (lua_type(L, 2) == LUA_TNUMBER) {
     double x = lua_tonumber(L, 2), y = 0;
-    lsw_curve *c = lsw_checkcurve(L, 1);
-    if (c->c.kind != SW_CURVE_FN) { /* no Lua runs: no pin needed (the fast path) */
-      if (op(&c->c, x, &y, &err)) return lsw_raise(L, fname, &err);
-      lua_pushnumber(L, y);
-      return 1;
-    }
     lsw_curve_bind(L, 1, &copy, &ctx);
     st = op(&copy, x, &y, &err);
     lsw_curve_done(L, &ctx);
@@ -251,20 +245,35 @@ static int apply_op(lua_State *L, curve_op op, const char *fname)
   }
 }
 
+/* A number x on a curve that calls no Lua: no pin, no protected call (the
+ * fast path); returns 0 when the general path must run. */
+static int fast_op(lua_State *L, curve_op op, const char *fname)
+{
+  lsw_curve *c = lsw_checkcurve(L, 1);
+  sw_err err;
+  double y;
+  if (lua_type(L, 2) != LUA_TNUMBER || c->c.kind == SW_CURVE_FN) return 0;
+  if (op(&c->c, lua_tonumber(L, 2), &y, &err)) return lsw_raise(L, fname, &err);
+  lua_pushnumber(L, y);
+  return 1;
+}
+
+static int l_eval_body(lua_State *L) { return apply_op(L, sw_curve_eval, "curve:eval"); }
+static int l_deriv_body(lua_State *L) { return apply_op(L, sw_curve_deriv, "curve:deriv"); }
+static int l_deriv2_body(lua_State *L) { return apply_op(L, sw_curve_deriv2, "curve:deriv2"); }
+static int l_call_body(lua_State *L) { return apply_op(L, sw_curve_eval, "curve"); }
+
 static int l_eval(lua_State *L)
 {
-  lsw_checkcurve(L, 1);
-  return apply_op(L, sw_curve_eval, "curve:eval");
+  return fast_op(L, sw_curve_eval, "curve:eval") ? 1 : lsw_protected(L, l_eval_body);
 }
 static int l_deriv(lua_State *L)
 {
-  lsw_checkcurve(L, 1);
-  return apply_op(L, sw_curve_deriv, "curve:deriv");
+  return fast_op(L, sw_curve_deriv, "curve:deriv") ? 1 : lsw_protected(L, l_deriv_body);
 }
 static int l_deriv2(lua_State *L)
 {
-  lsw_checkcurve(L, 1);
-  return apply_op(L, sw_curve_deriv2, "curve:deriv2");
+  return fast_op(L, sw_curve_deriv2, "curve:deriv2") ? 1 : lsw_protected(L, l_deriv2_body);
 }
 
 static int l_domain(lua_State *L)
@@ -293,7 +302,8 @@ static int l_kind(lua_State *L)
 }
 
 /* c:points() -> xs, ys of a sampled curve (copies). */
-static int l_points(lua_State *L)
+LSW_PROTECT(l_points)
+static int l_points_body(lua_State *L)
 {
   lsw_curve *c = lsw_checkcurve(L, 1);
   lsw_pin(L, 1, &c->life); /* a finalizer run by the tables' allocation may free it */
@@ -346,8 +356,7 @@ static int l_tostring(lua_State *L)
 
 static int l_call(lua_State *L)
 {
-  lsw_checkcurve(L, 1);
-  return apply_op(L, sw_curve_eval, "curve");
+  return fast_op(L, sw_curve_eval, "curve") ? 1 : lsw_protected(L, l_call_body);
 }
 
 static int l_thermal(lua_State *L)

@@ -204,7 +204,8 @@ static void push_info(lua_State *L, const sw_pwl *m, const sw_fit_info *info, co
   lua_setfield(L, -2, "per_segment");
 }
 
-static int l_fit(lua_State *L)
+LSW_PROTECT(l_fit)
+static int l_fit_body(lua_State *L)
 {
   sw_fit_opts o;
   sw_fit_info info;

@@ -110,6 +110,15 @@ static int net_release(lua_State *L)
   return lsw_release(L, &net_arg(L, 1)->life, "network", 0);
 }
 
+static int net_tostring(lua_State *L)
+{
+  lsw_net *n = luaL_testudata(L, 1, LSW_NET_MT);
+  if (!n || LSW_DEAD(n)) lua_pushliteral(L, "segwise network (freed)");
+  else lua_pushfstring(L, "segwise network: %I nodes, %I elements", (lua_Integer)n->net.nnodes,
+                       (lua_Integer)n->net.nel);
+  return 1;
+}
+
 /* core.net_new(): user value 1 holds the models, 2 the exact curves, both
  * indexed by device number (1-based). */
 static int l_net_new(lua_State *L)
@@ -436,7 +445,8 @@ static void push_solve_info(lua_State *L, const sw_net *net, const solve_run *r,
   if (want_trace && r->method == 1) { push_trace(L, net, &h->trace); lua_setfield(L, -2, "trace"); }
 }
 
-static int l_solve(lua_State *L)
+LSW_PROTECT(l_solve)
+static int l_solve_body(lua_State *L)
 {
   lsw_net *n;
   int want_trace = lua_toboolean(L, 4), exact = lua_toboolean(L, 6), rc;
@@ -496,7 +506,8 @@ static int l_solve(lua_State *L)
 }
 
 /* n:solve_all(max_states) -> list of ops with stability */
-static int l_solve_all(lua_State *L)
+LSW_PROTECT(l_solve_all)
+static int l_solve_all_body(lua_State *L)
 {
   double max_states = lsw_optnum(L, 2, "network:solve_all", "max_states", 1e6);
   lsw_net *n;
@@ -556,7 +567,8 @@ static size_t sweep_target(lua_State *L, lsw_net *n, int **start)
 }
 
 /* n:sweep(name, values, start, max_states, lowrank) -> list of ops */
-static int l_sweep(lua_State *L)
+LSW_PROTECT(l_sweep)
+static int l_sweep_body(lua_State *L)
 {
   lsw_net *n;
   size_t nv, k, el;
@@ -713,7 +725,8 @@ static void push_loop_info(lua_State *L, lsw_net *n, int res, const sw_net_sweep
 /* n:sweep_arrays(name, values, start, max_states, out, lowrank)
  * -> {[k] = array, [out[k]] = array, iterations=, lowrank_updates=,
  *     refactors=, fallbacks=, warnings = {{device=, kind=, indices=}...}} */
-static int l_sweep_arrays(lua_State *L)
+LSW_PROTECT(l_sweep_arrays)
+static int l_sweep_arrays_body(lua_State *L)
 {
   lsw_net *n;
   size_t nv, el, nq;
@@ -810,7 +823,8 @@ static void check_mc_args(lua_State *L, lsw_net *n, mc_args *a)
 
 /* n:montecarlo(names, tols, gauss, runs, seed, max_states) -> list of ops,
  * each with .values = {name = drawn value} */
-static int l_montecarlo(lua_State *L)
+LSW_PROTECT(l_montecarlo)
+static int l_montecarlo_body(lua_State *L)
 {
   lsw_net *n;
   size_t q, r;
@@ -842,7 +856,8 @@ static int l_montecarlo(lua_State *L)
 
 /* n:montecarlo_arrays(names, tols, gauss, runs, seed, max_states, out) ->
  * res as for sweep_arrays, plus res.values = {name = array of drawn values} */
-static int l_montecarlo_arrays(lua_State *L)
+LSW_PROTECT(l_montecarlo_arrays)
+static int l_montecarlo_arrays_body(lua_State *L)
 {
   lsw_net *n;
   double max_states, **drawn;
@@ -878,7 +893,8 @@ static int l_montecarlo_arrays(lua_State *L)
 }
 
 /* n:segments(name) -> {{label=, lo=, hi=, slope=, intercept=}, ...} */
-static int l_segments(lua_State *L)
+LSW_PROTECT(l_segments)
+static int l_segments_body(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
   const char *name = lsw_checkname(L, 2, "network:segments", "name");
@@ -904,7 +920,8 @@ static int l_segments(lua_State *L)
 
 /* n:info() -> {nodes = {...}, elements = {{name=, kind=, nodes={...}, ctrl=, value=, pmax=, x=}}}
  */
-static int l_info(lua_State *L)
+LSW_PROTECT(l_info)
+static int l_info_body(lua_State *L)
 {
   lsw_net *n = check_net(L, 1);
   const sw_net *net;
@@ -974,6 +991,7 @@ void lsw_open_net(lua_State *L)
     lua_setfield(L, -2, "__index");
     lua_pushcfunction(L, net_gc); lua_setfield(L, -2, "__gc");
     lua_pushcfunction(L, net_release); lua_setfield(L, -2, "__close");
+    lua_pushcfunction(L, net_tostring); lua_setfield(L, -2, "__tostring");
     lsw_protect_meta(L, NULL);
   }
   lua_pop(L, 1);

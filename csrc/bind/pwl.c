@@ -156,7 +156,7 @@ static int l_eval(lua_State *L)
   lsw_model *m = lsw_checkmodel(L, 1);
   sw_err err;
   double y;
-  if (lua_type(L, 2) != LUA_TNUMBER) return eval_many(L);
+  if (lua_type(L, 2) != LUA_TNUMBER) return lsw_protected(L, eval_many);
   if (sw_pwl_eval(&m->m, lua_tonumber(L, 2), &y, &err)) return lsw_raise(L, "model:eval", &err);
   lua_pushnumber(L, y);
   return 1;
@@ -198,7 +198,8 @@ static int l_nseg(lua_State *L)
 
 /* m:knots() -> xs, ys (value at each knot; right-hand value at a jump),
  * and ys_left (the left-hand limits) as a third result. */
-static int l_knots(lua_State *L)
+LSW_PROTECT(l_knots)
+static int l_knots_body(lua_State *L)
 {
   lsw_model *m = pinned_model(L);
   size_t k, n = m->m.nseg;
@@ -225,7 +226,8 @@ static void set_num(lua_State *L, const char *key, double v)
   lua_setfield(L, -2, key);
 }
 
-static int l_seg(lua_State *L)
+LSW_PROTECT(l_seg)
+static int l_seg_body(lua_State *L)
 {
   lsw_model *m = pinned_model(L);
   size_t k = check_seg(L, m, 2);
@@ -264,7 +266,8 @@ static int l_norton(lua_State *L)
   return 2;
 }
 
-static int l_inverse(lua_State *L)
+LSW_PROTECT(l_inverse)
+static int l_inverse_body(lua_State *L)
 {
   lsw_model *m = pinned_model(L);
   lsw_model *out = lsw_newmodel(L);
@@ -273,7 +276,8 @@ static int l_inverse(lua_State *L)
   return 1;
 }
 
-static int l_copy(lua_State *L)
+LSW_PROTECT(l_copy)
+static int l_copy_body(lua_State *L)
 {
   lsw_model *m = pinned_model(L);
   lsw_model *out = lsw_newmodel(L);
@@ -282,7 +286,8 @@ static int l_copy(lua_State *L)
   return 1;
 }
 
-static int l_canonical(lua_State *L)
+LSW_PROTECT(l_canonical)
+static int l_canonical_body(lua_State *L)
 {
   lsw_model *m = pinned_model(L);
   size_t n = m->m.nseg;
@@ -355,7 +360,8 @@ static void compare_push(lua_State *L, const sw_compare *out, double lo, double 
 /* m:compare(curve_or_model [, {lo=, hi=, n=, rel_floor=}]): a model as the
  * reference is piecewise linear, so its check is exact like a sampled
  * curve's. */
-static int l_compare(lua_State *L)
+LSW_PROTECT(l_compare)
+static int l_compare_body(lua_State *L)
 {
   lsw_model *m = lsw_checkmodel(L, 1), *ref = luaL_testudata(L, 2, LSW_MODEL_MT);
   lsw_curve *c = NULL;
@@ -427,7 +433,8 @@ static int l_continuous(lua_State *L)
   return 1;
 }
 
-static int l_tostring(lua_State *L)
+LSW_PROTECT(l_tostring)
+static int l_tostring_body(lua_State *L)
 {
   lsw_model *m = luaL_testudata(L, 1, LSW_MODEL_MT);
   luaL_Buffer b;

@@ -36,6 +36,11 @@ static void push_own_prefix(lua_State *L)
   if (lua_getstack(L, 0, &ar) && lua_getinfo(L, "n", &ar) && ar.name &&
       (strcmp(ar.namewhat, "method") == 0 || strcmp(ar.namewhat, "field") == 0))
     name = ar.name;
+  /* a body run by lsw_protected has no name: its caller's is the public one */
+  else if (lua_getstack(L, 1, &ar) && lua_getinfo(L, "nS", &ar) && ar.name &&
+           strcmp(ar.what, "C") == 0 &&
+           (strcmp(ar.namewhat, "method") == 0 || strcmp(ar.namewhat, "field") == 0))
+    name = ar.name;
   for (k = 0; name && public_names[k][0]; k++)
     if (strcmp(name, public_names[k][0]) == 0) name = public_names[k][1];
   owner = owner_of(L);
@@ -166,6 +171,18 @@ void lsw_pin(lua_State *L, int idx, lsw_life *life)
   lua_toclose(L, -1); /* closed on return or error: the count always drops */
   p->life = life;
   life->busy++;
+}
+
+int lsw_protected(lua_State *L, lua_CFunction body)
+{
+  int nargs = lua_gettop(L);
+  luaL_checkstack(L, 2, "segwise: no room on the Lua stack for a call");
+  lua_pushcfunction(L, body);
+  lua_insert(L, 1);
+  /* the body's pins close as its error unwinds to here, inside this
+   * coroutine, even when nothing above catches the error */
+  if (lua_pcall(L, nargs, LUA_MULTRET, 0) != LUA_OK) return lua_error(L);
+  return lua_gettop(L);
 }
 
 int lsw_release(lua_State *L, lsw_life *life, const char *what, int defer)
