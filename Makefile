@@ -114,7 +114,8 @@ asan: deps
 # and evaluation speed paths are covered by make asan, make ctest and fuzzing).
 VALGRIND_SPECS ?= spec/curve_spec.lua spec/pwl_spec.lua spec/reference_spec.lua spec/net_spec.lua \
   spec/reference_net_spec.lua spec/net_warnings_spec.lua spec/array_spec.lua spec/modelfile_spec.lua \
-  spec/badinput_spec.lua spec/examples_spec.lua spec/locale_spec.lua spec/savefile_spec.lua spec/textplot_spec.lua
+  spec/badinput_spec.lua spec/examples_spec.lua spec/locale_spec.lua spec/savefile_spec.lua spec/textplot_spec.lua \
+  spec/hostile_spec.lua
 valgrind: deps
 	@command -v valgrind >/dev/null || $(MAKE) --no-print-directory deps EXTRA_PKGS=valgrind
 	@$(MAKE) --no-print-directory BUILDDIR=build-vg OPT="-O1 -g" all
