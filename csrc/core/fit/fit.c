@@ -13,6 +13,8 @@
 #include "fit/fit_minimax.h"
 
 #include <math.h>
+#include <stdint.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -27,6 +29,10 @@
 #define FEWER_MARGIN 0.02 /* see fewer_possible */
 #define FEWER_MARGIN_MIN 4e-3 /* dense samples (1000 a segment): no off-grid search */
 #define FEWER_MAX 64       /* above this count a spare segment is left (see fewer_segments) */
+#define COUNT_SEARCH_MAX 4096 /* the most segments a count search tries */
+#define TOL_SLACK 1e-9     /* the recheck's allowance over tol */
+#define FLOOR_RTOL 1e-2    /* precision of a stated floor on the error (two digits) */
+#define KNOTS_FLOOR_RTOL 1e-2
 
 /* How many samples a fit of c works on: the curve's own inside (lo, hi)
  * plus the range ends, or an analytic grid's target size. */
@@ -148,6 +154,7 @@ typedef struct fit_job {
   double internal;
   sw_compare cmp;   /* the last recheck, and 1 when it is of the model returned */
   int have_cmp;
+  size_t lower;     /* tol fits: the fewest segments any model needs on the samples */
 } fit_job;
 
 /* An analytic curve, absolute error, no constraints on the lines. */
@@ -597,16 +604,6 @@ static int measure(fit_job *J, const sw_pwl *m, double *e, sw_err *err)
   return SW_OK;
 }
 
-/* The fewest-segment model against the caller's cap (freed when above). */
-static int within_cap(const sw_fit_opts *o, sw_pwl *out, sw_err *err)
-{
-  size_t n = out->nseg;
-  if (!o->max_segments || n <= o->max_segments) return SW_OK;
-  sw_pwl_free(out);
-  return sw_err_set(err, SW_ENOSOL, "tol = %g needs %zu segments with this scheme, more than "
-                    "max_segments = %zu", o->tol, n, o->max_segments);
-}
-
 /* Polish: the best lines on the greedy knots.  The greedy stops at the
  * first lines within the level (a polygon's centroid when discontinuous),
  * near the level when it is tight; a bracket of its upper half centres
@@ -734,74 +731,272 @@ static int fewer_segments(fit_job *J, sw_pwl *out, sw_err *err)
   return SW_OK;
 }
 
-/* Fewest segments within tol: the greedy tube for optimal minimax and
- * interpolation; a search over the count for every other scheme. */
-static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
+/* ---- Tolerance fits under a cap -------------------------------------------
+ * The cap bounds the work.  fit_minimax_lower counts the fewest segments
+ * any model needs within tol on the samples in one greedy pass that stops
+ * at the cap, so a tol beyond it is refused before any fit, with the error
+ * no model of the cap's count gets below.  The count search of the fixed
+ * knot schemes starts from that bound, and a count whose knots cannot meet
+ * tol even on the samples is refuted in one pass instead of a full fit. */
+
+/* Optimal minimax and interpolation find their fewest segments by the
+ * greedy tube; every other scheme searches the count. */
+static int greedy_scheme(const sw_fit_opts *o)
+{
+  return o->knots == SW_KNOTS_OPTIMAL && o->criterion != SW_FIT_LSQ;
+}
+
+/* The most segments a tolerance fit of J may make: max_segments, and for a
+ * count search its own limit too; 0: no cap. */
+static size_t tol_cap(const fit_job *J)
 {
   const sw_fit_opts *o = J->o;
-  double tol = o->tol, e;
-  size_t lo, hi, nmax, i;
-  int st;
-  for (i = 0; i < o->nthrough; i++) { /* a point off the band cannot be met */
-    double f;
-    if ((st = sw_curve_eval(J->c, o->through_x[i], &f, err))) return st;
-    if (fabs(o->through_y[i] - f) > tol * fit_scale_of(f, o->rel, o->rel_floor))
-      return sw_err_set(err, SW_ENOSOL, "through[%zu] = (%g, %g) lies farther than tol = %g from "
-                        "the curve (%g there)", i + 1, o->through_x[i], o->through_y[i], tol, f);
+  size_t n = J->d.n > 1 ? J->d.n - 1 : 1;
+  if (greedy_scheme(o)) return o->max_segments;
+  if (n > COUNT_SEARCH_MAX) n = COUNT_SEARCH_MAX;
+  return o->max_segments && o->max_segments < n ? o->max_segments : n;
+}
+
+static const char *scheme_name(sw_knots_scheme k)
+{
+  switch (k) {
+  case SW_KNOTS_GEOMETRIC: return "geometric";
+  case SW_KNOTS_CURVATURE: return "curvature";
+  case SW_KNOTS_OPTIMAL: return "optimal";
+  default: return "uniform";
   }
-  if (o->knots == SW_KNOTS_OPTIMAL && o->criterion != SW_FIT_LSQ) {
-    if ((st = tol_greedy(J, out, err))) return st;
-    if ((st = within_cap(o, out, err))) return st;
-    /* knots sit on samples: an analytic curve needing many segments gets
-     * a grid of TOL_POINTS_PER_SEG points a segment and a second pass */
-    if (J->d.analytic && !o->grid && J->d.n < TOL_POINTS_PER_SEG * out->nseg) {
-      sw_fit_opts o2 = *o;
-      fit_data nd;
-      size_t want = TOL_POINTS_PER_SEG * out->nseg + 1;
-      o2.grid = want < TOL_MAX_GRID ? want : TOL_MAX_GRID;
-      if (o2.grid > J->d.n) {
-        if ((st = prepare(J->c, &o2, &nd, err))) { sw_pwl_free(out); return st; }
-        fit_data_free(&J->d);
-        J->d = nd;
-        sw_pwl_free(out);
-        if ((st = tol_greedy(J, out, err))) return st;
-        if ((st = within_cap(o, out, err))) return st;
-      }
+}
+
+/* f rounded down to two significant digits: a stated floor stays one. */
+static double down2(double f)
+{
+  double p;
+  if (!(f > 0) || !sw_isfinite(f)) return f;
+  p = pow(10, floor(log10(f)) - 1);
+  return floor(f / p) * p;
+}
+
+static const char *error_word(const sw_fit_opts *o)
+{
+  return o->rel ? "relative error" : "error";
+}
+
+/* The refusal of a tol that needs more than cap segments on samples d. */
+static int refuse_over_cap(const sw_fit_opts *o, const fit_data *d, size_t cap, sw_err *err)
+{
+  double f;
+  int st = fit_minimax_floor(d, cap, FLOOR_RTOL, &f, err);
+  if (st) return st;
+  if (o->max_segments == cap)
+    return sw_err_set(err, SW_ENOSOL, "tol = %g needs more than max_segments = %zu segments (no "
+                      "model of %zu segments gets its %s below %.2g)", o->tol, cap, cap,
+                      error_word(o), down2(f));
+  return sw_err_set(err, SW_ENOSOL, "tol = %g needs more than %zu segments, the most a tolerance "
+                    "fit with %s knots tries (no model of %zu segments gets its %s below %.2g)",
+                    o->tol, cap, scheme_name(o->knots), cap, error_word(o), down2(f));
+}
+
+/* Refuses a tol that needs more than cap segments on samples d (cap 0: no
+ * check); else *lower gets the fewest segments any model needs there. */
+static int check_cap(const sw_fit_opts *o, const fit_data *d, size_t cap, size_t *lower,
+                     sw_err *err)
+{
+  size_t m;
+  int st;
+  *lower = 1;
+  if (!cap) return SW_OK;
+  if ((st = fit_minimax_lower(d, o->tol * (1 + TOL_SLACK), cap, &m, err))) return st;
+  if (m == SIZE_MAX) return SW_OK; /* not even one run fits: the fit itself says why */
+  if (m > cap) return refuse_over_cap(o, d, cap, err);
+  *lower = m;
+  return SW_OK;
+}
+
+/* An analytic curve's tol grid may take 10^5 to 10^6 evaluations; any
+ * samples of the curve bound the count, so a tol beyond max_segments is
+ * refused first on the grid a fit of max_segments would take (its floor
+ * then as close as such a fit's). */
+static int coarse_cap_check(const sw_curve *c, const sw_fit_opts *o, sw_err *err)
+{
+  sw_fit_opts o2 = *o;
+  fit_data d;
+  size_t lower;
+  int st;
+  if (c->kind == SW_CURVE_SAMPLES || !(o->tol > 0) || !o->max_segments) return SW_OK;
+  if (o->criterion == SW_FIT_TANGENT) return SW_OK;
+  o2.tol = 0;
+  o2.segments = o->max_segments;
+  o2.knots = SW_KNOTS_OPTIMAL;
+  if ((st = prepare(c, &o2, &d, err))) return st;
+  st = check_cap(o, &d, o->max_segments, &lower, err);
+  fit_data_free(&d);
+  return st;
+}
+
+/* The fewest-segment model against the caller's cap (freed when above);
+ * spare: one segment more may stand for now, fewer_segments may save it. */
+static int within_cap(const fit_job *J, sw_pwl *out, int spare, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  size_t n = out->nseg, cap = o->max_segments;
+  if (spare && o->criterion == SW_FIT_MINIMAX && cap < FEWER_MAX) cap++;
+  if (!o->max_segments || n <= cap) return SW_OK;
+  sw_pwl_free(out);
+  return sw_err_set(err, SW_ENOSOL, "tol = %g needs more than max_segments = %zu segments: the "
+                    "fewest found is %zu (any model needs at least %zu)", o->tol,
+                    o->max_segments, n, J->lower);
+}
+
+/* Fewest segments for optimal minimax and interpolation: the greedy tube.
+ * Its knots sit on samples: an analytic curve needing many segments gets
+ * a grid of TOL_POINTS_PER_SEG points a segment and a second pass. */
+static int tol_optimal(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  int st;
+  if ((st = tol_greedy(J, out, err))) return st;
+  if ((st = within_cap(J, out, 1, err))) return st;
+  if (J->d.analytic && !o->grid && J->d.n < TOL_POINTS_PER_SEG * out->nseg) {
+    sw_fit_opts o2 = *o;
+    fit_data nd;
+    size_t want = TOL_POINTS_PER_SEG * out->nseg + 1;
+    o2.grid = want < TOL_MAX_GRID ? want : TOL_MAX_GRID;
+    if (o2.grid > J->d.n) {
+      if ((st = prepare(J->c, &o2, &nd, err))) { sw_pwl_free(out); return st; }
+      fit_data_free(&J->d);
+      J->d = nd;
+      sw_pwl_free(out);
+      if ((st = tol_greedy(J, out, err))) return st;
+      if ((st = within_cap(J, out, 1, err))) return st;
     }
-    if (o->criterion == SW_FIT_MINIMAX && (st = fewer_segments(J, out, err))) sw_pwl_free(out);
+  }
+  if (o->criterion == SW_FIT_MINIMAX && (st = fewer_segments(J, out, err))) {
+    sw_pwl_free(out);
     return st;
   }
-  /* search the count: doubling, then bisection */
-  nmax = J->d.n > 1 ? J->d.n - 1 : 1;
-  if (nmax > 4096) nmax = 4096;
-  if (o->max_segments && nmax > o->max_segments) nmax = o->max_segments;
-  lo = 0;
-  hi = 1;
+  return within_cap(J, out, 0, err);
+}
+
+/* The knots of J's scheme for n segments, made samples of J's data. */
+static int scheme_knots(fit_job *J, size_t n, double **K, sw_err *err)
+{
+  int st;
+  *K = sw_alloc(n + 1, sizeof **K, err);
+  if (!*K) return SW_ENOMEM;
+  st = knots_for(J, n, *K, err);
+  if (!st) st = fit_data_insert(&J->d, J->c, *K, n + 1, J->o->rel, J->o->rel_floor, err);
+  if (st) { free(*K); *K = NULL; }
+  return st;
+}
+
+/* The minimax on the scheme's knots for n segments, the best any criterion
+ * gets on them: *e = INFINITY when it cannot meet the level cap on the
+ * samples (one pass), else its level searched to rtol. */
+static int knots_level(fit_job *J, size_t n, double cap, double rtol, double *e, sw_err *err)
+{
+  fit_level_search ls = {cap, cap, rtol, 1};
+  sw_pwl p;
+  double *K;
+  int st;
+  if (!(cap > 0)) { ls.lo = ls.hi = 0; ls.capped = 0; } /* no cap: the whole range */
+  memset(&p, 0, sizeof p);
+  if ((st = scheme_knots(J, n, &K, err))) return st;
+  st = fit_minimax_fixed_from(&J->d, K, n, J->o->continuous, &J->cons, &ls, &p, e, &J->iters,
+                              err);
+  free(K);
+  sw_pwl_free(&p);
+  return st;
+}
+
+/* *e: the error of the scheme's model of n segments against the curve,
+ * INFINITY when its knots cannot meet tol even on the samples. */
+static int count_error(fit_job *J, size_t n, double *e, sw_err *err)
+{
+  sw_pwl m;
+  int st;
+  *e = INFINITY;
+  J->iters++;
+  if (J->o->knots != SW_KNOTS_OPTIMAL) { /* free knots (lsq) have no fixed knots to refute */
+    if ((st = knots_level(J, n, J->o->tol * (1 + TOL_SLACK), 1, e, err))) return st;
+    if (*e == INFINITY) return SW_OK;
+  }
+  memset(&m, 0, sizeof m);
+  st = fit_count(J, n, &m, err);
+  if (!st) st = measure(J, &m, e, err);
+  sw_pwl_free(&m);
+  return st;
+}
+
+/* A fixed knot scheme that does not meet tol within the cap, where other
+ * knots may (the lower bound is within it); e: its error at the cap. */
+static int refuse_scheme(fit_job *J, size_t cap, double e, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  char why[160];
+  int st;
+  if (e == INFINITY) { /* refuted on the samples: the best these knots allow, from below */
+    if ((st = knots_level(J, cap, 0, KNOTS_FLOOR_RTOL, &e, err))) return st;
+    snprintf(why, sizeof why, "at %zu segments these knots cannot get the %s below %.2g", cap,
+             error_word(o), down2(e * (1 - KNOTS_FLOOR_RTOL)));
+  } else {
+    snprintf(why, sizeof why, "the model of %zu segments is %.2g off", cap, e);
+  }
+  if (o->max_segments == cap)
+    return sw_err_set(err, SW_ENOSOL, "tol = %g needs more than max_segments = %zu segments with "
+                      "%s knots (%s%s)", o->tol, cap, scheme_name(o->knots), why,
+                      o->knots != SW_KNOTS_OPTIMAL ? "; knots = \"optimal\" may need fewer" : "");
+  return sw_err_set(err, SW_ENOSOL, "no model of up to %zu segments with %s knots meets tol = %g "
+                    "(%s)", cap, scheme_name(o->knots), o->tol, why);
+}
+
+/* Fewest segments of a fixed knot scheme: doubling from the lower bound,
+ * then bisection. */
+static int tol_count_search(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  size_t nmax = tol_cap(J), lo = J->lower - 1, hi = J->lower;
+  double e;
+  int st;
+  if (hi > nmax) hi = nmax;
   for (;;) {
-    memset(out, 0, sizeof *out);
-    st = fit_count(J, hi, out, err);
-    J->iters++;
-    if (!st) st = measure(J, out, &e, err);
-    if (st) { sw_pwl_free(out); return st; }
-    sw_pwl_free(out);
-    if (e <= tol) break;
+    if ((st = count_error(J, hi, &e, err))) return st;
+    if (e <= J->o->tol) break;
     lo = hi;
-    if (hi >= nmax)
-      return sw_err_set(err, SW_ENOSOL, "no model of up to %zu segments meets tol = %g with this "
-                        "scheme%s", nmax, tol, nmax == o->max_segments ? " (max_segments)" : "");
+    if (hi >= nmax) return refuse_scheme(J, nmax, e, err);
     hi = hi * 2 > nmax ? nmax : hi * 2;
   }
   while (hi - lo > 1) {
     size_t mid = (lo + hi) / 2;
-    memset(out, 0, sizeof *out);
-    st = fit_count(J, mid, out, err);
-    J->iters++;
-    if (!st) st = measure(J, out, &e, err);
-    sw_pwl_free(out);
+    st = count_error(J, mid, &e, err);
     if (!absorbable(st)) return st;
-    if (!st && e <= tol) hi = mid; else lo = mid;
+    if (!st && e <= J->o->tol) hi = mid; else lo = mid;
   }
   return fit_count(J, hi, out, err);
+}
+
+/* A through point farther than tol from the curve cannot be met. */
+static int through_within_tol(const fit_job *J, sw_err *err)
+{
+  const sw_fit_opts *o = J->o;
+  size_t i;
+  int st;
+  for (i = 0; i < o->nthrough; i++) {
+    double f;
+    if ((st = sw_curve_eval(J->c, o->through_x[i], &f, err))) return st;
+    if (fabs(o->through_y[i] - f) > o->tol * fit_scale_of(f, o->rel, o->rel_floor))
+      return sw_err_set(err, SW_ENOSOL, "through[%zu] = (%g, %g) lies farther than tol = %g from "
+                        "the curve (%g there)", i + 1, o->through_x[i], o->through_y[i], o->tol, f);
+  }
+  return SW_OK;
+}
+
+/* Fewest segments within tol, within the cap. */
+static int fit_tol(fit_job *J, sw_pwl *out, sw_err *err)
+{
+  int st;
+  if ((st = through_within_tol(J, err))) return st;
+  if ((st = check_cap(J->o, &J->d, tol_cap(J), &J->lower, err))) return st;
+  if (greedy_scheme(J->o)) return tol_optimal(J, out, err);
+  return tol_count_search(J, out, err);
 }
 
 static int fit_tangent(fit_job *J, sw_pwl *out, sw_err *err)
@@ -844,7 +1039,7 @@ int sw_fit(const sw_curve *c, const sw_fit_opts *opts, sw_pwl *out, sw_fit_info 
   o = &R.o;
   J.c = c;
   J.o = o;
-  if ((st = prepare(c, o, &J.d, err))) goto done;
+  if ((st = coarse_cap_check(c, o, err)) || (st = prepare(c, o, &J.d, err))) goto done;
   if (c->kind == SW_CURVE_SAMPLES && !(o->tol > 0) && o->knots != SW_KNOTS_LIST &&
       o->segments + 1 > distinct_x(&J.d)) {
     st = sw_err_set(err, SW_EINVAL, "segments (%zu) needs at least %zu samples in [%g, %g]; the "

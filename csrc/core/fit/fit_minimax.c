@@ -946,3 +946,93 @@ done:
   fit_tube_clear(&w);
   return st;
 }
+
+/* ---- Bounds that hold for every scheme ------------------------------------
+ * A model of n segments within e on the samples splits them into at most
+ * n disjoint runs (a knot between two samples, or on one), each within one
+ * line's bands; the greedy farthest reach over disjoint runs makes the
+ * fewest such runs.  So its count bounds every model's (continuous or not,
+ * knots anywhere, any criterion), and its level for a count bounds every
+ * model's error: cheap refusals for a tolerance fit under a cap.  (The
+ * greedy above shares end samples: a bound only for knots on samples.) */
+
+/* Disjoint runs of samples at level e, no constraints: their count, or
+ * maxseg + 1 once above maxseg, or SIZE_MAX when samples at one x conflict. */
+static size_t disjoint_runs(const fit_data *d, double e, size_t maxseg, tube_ws *w)
+{
+  size_t p = 0, q, m = 0;
+  for (;;) {
+    int ok;
+    q = fit_tube_run(d, e, (fit_span){p, d->n - 1, -INFINITY, INFINITY, -INFINITY, INFINITY}, w,
+                     NULL, &ok);
+    if (!ok) return SIZE_MAX;
+    m++;
+    if (q + 1 >= d->n) return m;
+    if (m >= maxseg) return m + 1;
+    p = q + 1;
+  }
+}
+
+int fit_minimax_lower(const fit_data *d, double e, size_t maxseg, size_t *m, sw_err *err)
+{
+  tube_ws w;
+  int st;
+  memset(&w, 0, sizeof w);
+  *m = SIZE_MAX;
+  if ((st = fit_tube_init(&w, d->n, err))) { fit_tube_clear(&w); return st; }
+  *m = disjoint_runs(d, e, maxseg, &w);
+  fit_tube_clear(&w);
+  return SW_OK;
+}
+
+/* The level bracket [*lo, *hi] of the fewest disjoint runs reaching nseg,
+ * to rtol: *lo refuted, *hi met (raised by doubling while it is not). */
+static void floor_search(const fit_data *d, size_t nseg, double rtol, double *lo, double *hi,
+                         tube_ws *w)
+{
+  size_t it;
+  int tries;
+  for (tries = 0; disjoint_runs(d, *hi, nseg, w) > nseg; tries++) {
+    *lo = *hi;
+    *hi *= 2;
+    if (tries == 200 || !sw_isfinite(*hi)) return; /* samples at one x that conflict */
+  }
+  for (it = 0; it < FIT_BISECT_STEPS && *hi - *lo > rtol * *hi; it++) {
+    double mid = fit_mid_level(*lo, *hi);
+    if (disjoint_runs(d, mid, nseg, w) <= nseg) *hi = mid;
+    else *lo = mid;
+  }
+}
+
+/* Long sample sets search every k-th sample first (64 samples a run at
+ * least, so the subset's level is close): a level refuted there is refuted
+ * on all (a subset's runs are never more), so only a short bisection above
+ * it runs on the full data. */
+int fit_minimax_floor(const fit_data *d, size_t nseg, double rtol, double *e, sw_err *err)
+{
+  tube_ws w;
+  double lo = 0, hi = fit_start_level(d);
+  int st;
+  memset(&w, 0, sizeof w);
+  *e = 0;
+  if ((st = fit_tube_init(&w, d->n, err))) goto done;
+  if (d->n >= GUESS_MIN && d->n / 64 >= nseg * 2) {
+    fit_data s;
+    size_t i, want = GUESS_SAMPLES > 64 * nseg ? GUESS_SAMPLES : 64 * nseg;
+    size_t step = d->n / want;
+    if ((st = subset_alloc(&s, (d->n - 1) / step + 2, err))) {
+      free(s.x); free(s.y); free(s.s);
+      goto done;
+    }
+    for (i = 0; i < d->n; i += step) subset_take(&s, d, i);
+    if (s.x[s.n - 1] < d->x[d->n - 1]) subset_take(&s, d, d->n - 1);
+    floor_search(&s, nseg, rtol, &lo, &hi, &w);
+    free(s.x); free(s.y); free(s.s);
+    hi *= 1 + 8 * rtol;
+  }
+  floor_search(d, nseg, rtol, &lo, &hi, &w);
+  *e = lo; /* a level the runs refuted: no model of nseg segments gets below it */
+done:
+  fit_tube_clear(&w);
+  return st;
+}

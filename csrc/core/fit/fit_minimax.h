@@ -27,4 +27,11 @@ int fit_minimax_count(const fit_data *d, size_t nseg, int continuous,
                       const fit_cons *cons, sw_pwl *out, double *e_out,
                       size_t *iters, sw_err *err);
 
+/* Bounds for every model of d's samples (any scheme, continuous or not):
+ * *m, the fewest segments within e (maxseg + 1 once above maxseg; SIZE_MAX
+ * when no run of samples fits); *e, a level no model of nseg segments gets
+ * below (the discontinuous optimum, from below, to relative precision rtol). */
+int fit_minimax_lower(const fit_data *d, double e, size_t maxseg, size_t *m, sw_err *err);
+int fit_minimax_floor(const fit_data *d, size_t nseg, double rtol, double *e, sw_err *err);
+
 #endif
