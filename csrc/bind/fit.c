@@ -134,7 +134,7 @@ static void read_knots(lua_State *L, sw_fit_opts *o)
  * values is the core's (fit_opts.c).  Lists stay on the stack. */
 static void read_opts(lua_State *L, sw_fit_opts *o)
 {
-  luaL_checktype(L, 2, LUA_TTABLE);
+  lsw_checktable(L, 2, "fit", "options");
   sw_fit_opts_init(o);
   opt_number(L, "lo", &o->lo);
   opt_number(L, "hi", &o->hi);

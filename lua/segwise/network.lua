@@ -25,10 +25,26 @@ Op.__tostring = function(op) return require("segwise.report").op_table(op) end
 
 local function fmt(x) return ("%.6g"):format(x) end
 
+-- A name given as a number: a whole number names what its digits name (1
+-- and 1.0 are both "1"); any other number is refused, since its printed
+-- form would round (0.1 + 0.2 prints as 0.3).
+local function number_name(fname, what, v)
+  local k = math.tointeger(v)
+  if not k then
+    util.raise(("segwise.%s: %s must be a string or a whole number (got %s)"):format(fname,
+      what, tostring(v)))
+  end
+  return tostring(k)
+end
+
+-- A name: non-empty, without NUL bytes (C would cut "a\0b" to "a").
 local function name_arg(fname, what, v)
-  if type(v) == "number" then return tostring(v) end
+  if type(v) == "number" then return number_name(fname, what, v) end
   if type(v) ~= "string" or v == "" then
     error(("segwise.%s: %s must be a non-empty string (got %s)"):format(fname, what, type(v)), 3)
+  end
+  if v:find("\0", 1, true) then
+    util.raise(("segwise.%s: %s contains a NUL byte (%q)"):format(fname, what, v))
   end
   return v
 end
@@ -36,9 +52,9 @@ end
 local function node_arg(fname, what, v)
   if type(v) == "number" then
     if v ~= v then error(("segwise.%s: %s is NaN"):format(fname, what), 3) end
-    return tostring(v)
+    return number_name(fname, what, v)
   end
-  return name_arg(fname, what, v)
+  return name_arg(fname, what .. " name", v)
 end
 
 -- The C method's error at the caller's level (see util.call).
@@ -46,7 +62,10 @@ local function call(fname, f, ...) return util.call(fname, f, ...) end
 
 -- numbers used as node names index results as strings too
 local by_string = {
-  __index = function(t, k) if type(k) == "number" then return rawget(t, tostring(k)) end end
+  __index = function(t, k)
+    local n = type(k) == "number" and math.tointeger(k)
+    if n then return rawget(t, tostring(n)) end
+  end
 }
 
 function M.network()
@@ -738,6 +757,9 @@ local function spreads(self, vary)
   return names, tols, gauss
 end
 
+-- Runs of one study, and the largest seed (32 bits).
+local MAX_RUNS, MAX_SEED = 100000000, 4294967295
+
 -- Table form: per element and quantity (v, i, p), the running statistics
 -- of every run, then min, max, mean and sd as tables by element.
 local function run_stats(list)
@@ -777,12 +799,18 @@ function Network:montecarlo(vary, opts)
   opts = check_opts("network:montecarlo", opts,
     { runs = "number", seed = "number", max_states = "number", out = "table" })
   local names, tols, gauss = spreads(self, vary)
-  local runs = opts.runs or 1000
-  if runs ~= math.floor(runs) then
-    error("segwise.network:montecarlo: runs must be an integer", 2)
+  local runs = math.tointeger(opts.runs or 1000)
+  if not runs or runs < 1 or runs > MAX_RUNS then
+    error(("segwise.network:montecarlo: runs must be a whole number in 1..%d (got %s)"):format(
+      MAX_RUNS, tostring(opts.runs)), 2)
   end
-  runs = math.tointeger(runs)
-  local seed = math.tointeger(opts.seed or 1) or 1
+  -- GSL's MT19937 takes the low 32 bits of its seed: larger seeds would
+  -- silently repeat smaller ones, and a fraction would be cut
+  local seed = math.tointeger(opts.seed or 1)
+  if not seed or seed < 0 or seed > MAX_SEED then
+    error(("segwise.network:montecarlo: seed must be a whole number in 0..%d (got %s)"):format(
+      MAX_SEED, tostring(opts.seed)), 2)
+  end
   if opts.out then
     local res = call("network:montecarlo", self._c.montecarlo_arrays, self._c, names, tols,
       gauss, runs, seed, opts.max_states, opts.out)

@@ -136,6 +136,9 @@ local function call_with(fname, rename, f, ...)
   error(msg, 0)
 end
 
+-- Raises msg at the user's line (the first frame outside this library).
+function util.raise(msg) error(msg, user_level()) end
+
 function util.call(fname, f, ...) return call_with(fname, false, f, ...) end
 function util.call_as(fname, f, ...) return call_with(fname, true, f, ...) end
 
