@@ -45,6 +45,7 @@ build = {
         "csrc/core/net/net_lcp.c",
         "csrc/core/net/net_lowrank.c",
         "csrc/core/net/net_mna.c",
+        "csrc/core/net/net_scale.c",
         "csrc/core/net/net_sweep.c",
         "csrc/core/net/net_unique.c",
         "csrc/core/pwl/pwl.c",

@@ -22,9 +22,10 @@ function H.check_kirchhoff(net, op, rel)
     sum[a], mag[a] = sum[a] + i, mag[a] + math.abs(i)
     sum[b], mag[b] = sum[b] - i, mag[b] + math.abs(i)
     local v = op.v[a] - op.v[b]
+    local vd = op.vd[e.name]
     assert.is.near(v, op.vd[e.name], rel * (vmax + 1e-300))
     if e.kind == "resistor" then
-      assert.is.near(v / e.value, i, rel * (math.abs(i) + math.abs(v / e.value)) + 1e-300)
+      assert.is.near(vd / e.value, i, rel * (math.abs(i) + math.abs(vd / e.value)) + 1e-300)
     elseif e.kind == "vsource" then
       assert.is.near(e.value, v, rel * (math.abs(e.value) + vmax))
     elseif e.kind == "isource" then

@@ -415,6 +415,22 @@ static int check_topology(sw_net *net, sw_err *err)
   return rc;
 }
 
+/* A resistor this much smaller than the largest one gets its current as an
+ * unknown of its own (the row V(na) - V(nb) - R i = 0): its drop may be
+ * below the rounding of its node voltages (1 nOhm at a 1 V node beside
+ * 1 GOhm), where V(na) - V(nb) over R would be noise. */
+#define STIFF_RATIO 1e-8
+
+static int stiff_resistor(const sw_net *net, const sw_net_el *e)
+{
+  size_t k;
+  double rmax = 0;
+  if (e->kind != SW_NET_R) return 0;
+  for (k = 0; k < net->nel; k++)
+    if (net->el[k].kind == SW_NET_R && net->el[k].value > rmax) rmax = net->el[k].value;
+  return e->value < STIFF_RATIO * rmax;
+}
+
 int sw_net_prepare(sw_net *net, sw_err *err)
 {
   size_t k, col;
@@ -423,7 +439,7 @@ int sw_net_prepare(sw_net *net, sw_err *err)
   col = net->nnodes - 1;
   for (k = 0; k < net->nel; k++) {
     sw_net_el *e = &net->el[k];
-    e->col = is_vlike(e->kind) ? col++ : SW_NET_NONE;
+    e->col = is_vlike(e->kind) || stiff_resistor(net, e) ? col++ : SW_NET_NONE;
   }
   for (k = 0; k < net->ndev; k++) {
     net->dev[k].col = col++;

@@ -140,6 +140,12 @@ void sw_net_op_free(sw_net_op *op);
 int sw_net_stamp(const sw_net *net, const int *state, gsl_matrix *A,
                  gsl_vector *rhs);
 int sw_net_reduce(sw_net *net, sw_err *err);
+/* Scales A in place to diag(dr) A diag(dc) with power-of-two factors (rows
+ * first, then columns, each to a largest entry in [1, 2)); dr has size1,
+ * dc size2 entries (net_scale.c).  A x = b becomes (dr A dc)(x / dc) = dr b. */
+void sw_net_equilibrate(gsl_matrix *A, double *dr, double *dc);
+/* The row half alone: A becomes diag(dr) A (same solutions, same null space). */
+void sw_net_equilibrate_rows(gsl_matrix *A, double *dr);
 int sw_net_stability(const sw_net *net, const sw_net_op *op, sw_err *err);
 
 /* Low-rank (Sherman-Morrison-Woodbury) solves of state systems against a
@@ -284,6 +290,9 @@ int sw_net_sweep_arrays(sw_net *net, const sw_net_sweep_spec *sp, const sw_net_q
                         size_t nq, sw_net_sweep_info *info, sw_err *err);
 /* Current of element k from a full unknown vector y (net_mna.c). */
 double sw_net_el_current(const sw_net *net, const double *y, size_t k);
+/* Branch voltage of element k from y: V(na) - V(nb), or R i for a resistor
+ * solved for its current (one far smaller than the largest resistor). */
+double sw_net_el_voltage(const sw_net *net, const double *y, size_t k);
 
 /* Seeded Monte Carlo over element values (see net_sweep.c): full operating
  * points, or chosen quantities into arrays (drawn[q] holds n values). */

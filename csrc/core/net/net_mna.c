@@ -27,6 +27,10 @@ static void add_current(const sw_net *net, gsl_matrix *A, gsl_vector *rhs,
   const sw_net_el *e = &net->el[k];
   switch (e->kind) {
   case SW_NET_R:
+    if (e->col != SW_NET_NONE) { /* a stiff resistor: its current is an unknown */
+      *gsl_matrix_ptr(A, r, e->col) += coef;
+      break;
+    }
     add_v(A, r, e->na, coef / e->value); add_v(A, r, e->nb, -coef / e->value);
     break;
   case SW_NET_I:
@@ -62,6 +66,9 @@ int sw_net_stamp(const sw_net *net, const int *state, gsl_matrix *A, gsl_vector 
         add_v(A, e->col, e->cm, e->value);
       } else
         add_current(net, A, rhs, e->col, e->ctrl, -e->value);
+    } else if (e->kind == SW_NET_R && e->col != SW_NET_NONE) {
+      add_v(A, e->col, e->na, 1); add_v(A, e->col, e->nb, -1);
+      *gsl_matrix_ptr(A, e->col, e->col) -= e->value;
     }
   }
   if (state)
@@ -176,6 +183,7 @@ int sw_net_reduce(sw_net *net, sw_err *err)
   size_t N = net->nunk, nl = net->nlin, m = net->ndev, r, c, j;
   gsl_matrix *L = NULL, *LT = NULL, *Q = NULL, *R = NULL;
   gsl_vector *s = NULL, *tau = NULL, *w = NULL;
+  double *dr;
   int rc = SW_OK;
   net->K = sw_alloc(N * m, sizeof(double), err);
   net->yp = sw_alloc(N, sizeof(double), err);
@@ -184,6 +192,8 @@ int sw_net_reduce(sw_net *net, sw_err *err)
   net->vp = sw_alloc(m, sizeof(double), err);
   net->ip = sw_alloc(m, sizeof(double), err);
   if (!net->K || !net->yp || !net->Xv || !net->Xi || !net->vp || !net->ip) return SW_ENOMEM;
+  dr = sw_alloc(nl + 1, sizeof *dr, err);
+  if (!dr) return SW_ENOMEM;
   if (nl == 0) { /* only devices: every unknown is free */
     for (j = 0; j < m; j++) net->K[j * m + j] = 1;
   } else {
@@ -195,6 +205,10 @@ int sw_net_reduce(sw_net *net, sw_err *err)
       goto done;
     }
     if ((rc = linear_rows(net, L, s, err))) goto done;
+    /* rows only: the rank test is fair to rows of 1e-13 S, and the null
+     * space and K's orthonormal columns stay those of the unscaled L */
+    sw_net_equilibrate_rows(L, dr);
+    for (r = 0; r < nl; r++) s->data[r * s->stride] *= dr[r];
     gsl_matrix_transpose_memcpy(LT, L);
     if (gsl_linalg_QR_decomp(LT, tau) || gsl_linalg_QR_unpack(LT, tau, Q, R)) {
       rc = sw_err_set(err, SW_ENUMERIC, "QR factorisation of the linear part failed");
@@ -224,6 +238,7 @@ int sw_net_reduce(sw_net *net, sw_err *err)
 done:
   gsl_matrix_free(L); gsl_matrix_free(LT); gsl_matrix_free(Q); gsl_matrix_free(R);
   gsl_vector_free(s); gsl_vector_free(tau); gsl_vector_free(w);
+  free(dr);
   return rc;
 }
 
@@ -317,7 +332,9 @@ static double el_current(const sw_net *net, const double *y, size_t k)
 {
   const sw_net_el *e = &net->el[k];
   switch (e->kind) {
-  case SW_NET_R: return (node_of(y, e->na) - node_of(y, e->nb)) / e->value;
+  case SW_NET_R:
+    if (e->col != SW_NET_NONE) return y[e->col];
+    return (node_of(y, e->na) - node_of(y, e->nb)) / e->value;
   case SW_NET_I: return e->value;
   case SW_NET_VCCS: return e->value * (node_of(y, e->cp) - node_of(y, e->cm));
   case SW_NET_CCCS: return e->value * el_current(net, y, e->ctrl);
@@ -328,6 +345,14 @@ static double el_current(const sw_net *net, const double *y, size_t k)
 double sw_net_el_current(const sw_net *net, const double *y, size_t k)
 {
   return el_current(net, y, k);
+}
+
+/* A stiff resistor's drop is R i: its node voltages may not resolve it. */
+double sw_net_el_voltage(const sw_net *net, const double *y, size_t k)
+{
+  const sw_net_el *e = &net->el[k];
+  if (e->kind == SW_NET_R && e->col != SW_NET_NONE) return e->value * y[e->col];
+  return node_of(y, e->na) - node_of(y, e->nb);
 }
 
 /* Fills op from a full unknown vector y. */
@@ -349,7 +374,7 @@ int sw_net_op_from_y(const sw_net *net, const double *y, const int *state, sw_ne
   for (k = 1; k < n; k++) op->vnode[k] = y[k - 1];
   for (k = 0; k < ne; k++) {
     const sw_net_el *e = &net->el[k];
-    op->v[k] = op->vnode[e->na] - op->vnode[e->nb];
+    op->v[k] = sw_net_el_voltage(net, y, k);
     op->i[k] = el_current(net, y, k);
     op->p[k] = op->v[k] * op->i[k];
     if (!sw_isfinite(op->v[k]) || !sw_isfinite(op->i[k])) {
@@ -368,6 +393,20 @@ int sw_net_op_from_y(const sw_net *net, const double *y, const int *state, sw_ne
   return SW_OK;
 }
 
+/* y = dc * (scaled LU)^-1 (dr * rhs), in place in the scaled solve's work. */
+static int scaled_solve(const gsl_matrix *LU, const gsl_permutation *p, const double *dr,
+                        const double *dc, const gsl_vector *rhs, gsl_vector *y)
+{
+  size_t r, N = rhs->size;
+  for (r = 0; r < N; r++) gsl_vector_set(y, r, dr[r] * gsl_vector_get(rhs, r));
+  if (gsl_linalg_LU_svx(LU, p, y)) return 1;
+  for (r = 0; r < N; r++) *gsl_vector_ptr(y, r) *= dc[r];
+  return 0;
+}
+
+/* The full MNA system of a state, equilibrated (net_scale.c) so that
+ * singularity is judged on the scaled matrix, then one step of iterative
+ * refinement with the residual b - A y summed in long double. */
 int sw_net_op_from_state(const sw_net *net, const int *state, sw_net_op *op,
                          sw_err *err)
 {
@@ -376,30 +415,30 @@ int sw_net_op_from_state(const sw_net *net, const int *state, sw_net_op *op,
   gsl_vector *b = gsl_vector_alloc(N), *y = gsl_vector_alloc(N), *res = gsl_vector_alloc(N),
              *dy = gsl_vector_alloc(N);
   gsl_permutation *p = gsl_permutation_alloc(N);
+  double *dr = sw_alloc(2 * N + 1, sizeof *dr, err), *dc = dr ? dr + N : NULL;
   int sgn, rc = SW_OK;
-  if (!A || !LU || !b || !y || !res || !dy || !p) {
+  if (!A || !LU || !b || !y || !res || !dy || !p || !dr) {
     rc = sw_err_set(err, SW_ENOMEM, "out of memory in the MNA solve");
     goto done;
   }
   sw_net_stamp(net, state, A, b);
   gsl_matrix_memcpy(LU, A);
-  if (gsl_linalg_LU_decomp(LU, p, &sgn) || lu_singular(LU, max_abs(A)) ||
-      gsl_linalg_LU_solve(LU, p, b, y)) {
+  sw_net_equilibrate(LU, dr, dc);
+  if (gsl_linalg_LU_decomp(LU, p, &sgn) || lu_singular(LU, 1.0) ||
+      scaled_solve(LU, p, dr, dc, b, y)) {
     rc = sw_err_set(err, SW_ENUMERIC, "the circuit matrix of this state is singular");
     goto done;
   }
-  /* one step of iterative refinement: res = b - A y */
-  gsl_vector_memcpy(res, b);
   for (r = 0; r < N; r++) {
     long double acc = gsl_vector_get(b, r);
     for (c = 0; c < N; c++) acc -= (long double)gsl_matrix_get(A, r, c) * gsl_vector_get(y, c);
     gsl_vector_set(res, r, (double)acc);
   }
-  if (gsl_linalg_LU_solve(LU, p, res, dy) == GSL_SUCCESS) gsl_vector_add(y, dy);
+  if (!scaled_solve(LU, p, dr, dc, res, dy)) gsl_vector_add(y, dy);
   rc = sw_net_op_from_y(net, y->data, state, op, err);
 done:
   gsl_matrix_free(A); gsl_matrix_free(LU); gsl_vector_free(b); gsl_vector_free(y);
-  gsl_vector_free(res); gsl_vector_free(dy); gsl_permutation_free(p);
+  gsl_vector_free(res); gsl_vector_free(dy); gsl_permutation_free(p); free(dr);
   return rc;
 }
 

@@ -148,14 +148,12 @@ static int write_point(const sw_net *net, sweep_ws *w, const double *z, size_t k
     y[r] = acc;
   }
   for (j = 0; j < nq; j++) {
-    const sw_net_el *e;
     double val = 0;
     switch (q[j].kind) {
     case SW_NQ_I: val = sw_net_el_current(net, y, q[j].idx); break;
-    case SW_NQ_VD: e = &net->el[q[j].idx]; val = node_v(y, e->na) - node_v(y, e->nb); break;
+    case SW_NQ_VD: val = sw_net_el_voltage(net, y, q[j].idx); break;
     case SW_NQ_P:
-      e = &net->el[q[j].idx];
-      val = (node_v(y, e->na) - node_v(y, e->nb)) * sw_net_el_current(net, y, q[j].idx);
+      val = sw_net_el_voltage(net, y, q[j].idx) * sw_net_el_current(net, y, q[j].idx);
       break;
     case SW_NQ_V: val = node_v(y, q[j].idx); break;
     case SW_NQ_STATE: val = net->dev[q[j].idx].seg[w->state[q[j].idx]].label; break;
