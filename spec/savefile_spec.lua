@@ -138,10 +138,12 @@ describe("safe file writing, beyond the three writers' common cases:", function(
       local path = dir .. "/ro.csv"
       local f = assert(io.open(path, "wb")); f:write("old\n"); f:close()
       assert.is_true(sh("chmod 444 " .. q(path) .. " && chmod 777 " .. q(dir)))
-      if subproc.root_can_drop() then
+      if files.lines_of("id -u")[1] == "0" then
         model:save(path) -- root writes read-only files, as the shell's > would
         assert.are.equal("444", mode_of(path))
         f = assert(io.open(path, "wb")); f:write("old\n"); f:close()
+      end
+      if subproc.root_can_drop() then
         local ok, out = subproc.lua(([[
           local sw = require "segwise"
           print(pcall(function() sw.pwl { x = { 0, 1 }, y = { 0, 1 } }:save(%q) end))
@@ -149,7 +151,7 @@ describe("safe file writing, beyond the three writers' common cases:", function(
         assert.is_true(ok, out)
         assert.is_truthy(out:find('false\tsegwise.model:save: cannot write "' .. path
           .. '": Permission denied', 1, true), out)
-      else
+      elseif files.lines_of("id -u")[1] ~= "0" then
         raises('segwise.model:save: cannot write "' .. path .. '": Permission denied',
           model.save, model, path)
       end
