@@ -86,6 +86,21 @@ describe("segwise: element values over many decades", function()
     for k, row in ipairs(rows) do rel_near(k / 2, row.v.g, 1e-12) end
   end)
 
+  it("sweeps a resistor across the ratio where another gets its own current unknown", function()
+    -- RTOP = 1 ohm becomes a resistor solved for its current once RBOTTOM
+    -- passes 1e8 ohm: the sweep's workspace must hold the larger system
+    -- (a heap overflow found by the network fuzzer)
+    local values = { 1e3, 1e9, 1e12, 10 }
+    local net = divider(1, 1e3)
+    local rows = net:sweep("RBOTTOM", values)
+    local arr = net:sweep("RBOTTOM", values, { out = { "i.RTOP", "v.mid" } })
+    for k, r in ipairs(values) do
+      rel_near(1 / (1 + r), rows[k].i.RTOP, 1e-12)  -- Ohm's law, series pair
+      rel_near(1 / (1 + r), arr["i.RTOP"][k], 1e-12)
+      rel_near(r / (1 + r), arr["v.mid"][k], 1e-12)
+    end
+  end)
+
   it("keeps Kirchhoff's current law on ladders with values from 1 micro-ohm to 1 tera-ohm",
     function()
       -- a pseudo-random ladder (fixed seed): series values and shunts

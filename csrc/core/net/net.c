@@ -431,6 +431,14 @@ static int stiff_resistor(const sw_net *net, const sw_net_el *e)
   return e->value < STIFF_RATIO * rmax;
 }
 
+size_t sw_net_max_unknowns(const sw_net *net)
+{
+  size_t k, n = net->nnodes - 1;
+  for (k = 0; k < net->nel; k++)
+    if (is_vlike(net->el[k].kind) || net->el[k].kind == SW_NET_R) n++;
+  return n + net->ndev;
+}
+
 int sw_net_prepare(sw_net *net, sw_err *err)
 {
   size_t k, col;

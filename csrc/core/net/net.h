@@ -117,6 +117,9 @@ int sw_net_add_device(sw_net *net, const char *name, const char *na,
 int sw_net_set(sw_net *net, const char *name, double value, sw_err *err);
 /* Topology checks and the port reduction (called by every solver). */
 int sw_net_prepare(sw_net *net, sw_err *err);
+/* The most unknowns any values of this topology give (every resistor with
+ * a current unknown): the size of workspaces kept across value changes. */
+size_t sw_net_max_unknowns(const sw_net *net);
 const char *sw_net_kind_name(sw_net_kind k);
 
 /* Linear algebra (net_mna.c).  Port values of a state; SW_ENUMERIC when

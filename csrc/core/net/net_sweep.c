@@ -174,10 +174,12 @@ static int write_point(const sw_net *net, sweep_ws *w, const double *z, size_t k
   return SW_OK;
 }
 
-/* The workspace for a prepared network (sizes fixed by its topology). */
+/* The workspace for a prepared network, sized for its topology: a swept or
+ * drawn resistor may change which resistors carry a current unknown, so
+ * the unknowns are counted at their most. */
 static int ws_init(sw_net *net, sweep_ws *w, sw_err *err)
 {
-  size_t m = net->ndev, N = net->nunk;
+  size_t m = net->ndev, N = sw_net_max_unknowns(net);
   memset(w, 0, sizeof *w);
   w->max_iter = sw_net_assumed_max_iter(net);
   w->yp0 = sw_alloc(2 * N + 4 * m + 1, sizeof *w->yp0, err);
