@@ -21,7 +21,8 @@ FUZZ_NAMES   := curve pwl \
                 $(if $(filter csrc/core/text/textread.c,$(FUZZ_CORE)),text) \
                 $(if $(filter csrc/core/fit/fit.c,$(FUZZ_CORE)),fit) \
                 $(if $(filter csrc/core/net/net.c,$(FUZZ_CORE)),net) \
-                $(if $(filter csrc/core/pwl/pwl_io.c,$(FUZZ_CORE)),model)
+                $(if $(filter csrc/core/pwl/pwl_io.c,$(FUZZ_CORE)),model) \
+                bind
 FUZZ_BINS    := $(patsubst %,$(FUZZ_DIR)/fuzz_%,$(FUZZ_NAMES))
 
 .PHONY: fuzz fuzz-build fuzz-deps ctest
@@ -47,6 +48,21 @@ $(FUZZ_LIB): $(FUZZ_OBJ)
 
 $(FUZZ_DIR)/fuzz_%: spec/fuzz/fuzz_%.c spec/fuzz/fuzz_input.h $(FUZZ_LIB)
 	$(FUZZ_CC) $(FUZZ_CFLAGS) $(FUZZ_SAN) $< $(FUZZ_LIB) -lgsl -lgslcblas -lm -o $@
+
+# The binding harness embeds Lua 5.4 (the static library) and compiles the
+# binding's own sources with the sanitizers; it loads ./lua, so it runs from
+# the repository root.
+FUZZ_BIND_OBJ := $(patsubst csrc/bind/%.c,$(FUZZ_DIR)/bind/%.o,$(wildcard csrc/bind/*.c))
+FUZZ_LUA_INC  := $(shell pkg-config --cflags lua5.4 2>/dev/null || echo -I/usr/include/lua5.4)
+
+$(FUZZ_DIR)/bind/%.o: csrc/bind/%.c csrc/bind/bind.h $(CORE_HDR)
+	@mkdir -p $(dir $@)
+	$(FUZZ_CC) $(FUZZ_CFLAGS) $(FUZZ_LUA_INC) -fsanitize=fuzzer-no-link,address,undefined \
+	  -fno-sanitize-recover=undefined -c $< -o $@
+
+$(FUZZ_DIR)/fuzz_bind: spec/fuzz/fuzz_bind.c spec/fuzz/fuzz_input.h $(FUZZ_BIND_OBJ) $(FUZZ_LIB)
+	$(FUZZ_CC) $(FUZZ_CFLAGS) $(FUZZ_LUA_INC) $(FUZZ_SAN) $< $(FUZZ_BIND_OBJ) $(FUZZ_LIB) \
+	  -l:liblua5.4.a -lgsl -lgslcblas -lm -ldl -lpthread -o $@
 
 fuzz-build: fuzz-deps
 	@$(MAKE) --no-print-directory $(FUZZ_BINS)
